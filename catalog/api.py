@@ -1,0 +1,128 @@
+"""The Python API: ``catalog.open(path)`` returns a :class:`Catalog`.
+
+Every method is one operation on the catalogue file (opened, used, closed), so a
+notebook and the command line can share one file.  DataFrames are in SI units with
+the canonical field names as columns.
+"""
+from __future__ import annotations
+
+__all__ = ["Catalog", "open_catalog"]
+
+import difflib
+from pathlib import Path
+
+from .errors import InputError, NotFound, Problem
+from .store import Store, default_path
+
+_VIEWS = {"motors": "motors", "gearheads": "gearheads", "motor": "motors", "gearhead": "gearheads"}
+
+
+class Catalog:
+    """One catalogue file.
+
+    Parameters
+    ----------
+    path : str or Path, optional
+        The DuckDB file; default ``$MOTORSHELF_DB`` or ``./motorshelf.duckdb``.
+    wait : float
+        Seconds to wait for a catalogue that another process is writing.
+    """
+
+    def __init__(self, path=None, wait: float = 30.0):
+        self.path = Path(path) if path is not None else default_path()
+        self.store = Store(self.path, wait=wait)
+
+    def __repr__(self) -> str:
+        return f"Catalog({str(self.path)!r})"
+
+    # -- import ----------------------------------------------------------------
+    def import_files(self, paths, mapping=None, keep_valid: bool = False, rejects=None,
+                     derive: bool = True, progress=None):
+        """Import datasheet files (CSV, XLSX, JSON, YAML); see :func:`catalog.ingest.import_files`."""
+        from .ingest import import_files
+
+        paths = [paths] if isinstance(paths, (str, Path)) else list(paths)
+        return import_files(self.store, paths, mapping=mapping, keep_valid=keep_valid,
+                            rejects=rejects, derive=derive, progress=progress)
+
+    def validate_files(self, paths, mapping=None):
+        """Check files as an import would; writes nothing."""
+        from .ingest import validate_files
+
+        paths = [paths] if isinstance(paths, (str, Path)) else list(paths)
+        return validate_files(paths, mapping=mapping)
+
+    # -- reading ---------------------------------------------------------------
+    def _view(self, name: str, where: str | None = None):
+        with self.store.read() as con:
+            sql = f"SELECT * FROM {_VIEWS[name]}"
+            if where:
+                sql += f" WHERE {where}"
+            return con.execute(sql + " ORDER BY id").arrow().read_all().to_pandas()
+
+    def motors(self):
+        """Every motor as a pandas DataFrame, one SI column per canonical field."""
+        return self._view("motors")
+
+    def gearheads(self):
+        """Every gearhead as a pandas DataFrame, one SI column per canonical field."""
+        return self._view("gearheads")
+
+    def sql(self, query: str, params=None):
+        """Run a read-only SQL query; returns a pandas DataFrame."""
+        import duckdb
+
+        with self.store.read() as con:
+            try:
+                res = con.execute(query, params or [])
+            except duckdb.Error as exc:
+                first = str(exc).splitlines()[0]
+                raise InputError(f"sql: {first}", [Problem("sql", None, None, first)]) from None
+            if res.description is None:
+                import pandas as pd
+
+                return pd.DataFrame()
+            return res.arrow().read_all().to_pandas()
+
+    def ids(self) -> list[str]:
+        with self.store.read() as con:
+            return [r[0] for r in con.execute("SELECT record_id FROM records ORDER BY record_id").fetchall()]
+
+    def record(self, record_id: str):
+        """One record: (record_type, manufacturer, part_number, values DataFrame).
+
+        The values frame has one row per stored field with the SI value, the raw text
+        and unit, the origin (given or derived), the relation and its inputs, and the
+        source file and row.  An unknown id raises :class:`NotFound` with suggestions.
+        """
+        with self.store.read() as con:
+            head = con.execute(
+                "SELECT record_type, manufacturer, part_number FROM records WHERE record_id = ?",
+                [record_id]).fetchone()
+            if head is None:
+                ids = [r[0] for r in con.execute("SELECT record_id FROM records").fetchall()]
+                close = difflib.get_close_matches(record_id, ids, n=5, cutoff=0.5)
+                hint = f"; did you mean {', '.join(close)}?" if close else "; `motorshelf list motors` shows the ids"
+                raise NotFound(f"no record with id {record_id!r}{hint}", suggestions=close)
+            values = con.execute(
+                "SELECT field, value_num, value_text, raw_text, raw_unit, origin, relation, inputs, "
+                "source_file, source_row, batch_id FROM record_values WHERE record_id = ?",
+                [record_id]).arrow().read_all().to_pandas()
+        return head[0], head[1], head[2], values
+
+    def summary(self) -> dict:
+        """Counts: suppliers, motors, gearheads, values, derived values."""
+        with self.store.read() as con:
+            row = con.execute(
+                "SELECT count(DISTINCT manufacturer), count(*) FILTER (WHERE record_type='motor'), "
+                "count(*) FILTER (WHERE record_type='gearhead') FROM records").fetchone()
+            vals = con.execute(
+                "SELECT count(*) FILTER (WHERE origin='given'), count(*) FILTER (WHERE origin='derived') "
+                "FROM record_values").fetchone()
+        return {"suppliers": row[0], "motors": row[1], "gearheads": row[2],
+                "given_values": vals[0], "derived_values": vals[1]}
+
+
+def open_catalog(path=None, wait: float = 30.0) -> Catalog:
+    """Open (or prepare to create) the catalogue file at ``path``."""
+    return Catalog(path, wait=wait)

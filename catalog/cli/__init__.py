@@ -1,0 +1,69 @@
+"""The ``motorshelf`` command: a thin mirror of the Python API.
+
+Each command parses its options, calls one API method and prints the result.
+User mistakes print one ``error: ...`` line per problem and exit with code 2.
+Heavy libraries are imported inside the commands, so ``--help`` starts fast.
+"""
+from __future__ import annotations
+
+__all__ = ["main", "cli"]
+
+import functools
+import sys
+
+import click
+
+from .. import __version__
+
+
+class Context:
+    def __init__(self, db):
+        self.db = db
+
+    def catalog(self):
+        from ..api import Catalog
+
+        return Catalog(self.db)
+
+
+def handle_errors(func):
+    """Turn project errors into `error:` lines and exit code 2 (no traceback)."""
+
+    @functools.wraps(func)
+    def wrapper(*args, **kwargs):
+        from ..errors import MotorshelfError
+
+        try:
+            return func(*args, **kwargs)
+        except MotorshelfError as exc:
+            problems = getattr(exc, "problems", None) or []
+            for p in problems:
+                click.echo(f"error: {p}", err=True)
+            if not problems or len(problems) > 1:
+                click.echo(f"error: {exc.message}", err=True)
+            sys.exit(exc.exit_code)
+
+    return wrapper
+
+
+@click.group(context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
+@click.option("--db", "db", type=click.Path(dir_okay=False), default=None, metavar="PATH",
+              help="Catalogue file (default: $MOTORSHELF_DB, else ./motorshelf.duckdb).")
+@click.version_option(__version__, prog_name="motorshelf")
+@click.pass_context
+def cli(ctx, db):
+    """motorshelf: keep a catalogue of PM DC motors and gearheads in SI units and pick the
+    right one for a load."""
+    ctx.obj = Context(db)
+
+
+from . import catalogue  # noqa: E402,F401  (registers the commands)
+
+
+def main(argv=None):
+    """Console entry point."""
+    try:
+        cli.main(args=argv, prog_name="motorshelf", standalone_mode=True)
+    except KeyboardInterrupt:  # pragma: no cover
+        click.echo("error: interrupted", err=True)
+        sys.exit(130)

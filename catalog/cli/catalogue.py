@@ -1,0 +1,134 @@
+"""Catalogue commands: import, validate, list, show, sql."""
+from __future__ import annotations
+
+import sys
+
+import click
+
+from . import Context, cli, handle_errors
+from .output import FORMAT_OPTION, UNITS_OPTION, format_number, print_frame
+
+
+def _echo_problems(problems, prefix="error"):
+    for p in problems:
+        click.echo(f"{prefix}: {p}", err=True)
+
+
+def _print_report(report, verb: str) -> None:
+    for f in report.files:
+        state = "ok" if not f.problems else ("rejected" if f.accepted == 0 else f"{len(f.problems)} problem(s)")
+        click.echo(f"{f.source}: {f.record_type or '?'}s, {f.rows} row(s), {f.accepted} {verb}, "
+                   f"{f.converted} value(s) converted to SI [{state}]")
+    _echo_problems(report.warnings, "warning")
+
+
+@cli.command("import")
+@click.argument("files", nargs=-1, required=True, type=click.Path())
+@click.option("--mapping", type=click.Path(), default=None, metavar="PROFILE",
+              help="Mapping profile (YAML) for files with a supplier's own column headers.")
+@click.option("--keep-valid", is_flag=True, help="Import the valid rows and write the rejected ones to --rejects.")
+@click.option("--rejects", type=click.Path(dir_okay=False), default=None, metavar="FILE",
+              help="CSV file receiving the rejected rows with their reasons (with --keep-valid).")
+@click.pass_obj
+@handle_errors
+def import_cmd(obj: Context, files, mapping, keep_valid, rejects):
+    """Import datasheet files (CSV, XLSX, JSON, YAML) into the catalogue, in one transaction."""
+    from ..errors import ImportRejected
+
+    cat = obj.catalog()
+    try:
+        report = cat.import_files(list(files), mapping=mapping, keep_valid=keep_valid, rejects=rejects)
+    except ImportRejected as exc:
+        _print_report(exc.report, "importable")
+        _echo_problems(exc.problems)
+        click.echo(f"error: {len(exc.problems)} problem(s); nothing was imported, {cat.path} is unchanged", err=True)
+        sys.exit(2)
+    _print_report(report, "imported")
+    if report.problems:
+        _echo_problems(report.problems)
+    click.echo(f"{cat.path}: {report.created} record(s) created, {report.updated} updated, "
+               f"{report.values} value(s) stored, {report.converted} converted to SI"
+               + (f", {report.derived} derived" if report.derived else ""))
+    for flag in report.flags:
+        click.echo(f"flag: {flag}")
+    if report.rejects_file:
+        click.echo(f"{len(report.problems)} problem(s); rejected rows written to {report.rejects_file}")
+        sys.exit(2)
+
+
+@cli.command("validate")
+@click.argument("files", nargs=-1, required=True, type=click.Path())
+@click.option("--mapping", type=click.Path(), default=None, metavar="PROFILE",
+              help="Mapping profile (YAML) for files with a supplier's own column headers.")
+@click.pass_obj
+@handle_errors
+def validate_cmd(obj: Context, files, mapping):
+    """Check datasheet files as an import would, writing nothing."""
+    report = obj.catalog().validate_files(list(files), mapping=mapping)
+    _print_report(report, "valid")
+    if report.problems:
+        _echo_problems(report.problems)
+        click.echo(f"error: {len(report.problems)} problem(s)", err=True)
+        sys.exit(2)
+    click.echo("all files valid")
+
+
+@cli.command("list")
+@click.argument("kind", type=click.Choice(["motors", "gearheads"]))
+@UNITS_OPTION
+@FORMAT_OPTION
+@click.pass_obj
+@handle_errors
+def list_cmd(obj: Context, kind, units, fmt):
+    """List the motors or gearheads of the catalogue (main columns, in display units)."""
+    from ..present import LIST_COLUMNS, display_frame
+
+    cat = obj.catalog()
+    rtype = kind[:-1]
+    df = cat.motors() if kind == "motors" else cat.gearheads()
+    out = display_frame(df, rtype, units, columns=LIST_COLUMNS[rtype])
+    print_frame(out, fmt, title=f"{len(out)} {kind} in {cat.path}")
+
+
+@cli.command("show")
+@click.argument("record_id", metavar="ID")
+@UNITS_OPTION
+@click.pass_obj
+@handle_errors
+def show_cmd(obj: Context, record_id, units):
+    """Show every field of one record with its value, unit and origin."""
+    from ..fields import fields_for
+    from ..present import display_value
+
+    rtype, manufacturer, part_number, values = obj.catalog().record(record_id)
+    by_field = {row.field: row for row in values.itertuples(index=False)}
+    click.echo(f"{record_id}  ({rtype}: {manufacturer} {part_number})")
+    for name, f in fields_for(rtype).items():
+        if name in ("id", "manufacturer", "part_number"):
+            continue
+        row = by_field.get(name)
+        if row is None:
+            click.echo(f"  {name:<36} -")
+            continue
+        if f.is_numeric:
+            v, label = display_value(row.value_num, f.dimension, units)
+            text = f"{format_number(v, 5)} {label}".strip()
+        else:
+            text = str(row.value_text)
+        if row.origin == "derived":
+            origin = f"derived: {row.relation} from {row.inputs}"
+        else:
+            where = f"{row.source_file}:{row.source_row}" if row.source_file else ""
+            origin = f"given: {row.raw_text!r} ({where})" if row.raw_text is not None else f"given ({where})"
+        click.echo(f"  {name:<36} {text:<20} {origin}")
+
+
+@cli.command("sql")
+@click.argument("query")
+@FORMAT_OPTION
+@click.pass_obj
+@handle_errors
+def sql_cmd(obj: Context, query, fmt):
+    """Run a read-only SQL query on the catalogue (views: motors, gearheads; SI units)."""
+    df = obj.catalog().sql(query)
+    print_frame(df, fmt)

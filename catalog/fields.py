@@ -1,0 +1,112 @@
+"""Field descriptions built once from the JSON Schema files in ``schemas/``.
+
+The schema files are the one source of truth for the canonical field names, their
+types, physical dimensions (``x-dimension``), bounds, enums and required fields.
+Every layer (import, validation, store views, display) uses these descriptions, so
+a new field is one schema edit.
+"""
+from __future__ import annotations
+
+__all__ = [
+    "Field",
+    "RECORD_TYPES",
+    "schema_dir",
+    "load_schema",
+    "fields_for",
+    "field_names",
+    "numeric_fields",
+    "schema_version",
+]
+
+import json
+from dataclasses import dataclass
+from functools import lru_cache
+from pathlib import Path
+
+RECORD_TYPES = ("motor", "gearhead")
+_SCHEMA_FILES = {"motor": "motor.schema.json", "gearhead": "gearhead.schema.json",
+                 "mapping": "mapping.schema.json", "envelope": "envelope.schema.json",
+                 "stock": "stock.schema.json"}
+
+
+def schema_dir() -> Path:
+    """Folder holding the JSON Schema files (``schemas/`` at the project top)."""
+    here = Path(__file__).resolve().parent
+    for candidate in (here.parent / "schemas", here / "schemas"):
+        if (candidate / "motor.schema.json").is_file():
+            return candidate
+    raise FileNotFoundError(f"schemas/ not found beside {here}")
+
+
+@lru_cache(maxsize=None)
+def load_schema(name: str) -> dict:
+    """The parsed JSON Schema ``name`` (motor, gearhead, mapping, envelope, stock)."""
+    return json.loads((schema_dir() / _SCHEMA_FILES[name]).read_text(encoding="utf-8"))
+
+
+@dataclass(frozen=True)
+class Field:
+    """One canonical field of a record type, as its schema states it."""
+
+    name: str
+    record_type: str
+    kind: str  # "number", "integer" or "string"
+    dimension: str | None  # physical dimension for quantities, else None
+    description: str
+    required: bool = False
+    minimum: float | None = None
+    exclusive_minimum: float | None = None
+    maximum: float | None = None
+    enum: tuple[str, ...] | None = None
+    pattern: str | None = None
+    max_length: int | None = None
+    min_length: int | None = None
+
+    @property
+    def is_numeric(self) -> bool:
+        return self.kind in ("number", "integer")
+
+    @property
+    def is_quantity(self) -> bool:
+        """A numeric field with a physical dimension (its cells carry units)."""
+        return self.is_numeric and self.dimension is not None
+
+
+@lru_cache(maxsize=None)
+def fields_for(record_type: str) -> dict[str, Field]:
+    """Ordered mapping name -> :class:`Field` for ``motor`` or ``gearhead``."""
+    if record_type not in RECORD_TYPES:
+        raise ValueError(f"unknown record type {record_type!r}, expected one of {RECORD_TYPES}")
+    schema = load_schema(record_type)
+    required = set(schema.get("required", ()))
+    out: dict[str, Field] = {}
+    for name, spec in schema["properties"].items():
+        enum = spec.get("enum")
+        out[name] = Field(
+            name=name,
+            record_type=record_type,
+            kind=spec.get("type", "string"),
+            dimension=spec.get("x-dimension"),
+            description=spec.get("description", ""),
+            required=name in required,
+            minimum=spec.get("minimum"),
+            exclusive_minimum=spec.get("exclusiveMinimum"),
+            maximum=spec.get("maximum"),
+            enum=tuple(enum) if enum else None,
+            pattern=spec.get("pattern"),
+            max_length=spec.get("maxLength"),
+            min_length=spec.get("minLength"),
+        )
+    return out
+
+
+def field_names(record_type: str) -> list[str]:
+    return list(fields_for(record_type))
+
+
+def numeric_fields(record_type: str) -> list[str]:
+    return [f.name for f in fields_for(record_type).values() if f.is_numeric]
+
+
+def schema_version(record_type: str) -> int:
+    return int(load_schema(record_type).get("x-version", 1))

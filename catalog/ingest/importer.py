@@ -1,0 +1,309 @@
+"""Import: files -> normalised, validated tables -> one transaction in the store.
+
+Every file of one call is read and checked before anything is written.  Without
+``keep_valid`` a single problem anywhere rejects the whole call and the catalogue
+stays exactly as it was; with it, the valid rows are imported and the rejected ones
+written with their reasons.  Re-importing a record (same manufacturer and
+part_number) updates its values and moves the previous ones to ``value_history``.
+"""
+from __future__ import annotations
+
+__all__ = ["ImportReport", "read_and_check", "import_files", "validate_files", "write_rejects"]
+
+import csv
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import ImportRejected, InputError, Problem
+from ..fields import fields_for
+from ..validate import check_table
+from .mapping import load_mapping
+from .normalise import NormalTable, normalise, slug
+from .readers import read_file
+
+
+@dataclass
+class FileResult:
+    source: str
+    record_type: str | None = None
+    rows: int = 0
+    accepted: int = 0
+    problems: list = field(default_factory=list)
+    warnings: list = field(default_factory=list)
+    converted: int = 0
+
+
+@dataclass
+class ImportReport:
+    """What an import (or a validation) did, file by file."""
+
+    files: list = field(default_factory=list)  # FileResult
+    created: int = 0
+    updated: int = 0
+    values: int = 0
+    converted: int = 0
+    batch_id: int | None = None
+    rejects_file: str | None = None
+    derived: int = 0
+    flags: list = field(default_factory=list)
+
+    @property
+    def problems(self) -> list[Problem]:
+        return [p for f in self.files for p in f.problems]
+
+    @property
+    def warnings(self) -> list[Problem]:
+        return [p for f in self.files for p in f.warnings]
+
+    @property
+    def ok(self) -> bool:
+        return not self.problems
+
+
+def _identity(table: NormalTable) -> tuple[list, list[Problem]]:
+    """Record ids for the rows; default a slug of manufacturer and part_number."""
+    cols = table.columns
+    n = table.n
+    man = cols["manufacturer"].values if "manufacturer" in cols else [None] * n
+    pn = cols["part_number"].values if "part_number" in cols else [None] * n
+    given = cols["id"].values if "id" in cols else [None] * n
+    ids = [g if g else (slug(m, p) if m and p else None) for g, m, p in zip(given, man, pn)]
+    problems = []
+    first: dict[str, int] = {}
+    keyfirst: dict[tuple, int] = {}
+    for i, rid in enumerate(ids):
+        if rid is None:
+            continue
+        key = (str(man[i]).strip().lower(), str(pn[i]).strip().lower())
+        row = table.row_numbers[i]
+        if key in keyfirst:
+            problems.append(Problem(table.source, row, "part_number",
+                                    f"{pn[i]!r} of {man[i]!r} appears twice in this file "
+                                    f"(first at row {keyfirst[key]}), expected once"))
+        elif rid in first:
+            problems.append(Problem(table.source, row, "id",
+                                    f"id {rid!r} appears twice in this file (first at row {first[rid]}), expected once"))
+        keyfirst.setdefault(key, row)
+        first.setdefault(rid, row)
+    return ids, problems
+
+
+def read_and_check(paths, mapping=None) -> list[tuple[NormalTable | None, FileResult, list]]:
+    """Read, normalise and check every file; nothing is written.
+
+    Returns, per table, the normalised table, its :class:`FileResult` and its ids.
+    """
+    profile = None
+    out = []
+    if mapping is not None:
+        profile = load_mapping(mapping)  # an invalid profile raises: nothing else is read
+    for path in paths:
+        try:
+            raws = read_file(path, sheet=profile.sheet if profile else None,
+                             header_row=profile.header_row if profile else 1)
+        except InputError as exc:
+            out.append((None, FileResult(str(path), problems=list(exc.problems)), []))
+            continue
+        for raw in raws:
+            table = normalise(raw, profile)
+            result = FileResult(raw.source, table.record_type, rows=table.n,
+                                problems=list(table.problems), warnings=list(table.warnings),
+                                converted=table.converted)
+            if table.n == 0:
+                result.problems.append(Problem(raw.source, None, None, "no records, expected at least one row"))
+            columns = {f: c.values for f, c in table.columns.items()}
+            raw_texts = {f: c.raw_text for f, c in table.columns.items()}
+            bad_cells = {(p.row, p.field) for p in result.problems}
+            for pos, fname, msg in check_table(table.record_type, columns, raw_texts) if table.n else []:
+                row = table.row_numbers[pos]
+                if (row, fname) not in bad_cells:  # a cell that failed to parse is reported once
+                    result.problems.append(Problem(raw.source, row, fname, msg))
+            ids, id_problems = _identity(table)
+            result.problems.extend(id_problems)
+            result.problems.sort(key=lambda p: (p.row or 0, p.field or ""))
+            out.append((table, result, ids))
+    return out
+
+
+def _long_frame(table: NormalTable, ids: list, keep: np.ndarray):
+    """The long rows (record, field, value...) of the kept rows of one table."""
+    import pandas as pd
+
+    frames = []
+    rows = np.asarray(table.row_numbers)
+    idx = np.flatnonzero(keep)
+    id_arr = np.asarray(ids, dtype=object)[idx]
+    for fname, col in table.columns.items():
+        if fname in ("id", "manufacturer", "part_number"):
+            continue
+        fdesc = fields_for(table.record_type)[fname]
+        raw_text = np.asarray(col.raw_text, dtype=object)[idx]
+        raw_unit = np.asarray(col.raw_unit, dtype=object)[idx]
+        if fdesc.is_numeric:
+            vals = np.asarray(col.values, dtype=float)[idx]
+            present = ~np.isnan(vals)
+            vnum, vtext = vals[present], None
+        else:
+            vals = np.asarray(col.values, dtype=object)[idx]
+            present = np.array([v is not None for v in vals], dtype=bool)
+            vnum, vtext = None, vals[present]
+        m = int(present.sum())
+        if m == 0:
+            continue
+        frames.append(pd.DataFrame({
+            "record_id": id_arr[present],
+            "field": fname,
+            "value_num": vnum if vnum is not None else np.full(m, np.nan),
+            "value_text": vtext if vtext is not None else np.full(m, None, dtype=object),
+            "raw_text": raw_text[present],
+            "raw_unit": raw_unit[present],
+            "origin": "given",
+            "relation": None,
+            "inputs": None,
+            "source_file": table.source,
+            "source_row": rows[idx][present].astype("int64"),
+        }))
+    if not frames:
+        return None
+    return pd.concat(frames, ignore_index=True)
+
+
+def _records_frame(table: NormalTable, ids: list, keep: np.ndarray):
+    import pandas as pd
+
+    idx = np.flatnonzero(keep)
+    return pd.DataFrame({
+        "record_id": np.asarray(ids, dtype=object)[idx],
+        "record_type": table.record_type,
+        "manufacturer": np.asarray(table.columns["manufacturer"].values, dtype=object)[idx],
+        "part_number": np.asarray(table.columns["part_number"].values, dtype=object)[idx],
+    })
+
+
+def write_rejects(path, checked) -> int:
+    """Write the rejected rows of ``checked`` with their reasons as CSV; returns the count."""
+    headers: list[str] = []
+    rows = []
+    for table, result, _ids in checked:
+        by_row: dict = {}
+        for p in result.problems:
+            by_row.setdefault(p.row, []).append(p)
+        raw = table.raw if table is not None else None
+        if raw is not None:
+            for h in raw.headers:
+                if h not in headers:
+                    headers.append(h)
+        for row, problems in by_row.items():
+            reasons = "; ".join(f"{p.field + ': ' if p.field else ''}{p.message}" for p in problems)
+            cells = {}
+            if raw is not None and row in raw.row_numbers:
+                r = raw.rows[raw.row_numbers.index(row)]
+                cells = {h: ("" if v is None else v) for h, v in zip(raw.headers, r)}
+            rows.append({"source_file": result.source, "source_row": row if row is not None else "",
+                         "reasons": reasons, **cells})
+    path = Path(path)
+    path.parent.mkdir(parents=True, exist_ok=True)
+    with path.open("w", newline="", encoding="utf-8") as fh:
+        writer = csv.DictWriter(fh, fieldnames=["source_file", "source_row", "reasons", *headers],
+                                extrasaction="ignore")
+        writer.writeheader()
+        writer.writerows(rows)
+    return len(rows)
+
+
+def validate_files(paths, mapping=None) -> ImportReport:
+    """Check files as an import would, writing nothing."""
+    report = ImportReport()
+    for table, result, _ids in read_and_check(paths, mapping):
+        result.accepted = 0 if result.problems else result.rows
+        report.files.append(result)
+        report.converted += result.converted
+    return report
+
+
+def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, derive=False,
+                 progress=None) -> ImportReport:
+    """Import ``paths`` into ``store`` in one transaction; see the module docstring.
+
+    Raises :class:`~catalog.errors.ImportRejected` (nothing written) when any file has
+    a problem and ``keep_valid`` is false.
+    """
+    import pandas as pd
+
+    if keep_valid and rejects is None:
+        raise InputError("--keep-valid needs --rejects FILE to write the rejected rows to",
+                         [Problem("--rejects", None, None, "missing, expected a file for the rejected rows")])
+    checked = read_and_check(paths, mapping)
+    report = ImportReport()
+    longs, recs = [], []
+    for table, result, ids in checked:
+        report.files.append(result)
+        if table is None:
+            continue
+        bad_rows = {p.row for p in result.problems}
+        if None in bad_rows or table.raw is None:
+            keep = np.zeros(table.n, dtype=bool)  # a problem of the whole file rejects the file
+        else:
+            header_row = table.raw.header_row
+            if header_row is not None and header_row in bad_rows:
+                keep = np.zeros(table.n, dtype=bool)
+            else:
+                keep = np.array([r not in bad_rows for r in table.row_numbers], dtype=bool)
+        result.accepted = int(keep.sum())
+        if not keep.any():
+            continue
+        report.converted += result.converted
+        lf = _long_frame(table, ids, keep)
+        if lf is not None:
+            longs.append(lf)
+        recs.append(_records_frame(table, ids, keep))
+    problems = report.problems
+    if problems and not keep_valid:
+        raise ImportRejected(f"{len(problems)} problem(s); nothing was imported", problems, report=report)
+    if keep_valid and problems:
+        write_rejects(rejects, checked)
+        report.rejects_file = str(rejects)
+    if not recs:
+        return report
+    records = pd.concat(recs, ignore_index=True)
+    values = pd.concat(longs, ignore_index=True) if longs else None
+    files = ", ".join(str(p) for p in paths)
+    with store.write() as con:
+        batch = store.new_batch(con, "import", files=files)
+        report.batch_id = batch
+        con.register("incoming_records", records)
+        existing = con.execute(
+            "SELECT count(*) FROM incoming_records i JOIN records r USING (record_id)").fetchone()[0]
+        report.updated = int(existing)
+        report.created = len(records) - report.updated
+        con.execute(
+            "UPDATE records SET updated_batch = ?, manufacturer = i.manufacturer, part_number = i.part_number "
+            "FROM incoming_records i WHERE records.record_id = i.record_id", [batch])
+        con.execute(
+            "INSERT INTO records SELECT record_id, record_type, manufacturer, part_number, ?, ? "
+            "FROM incoming_records WHERE record_id NOT IN (SELECT record_id FROM records)", [batch, batch])
+        if values is not None:
+            values["batch_id"] = batch
+            con.register("incoming_values", values)
+            # previous given values and every derived value of touched records go to history
+            con.execute(
+                "INSERT INTO value_history SELECT v.*, ?, now() FROM record_values v "
+                "WHERE (v.record_id, v.field) IN (SELECT record_id, field FROM incoming_values) "
+                "OR (v.origin = 'derived' AND v.record_id IN (SELECT record_id FROM incoming_records))",
+                [batch])
+            con.execute(
+                "DELETE FROM record_values WHERE (record_id, field) IN (SELECT record_id, field FROM incoming_values) "
+                "OR (origin = 'derived' AND record_id IN (SELECT record_id FROM incoming_records))")
+            con.execute("INSERT INTO record_values SELECT * FROM incoming_values")
+            report.values = len(values)
+            con.unregister("incoming_values")
+        con.unregister("incoming_records")
+        if derive:
+            from ..derive import derive_in_store
+
+            outcome = derive_in_store(con, batch, record_ids=list(records["record_id"]))
+            report.derived = outcome.derived
+            report.flags = outcome.flags
+    return report

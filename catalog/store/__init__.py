@@ -1,0 +1,172 @@
+"""The catalogue file: a DuckDB database opened per operation.
+
+DuckDB lets one process at a time hold a file open for writing, so every operation
+opens the file, does its work in one transaction and closes it again.  A process
+that finds the file busy waits and retries for a bounded time, then fails with
+:class:`~catalog.errors.StoreBusy`.  Writes go in bulk (a registered DataFrame and
+``INSERT ... SELECT``), never row by row.
+"""
+from __future__ import annotations
+
+__all__ = ["Store", "default_path", "SCHEMA_VERSION"]
+
+import contextlib
+import os
+import random
+import time
+from pathlib import Path
+
+from ..errors import StoreBusy, StoreError
+from .schema import MIGRATIONS, SCHEMA_VERSION, all_view_sql
+
+_FIELDS_KEY = "fields_signature"
+
+
+def default_path() -> Path:
+    """``$MOTORSHELF_DB`` if set, else ``./motorshelf.duckdb``."""
+    return Path(os.environ.get("MOTORSHELF_DB") or "motorshelf.duckdb")
+
+
+def _is_lock_error(exc: Exception) -> bool:
+    text = str(exc).lower()
+    return "lock" in text and ("conflict" in text or "could not set" in text or "held" in text)
+
+
+def _fields_signature() -> str:
+    from ..fields import RECORD_TYPES, fields_for
+
+    return ";".join(f"{t}:" + ",".join(f"{f.name}/{f.kind}" for f in fields_for(t).values())
+                    for t in RECORD_TYPES)
+
+
+class Store:
+    """Access to one catalogue file.
+
+    Parameters
+    ----------
+    path : str or Path
+        The DuckDB file; created (with its tables) on the first write.
+    wait : float
+        How long [s] a writer or reader waits for a busy file before giving up.
+    """
+
+    def __init__(self, path, wait: float = 30.0):
+        self.path = Path(path)
+        self.wait = float(wait)
+        self._migrated = False
+
+    # -- connections ---------------------------------------------------------
+    def _connect(self, read_only: bool):
+        import duckdb
+
+        deadline = time.monotonic() + self.wait
+        delay = 0.02
+        while True:
+            try:
+                return duckdb.connect(str(self.path), read_only=read_only)
+            except duckdb.IOException as exc:
+                if not _is_lock_error(exc):
+                    raise StoreError(f"{self.path}: cannot open the catalogue: {exc}", path=str(self.path)) from None
+                if time.monotonic() >= deadline:
+                    raise StoreBusy(
+                        f"{self.path}: the catalogue is busy (another motorshelf process is using it); "
+                        f"gave up after {self.wait:g} s, try again when it has finished",
+                        path=str(self.path)) from None
+            except duckdb.Error as exc:
+                raise StoreError(f"{self.path}: cannot open the catalogue: {exc}", path=str(self.path)) from None
+            time.sleep(delay * (0.5 + random.random()))
+            delay = min(delay * 1.6, 0.5)
+
+    @contextlib.contextmanager
+    def write(self):
+        """A read-write connection inside one transaction (committed on success)."""
+        self.path.parent.mkdir(parents=True, exist_ok=True)
+        con = self._connect(read_only=False)
+        try:
+            self._migrate(con)
+            con.execute("BEGIN TRANSACTION")
+            try:
+                yield con
+            except BaseException:
+                con.execute("ROLLBACK")
+                raise
+            con.execute("COMMIT")
+        finally:
+            con.close()
+
+    @contextlib.contextmanager
+    def read(self):
+        """A read-only connection.  A missing file reads as an empty catalogue."""
+        if not self.path.exists():
+            import duckdb
+
+            con = duckdb.connect(":memory:")
+            try:
+                self._migrate(con)
+                yield con
+            finally:
+                con.close()
+            return
+        con = self._connect(read_only=True)
+        try:
+            version = self._file_version(con)
+            if version is None or version < SCHEMA_VERSION or self._stale_views(con):
+                con.close()
+                with self.write():
+                    pass  # migrate, then reopen read-only
+                con = self._connect(read_only=True)
+            yield con
+        finally:
+            con.close()
+
+    # -- migrations ----------------------------------------------------------
+    @staticmethod
+    def _file_version(con) -> int | None:
+        try:
+            row = con.execute("SELECT max(version) FROM schema_version").fetchone()
+        except Exception:
+            return None
+        return None if row is None or row[0] is None else int(row[0])
+
+    @staticmethod
+    def _stale_views(con) -> bool:
+        try:
+            row = con.execute("SELECT value FROM meta WHERE key = ?", [_FIELDS_KEY]).fetchone()
+        except Exception:
+            return True
+        return row is None or row[0] != _fields_signature()
+
+    def _migrate(self, con) -> None:
+        version = self._file_version(con) or 0
+        if version > SCHEMA_VERSION:
+            raise StoreError(
+                f"{self.path}: catalogue file has layout version {version}, newer than this motorshelf "
+                f"knows ({SCHEMA_VERSION}); upgrade motorshelf, the file was not changed",
+                path=str(self.path), version=version)
+        stale = self._stale_views(con)
+        if version == SCHEMA_VERSION and not stale:
+            return
+        con.execute("BEGIN TRANSACTION")
+        try:
+            for v in range(version + 1, SCHEMA_VERSION + 1):
+                for stmt in MIGRATIONS[v]:
+                    con.execute(stmt)
+                con.execute("INSERT INTO schema_version (version) VALUES (?)", [v])
+            for stmt in all_view_sql():
+                con.execute(stmt)
+            con.execute("INSERT OR REPLACE INTO meta VALUES (?, ?)", [_FIELDS_KEY, _fields_signature()])
+            con.execute("COMMIT")
+        except BaseException:
+            con.execute("ROLLBACK")
+            raise
+
+    # -- helpers -------------------------------------------------------------
+    @staticmethod
+    def new_batch(con, kind: str, files: str = "", note: str = "") -> int:
+        batch_id = con.execute("SELECT nextval('batch_seq')").fetchone()[0]
+        con.execute(
+            "INSERT INTO batches (batch_id, kind, started_at, files, note, user_name) "
+            "VALUES (?, ?, now(), ?, ?, ?)",
+            [batch_id, kind, files, note, os.environ.get("USER", "")],
+        )
+        return int(batch_id)

@@ -1,0 +1,88 @@
+"""DDL of the catalogue file, its migrations and the generated wide views.
+
+The long table ``record_values`` is the source of truth: one row per record and
+field, with the SI value, the text as written, where it came from and the import
+batch.  The views ``motors`` and ``gearheads`` pivot it into one SI column per
+canonical field, generated from the schema files.
+"""
+from __future__ import annotations
+
+__all__ = ["SCHEMA_VERSION", "MIGRATIONS", "view_sql", "VALUE_COLUMNS"]
+
+from ..fields import RECORD_TYPES, fields_for
+
+#: Version of the catalogue file layout this code writes.
+SCHEMA_VERSION = 1
+
+VALUE_COLUMNS = (
+    "record_id", "field", "value_num", "value_text", "raw_text", "raw_unit",
+    "origin", "relation", "inputs", "source_file", "source_row", "batch_id",
+)
+
+_V1 = [
+    """CREATE TABLE IF NOT EXISTS schema_version (
+        version INTEGER NOT NULL, applied_at TIMESTAMP NOT NULL DEFAULT current_timestamp)""",
+    """CREATE TABLE IF NOT EXISTS meta (key VARCHAR PRIMARY KEY, value VARCHAR)""",
+    """CREATE TABLE IF NOT EXISTS batches (
+        batch_id INTEGER PRIMARY KEY, kind VARCHAR NOT NULL, started_at TIMESTAMP NOT NULL,
+        files VARCHAR, note VARCHAR, user_name VARCHAR)""",
+    """CREATE TABLE IF NOT EXISTS records (
+        record_id VARCHAR PRIMARY KEY, record_type VARCHAR NOT NULL,
+        manufacturer VARCHAR NOT NULL, part_number VARCHAR NOT NULL,
+        created_batch INTEGER NOT NULL, updated_batch INTEGER NOT NULL)""",
+    """CREATE TABLE IF NOT EXISTS record_values (
+        record_id VARCHAR NOT NULL, field VARCHAR NOT NULL,
+        value_num DOUBLE, value_text VARCHAR, raw_text VARCHAR, raw_unit VARCHAR,
+        origin VARCHAR NOT NULL, relation VARCHAR, inputs VARCHAR,
+        source_file VARCHAR, source_row INTEGER, batch_id INTEGER NOT NULL,
+        PRIMARY KEY (record_id, field))""",
+    """CREATE TABLE IF NOT EXISTS value_history (
+        record_id VARCHAR NOT NULL, field VARCHAR NOT NULL,
+        value_num DOUBLE, value_text VARCHAR, raw_text VARCHAR, raw_unit VARCHAR,
+        origin VARCHAR NOT NULL, relation VARCHAR, inputs VARCHAR,
+        source_file VARCHAR, source_row INTEGER, batch_id INTEGER NOT NULL,
+        replaced_by_batch INTEGER NOT NULL, replaced_at TIMESTAMP NOT NULL)""",
+    """CREATE TABLE IF NOT EXISTS flags (
+        record_id VARCHAR NOT NULL, relation VARCHAR NOT NULL, given VARCHAR,
+        field VARCHAR, given_value DOUBLE, implied_value DOUBLE, residual DOUBLE,
+        batch_id INTEGER NOT NULL, PRIMARY KEY (record_id, relation))""",
+    "CREATE SEQUENCE IF NOT EXISTS batch_seq START 1",
+]
+
+#: version -> list of statements bringing a file from version-1 to version.
+MIGRATIONS: dict[int, list[str]] = {1: _V1}
+
+
+def _column_expr(field) -> str:
+    name = field.name
+    if field.is_numeric:
+        expr = f"max(v.value_num) FILTER (WHERE v.field = '{name}')"
+        if field.kind == "integer":
+            expr = f"CAST({expr} AS BIGINT)"
+        return f"{expr} AS {name}"
+    return f"max(v.value_text) FILTER (WHERE v.field = '{name}') AS {name}"
+
+
+def view_sql(record_type: str) -> str:
+    """``CREATE OR REPLACE VIEW`` for the wide view of ``record_type``.
+
+    Field names come from the schema files (checked identifiers, never file text).
+    """
+    view = {"motor": "motors", "gearhead": "gearheads"}[record_type]
+    cols = []
+    for field in fields_for(record_type).values():
+        if field.name in ("id", "manufacturer", "part_number"):
+            continue
+        assert field.name.isidentifier()
+        cols.append(_column_expr(field))
+    return (
+        f"CREATE OR REPLACE VIEW {view} AS SELECT r.record_id AS id, r.manufacturer, r.part_number, "
+        + ", ".join(cols)
+        + " FROM records r LEFT JOIN record_values v ON v.record_id = r.record_id"
+        + f" WHERE r.record_type = '{record_type}'"
+        + " GROUP BY r.record_id, r.manufacturer, r.part_number"
+    )
+
+
+def all_view_sql() -> list[str]:
+    return [view_sql(t) for t in RECORD_TYPES]
