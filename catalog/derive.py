@@ -1,0 +1,407 @@
+"""Derivation of missing motor constants, with provenance, and consistency residuals.
+
+The physical relations of the linear DC motor are kept as data: :data:`EQUATIONS`
+lists each relation once, with the fields it ties together and a solver for every
+field it can be solved for (plain functions of :mod:`catalog.physics`).  The
+closure walks the table over whole columns (numpy), filling a missing field
+wherever all the inputs of one of its solvers are present, repeatedly until nothing
+more follows.  Where a record gives every field of a relation, the relation is
+over-determined and its relative residual is computed: a large one is a datasheet
+typo or a different definition.
+
+Every derived value is recomputed from the given values only, so deriving twice
+changes nothing, and a given value is never replaced.
+"""
+from __future__ import annotations
+
+__all__ = ["Equation", "Solver", "EQUATIONS", "DeriveResult", "derive_columns", "residuals",
+           "derive_in_store", "DEFAULT_TOLERANCE", "relation_table_markdown", "Flag"]
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from . import physics as P
+
+#: Relative residual above which an over-determined relation is flagged.
+DEFAULT_TOLERANCE = 0.10
+#: Ambient temperature for the catalogue's continuous ratings [K] (25 °C).
+RATING_AMBIENT = 298.15
+#: Resistance reference temperature assumed when a datasheet does not state it [K] (25 °C).
+DEFAULT_REFERENCE_TEMPERATURE = 298.15
+
+
+@dataclass(frozen=True)
+class Solver:
+    """``output = func(*inputs)``; ``inputs`` are canonical field names."""
+
+    output: str
+    inputs: tuple
+    func: object
+    fragile: bool = False  # a small difference of large rounded numbers: used only as a last resort
+
+
+@dataclass(frozen=True)
+class Equation:
+    """A physical relation between catalogue fields, solvable for several of them.
+
+    The first solver is the relation's primary form, used for the residual.
+    ``dc_constants`` marks relations that need Kt and Ke on the same (DC-equivalent)
+    basis: they are skipped for brushless records stated line-to-line.
+    """
+
+    name: str
+    solvers: tuple
+    dc_constants: bool = False
+
+    @property
+    def fields(self) -> tuple:
+        out = [self.solvers[0].output, *self.solvers[0].inputs]
+        for s in self.solvers[1:]:
+            for f in (s.output, *s.inputs):
+                if f not in out:
+                    out.append(f)
+        return tuple(out)
+
+
+def _s(output, func, *inputs, fragile=False):
+    return Solver(output, tuple(inputs), func, fragile)
+
+
+V, R, I0, KT, KE = "nominal_voltage", "terminal_resistance", "no_load_current", "torque_constant", "back_emf_constant"
+IS, TS, W0, G = "stall_current", "stall_torque", "no_load_speed", "speed_torque_gradient"
+TREF = "resistance_reference_temperature"
+
+
+def _max_continuous_current(tmax, r, rth1, rth2, tref):
+    return P.max_continuous_current(tmax, r, rth1, rth2, RATING_AMBIENT, tref)
+
+
+EQUATIONS: tuple = (
+    Equation("torque constant equals back-EMF constant (SI)", (
+        _s(KT, P.torque_constant_from_back_emf_constant, KE),
+        _s(KE, P.back_emf_constant_from_torque_constant, KT)), dc_constants=True),
+    Equation("speed constant", (
+        _s("speed_constant", P.speed_constant_from_back_emf_constant, KE),
+        _s(KE, P.back_emf_constant_from_speed_constant, "speed_constant")), dc_constants=True),
+    Equation("stall current", (
+        _s(IS, P.stall_current, V, R),
+        _s(R, P.resistance_from_stall_current, V, IS),
+        _s(V, P.supply_voltage_from_stall_current, IS, R))),
+    Equation("stall torque", (
+        _s(TS, P.stall_torque, KT, IS, I0),
+        _s(KT, P.torque_constant_from_stall, TS, IS, I0),
+        _s(IS, P.stall_current_from_stall_torque, TS, KT, I0),
+        _s(I0, P.no_load_current_from_stall, TS, KT, IS, fragile=True))),
+    Equation("no-load speed", (
+        _s(W0, P.no_load_speed, V, R, I0, KE),
+        _s(KE, P.back_emf_constant_from_no_load_speed, W0, V, R, I0),
+        _s(I0, P.no_load_current_from_no_load_speed, W0, V, R, KE, fragile=True),
+        _s(R, P.resistance_from_no_load_speed, W0, V, I0, KE, fragile=True),
+        _s(V, P.supply_voltage_from_no_load_speed, W0, R, I0, KE))),
+    Equation("speed-torque line", (
+        _s(G, P.speed_torque_gradient_from_no_load_speed_and_stall_torque, W0, TS),
+        _s(TS, P.stall_torque_from_no_load_speed_and_gradient, W0, G),
+        _s(W0, P.no_load_speed_from_stall_torque_and_gradient, TS, G)), dc_constants=True),
+    Equation("speed-torque gradient", (
+        _s(G, P.speed_torque_gradient, R, KT, KE),
+        _s(R, P.resistance_from_speed_torque_gradient, G, KT, KE)), dc_constants=True),
+    Equation("friction torque", (
+        _s("friction_torque", P.friction_torque, KT, I0),
+        _s(I0, P.no_load_current_from_friction_torque, "friction_torque", KT),
+        _s(KT, P.torque_constant_from_friction_torque, "friction_torque", I0))),
+    Equation("mechanical time constant", (
+        _s("mechanical_time_constant", P.mechanical_time_constant_from_gradient, "rotor_inertia", G),
+        _s("rotor_inertia", P.rotor_inertia_from_gradient, "mechanical_time_constant", G))),
+    Equation("electrical time constant", (
+        _s("electrical_time_constant", P.electrical_time_constant, "terminal_inductance", R),
+        _s("terminal_inductance", P.inductance_from_electrical_time_constant, "electrical_time_constant", R),
+        _s(R, P.resistance_from_electrical_time_constant, "electrical_time_constant", "terminal_inductance"))),
+    Equation("motor constant", (
+        _s("motor_constant", P.motor_constant, KT, R),
+        _s(R, P.resistance_from_motor_constant, "motor_constant", KT),
+        _s(KT, P.torque_constant_from_motor_constant, "motor_constant", R))),
+    Equation("maximum efficiency", (
+        _s("max_efficiency", P.max_efficiency, I0, IS),
+        _s(I0, P.no_load_current_from_max_efficiency, "max_efficiency", IS),
+        _s(IS, P.stall_current_from_max_efficiency, "max_efficiency", I0))),
+    Equation("maximum output power", (
+        _s("max_output_power", P.max_output_power, V, R, I0),)),
+    Equation("nominal current", (
+        _s("nominal_current", P.current_at_torque, "nominal_torque", KT, I0),
+        _s("nominal_torque", P.torque_at_current, "nominal_current", KT, I0))),
+    Equation("nominal speed", (
+        _s("nominal_speed", P.speed_at_torque, "nominal_torque", V, R, KT, KE, I0),
+        _s("nominal_torque", P.torque_at_speed, "nominal_speed", V, R, KT, KE, I0)), dc_constants=True),
+    Equation("maximum continuous current at 25 °C ambient", (
+        _s("max_continuous_current", _max_continuous_current, "max_winding_temperature", R,
+           "thermal_resistance_winding_housing", "thermal_resistance_housing_ambient", TREF),)),
+    Equation("maximum continuous torque at 25 °C ambient", (
+        _s("max_continuous_torque", P.torque_at_current, "max_continuous_current", KT, I0),)),
+)
+
+#: Fields every solver may produce must be numeric motor fields; checked in the tests.
+DERIVABLE = tuple(sorted({s.output for e in EQUATIONS for s in e.solvers}))
+
+
+@dataclass
+class DeriveResult:
+    """Columns after derivation plus, per derived cell, the solver that made it."""
+
+    columns: dict  # field -> float ndarray (given and derived)
+    origin: dict  # field -> object ndarray: None (given/missing) or Solver
+    equation: dict = field(default_factory=dict)  # field -> object ndarray of equation names
+
+    def derived_count(self) -> int:
+        return int(sum(np.count_nonzero(o != None) for o in self.origin.values()))  # noqa: E711
+
+
+def _dc_basis_mask(text_columns: dict, n: int) -> np.ndarray:
+    """True where Kt and Ke may be taken as equal (not a line-to-line brushless value)."""
+    basis = text_columns.get("constant_basis")
+    if basis is None:
+        return np.ones(n, dtype=bool)
+    b = np.asarray(basis, dtype=object)
+    return ~np.isin(b, ["line-to-line-peak", "line-to-line-rms"])
+
+
+def _valid(values: np.ndarray, output: str) -> np.ndarray:
+    """Results a solver may store: finite, and positive (zero allowed where the schema allows)."""
+    from .fields import fields_for
+
+    f = fields_for("motor")[output]
+    ok = np.isfinite(values)
+    if f.exclusive_minimum is not None:
+        ok &= values > f.exclusive_minimum
+    if f.minimum is not None:
+        ok &= values >= f.minimum
+    if f.maximum is not None:
+        ok &= values <= f.maximum
+    return ok
+
+
+def derive_columns(columns: dict, text_columns: dict | None = None, n: int | None = None,
+                   max_passes: int = 20) -> DeriveResult:
+    """Fill every derivable field that follows from the present ones.
+
+    Parameters
+    ----------
+    columns : dict
+        Field name -> float array of given SI values (NaN = missing).  Arrays are
+        not modified.
+    text_columns : dict, optional
+        Field name -> text array (``constant_basis`` is used).
+    """
+    text_columns = text_columns or {}
+    if n is None:
+        n = len(next(iter(columns.values()))) if columns else 0
+    cols = {}
+    for name in {f for e in EQUATIONS for f in e.fields} | set(columns):
+        arr = columns.get(name)
+        cols[name] = np.full(n, np.nan) if arr is None else np.array(arr, dtype=float, copy=True)
+    origin = {name: np.full(n, None, dtype=object) for name in cols}
+    dc_ok = _dc_basis_mask(text_columns, n)
+    # the resistance reference temperature defaults to 25 °C wherever a resistance is known
+    tref_missing = np.isnan(cols[TREF]) & ~np.isnan(cols[R])
+    def apply(fragile: bool) -> bool:
+        changed = False
+        for eq in EQUATIONS:
+            for solver in eq.solvers:
+                if solver.fragile != fragile:
+                    continue
+                out = cols[solver.output]
+                need = np.isnan(out)
+                if eq.dc_constants:
+                    need &= dc_ok
+                for name in solver.inputs:
+                    if name != TREF:
+                        need &= ~np.isnan(cols[name])
+                if not need.any():
+                    continue
+                idx = np.flatnonzero(need)
+                args = [cols[name][idx] if name != TREF else
+                        np.where(np.isnan(cols[TREF][idx]), DEFAULT_REFERENCE_TEMPERATURE, cols[TREF][idx])
+                        for name in solver.inputs]
+                with np.errstate(all="ignore"):
+                    values = np.asarray(solver.func(*args), dtype=float)
+                values = np.broadcast_to(values, idx.shape)
+                ok = _valid(values, solver.output)
+                if ok.any():
+                    out[idx[ok]] = values[ok]
+                    origin[solver.output][idx[ok]] = solver
+                    changed = True
+        return changed
+
+    # well-conditioned relations first; a fragile one only when nothing else follows
+    for _ in range(max_passes):
+        if not apply(False) and not apply(True):
+            break
+    # record the assumed reference temperature as a derived value where it was used
+    default_solver = Solver(TREF, (), None)
+    cols[TREF] = np.where(tref_missing, DEFAULT_REFERENCE_TEMPERATURE, cols[TREF])
+    origin[TREF][tref_missing] = default_solver
+    names = {s: e.name for e in EQUATIONS for s in e.solvers}
+    names[default_solver] = "assumed datasheet reference temperature 25 °C"
+    equation = {f: np.array([None if s is None else names[s] for s in o], dtype=object)
+                for f, o in origin.items()}
+    return DeriveResult(cols, origin, equation)
+
+
+@dataclass(frozen=True)
+class Flag:
+    """One over-determined relation whose given values disagree."""
+
+    record_id: str
+    relation: str
+    field: str
+    given: str  # "field=value, ..." of the given values (SI)
+    given_value: float
+    implied_value: float
+    residual: float
+
+    def __str__(self) -> str:
+        return (f"{self.record_id}: {self.relation}: {self.field} given {self.given_value:.5g}, "
+                f"the other values imply {self.implied_value:.5g} ({self.residual:+.1%}); given {self.given}")
+
+
+def residuals(columns: dict, text_columns: dict | None = None, n: int | None = None):
+    """Relative residual of every relation a record over-determines with given values.
+
+    Returns a list of (equation, row indices, given field values, implied, residual)
+    per equation; ``residual = (given − implied)/implied`` of the primary field.
+    """
+    text_columns = text_columns or {}
+    if n is None:
+        n = len(next(iter(columns.values()))) if columns else 0
+    dc_ok = _dc_basis_mask(text_columns, n)
+    out = []
+    for eq in EQUATIONS:
+        primary = eq.solvers[0]
+        needed = (primary.output, *primary.inputs)
+        if any(name not in columns for name in needed):
+            continue
+        have = np.ones(n, dtype=bool) if not eq.dc_constants else dc_ok.copy()
+        for name in needed:
+            have &= ~np.isnan(np.asarray(columns[name], dtype=float))
+        if not have.any():
+            continue
+        idx = np.flatnonzero(have)
+        args = [np.asarray(columns[name], dtype=float)[idx] for name in primary.inputs]
+        with np.errstate(all="ignore"):
+            implied = np.broadcast_to(np.asarray(primary.func(*args), dtype=float), idx.shape)
+        given = np.asarray(columns[primary.output], dtype=float)[idx]
+        with np.errstate(all="ignore"):
+            res = (given - implied) / np.abs(implied)
+        out.append((eq, idx, {name: np.asarray(columns[name], dtype=float)[idx] for name in needed},
+                    implied, res))
+    return out
+
+
+def relation_table_markdown() -> str:
+    """The relation table as Markdown (documentation is generated from the data)."""
+    lines = ["| relation | field | from |", "|---|---|---|"]
+    for eq in EQUATIONS:
+        for s in eq.solvers:
+            lines.append(f"| {eq.name} | {s.output} | {', '.join(s.inputs)} |")
+    return "\n".join(lines)
+
+
+@dataclass
+class StoreOutcome:
+    derived: int = 0
+    flags: list = field(default_factory=list)
+
+
+def _load_given(con, record_ids):
+    """Given numeric and text values of motors, wide, as numpy columns."""
+    from .fields import fields_for
+
+    fields = fields_for("motor")
+    numeric = [f for f in fields.values() if f.is_numeric]
+    params = []
+    where = ""
+    if record_ids is not None:
+        con.register("derive_ids", _ids_frame(record_ids))
+        where = " AND r.record_id IN (SELECT record_id FROM derive_ids)"
+    select = ", ".join(
+        f"max(v.value_num) FILTER (WHERE v.field = '{f.name}') AS {f.name}" for f in numeric)
+    select += ", max(v.value_text) FILTER (WHERE v.field = 'constant_basis') AS constant_basis"
+    sql = (f"SELECT r.record_id, {select} FROM records r LEFT JOIN record_values v "
+           f"ON v.record_id = r.record_id AND v.origin = 'given' "
+           f"WHERE r.record_type = 'motor'{where} GROUP BY r.record_id ORDER BY r.record_id")
+    table = con.execute(sql, params).arrow().read_all()
+    if record_ids is not None:
+        con.unregister("derive_ids")
+    ids = np.asarray(table.column("record_id").to_pylist(), dtype=object)
+    columns = {f.name: table.column(f.name).to_numpy(zero_copy_only=False).astype(float) for f in numeric}
+    texts = {"constant_basis": np.asarray(table.column("constant_basis").to_pylist(), dtype=object)}
+    return ids, columns, texts
+
+
+def _ids_frame(record_ids):
+    import pandas as pd
+
+    return pd.DataFrame({"record_id": list(record_ids)})
+
+
+def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFAULT_TOLERANCE) -> StoreOutcome:
+    """Recompute the derived values and residuals of motors (all, or ``record_ids``).
+
+    Runs inside the caller's transaction ``con``.  Previous derived values of those
+    records are replaced; given values are never touched.
+    """
+    import pandas as pd
+
+    ids, columns, texts = _load_given(con, record_ids)
+    outcome = StoreOutcome()
+    n = len(ids)
+    if record_ids is None:
+        con.execute("DELETE FROM record_values WHERE origin = 'derived'")
+        con.execute("DELETE FROM flags")
+    elif n:
+        con.register("derive_ids", _ids_frame(ids))
+        con.execute("DELETE FROM record_values WHERE origin = 'derived' AND record_id IN (SELECT record_id FROM derive_ids)")
+        con.execute("DELETE FROM flags WHERE record_id IN (SELECT record_id FROM derive_ids)")
+        con.unregister("derive_ids")
+    if n == 0:
+        return outcome
+    result = derive_columns(columns, texts, n)
+    frames = []
+    for name, origin in result.origin.items():
+        mask = origin != None  # noqa: E711
+        if not mask.any():
+            continue
+        idx = np.flatnonzero(mask)
+        frames.append(pd.DataFrame({
+            "record_id": ids[idx], "field": name, "value_num": result.columns[name][idx],
+            "value_text": None, "raw_text": None, "raw_unit": None, "origin": "derived",
+            "relation": result.equation[name][idx],
+            "inputs": [", ".join(s.inputs) for s in origin[idx]],
+            "source_file": None, "source_row": pd.array([None] * len(idx), dtype="Int64"),
+            "batch_id": batch_id,
+        }))
+    if frames:
+        derived = pd.concat(frames, ignore_index=True)
+        con.register("derived_values", derived)
+        con.execute("INSERT INTO record_values SELECT record_id, field, value_num, CAST(value_text AS VARCHAR), "
+                    "CAST(raw_text AS VARCHAR), CAST(raw_unit AS VARCHAR), origin, relation, inputs, "
+                    "CAST(source_file AS VARCHAR), CAST(source_row AS INTEGER), batch_id FROM derived_values")
+        con.unregister("derived_values")
+        outcome.derived = len(derived)
+    rows = []
+    for eq, idx, given, implied, res in residuals(columns, texts, n):
+        primary = eq.solvers[0].output
+        for k, i in enumerate(idx):
+            text = ", ".join(f"{name}={given[name][k]:.6g}" for name in given)
+            rows.append((ids[i], eq.name, text, primary, float(given[primary][k]), float(implied[k]),
+                         float(res[k]), batch_id))
+            if abs(res[k]) > tolerance:
+                outcome.flags.append(Flag(str(ids[i]), eq.name, primary, text, float(given[primary][k]),
+                                          float(implied[k]), float(res[k])))
+    if rows:
+        frame = pd.DataFrame(rows, columns=["record_id", "relation", "given", "field", "given_value",
+                                            "implied_value", "residual", "batch_id"])
+        con.register("new_flags", frame)
+        con.execute("INSERT INTO flags SELECT * FROM new_flags")
+        con.unregister("new_flags")
+    return outcome

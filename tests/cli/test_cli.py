@@ -1,0 +1,111 @@
+"""The command line: exit codes, exact output lines, no tracebacks, README coverage."""
+from __future__ import annotations
+
+import re
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from catalog.cli import cli
+
+ROOT = Path(__file__).resolve().parents[2]
+
+CSV = """manufacturer,part_number,nominal_voltage [V],stall_torque [mNm],mass [g]
+Acme Test,M-1,24,350,180
+Acme Test,M-2,24,250,120
+"""
+
+
+def run(*args):
+    result = CliRunner().invoke(cli, list(map(str, args)), catch_exceptions=False)
+    return result
+
+
+@pytest.fixture
+def good(tmp_path):
+    p = tmp_path / "good.csv"
+    p.write_text(CSV, encoding="utf-8")
+    return p
+
+
+def test_import_list_show_sql(tmp_path, good):
+    db = tmp_path / "c.duckdb"
+    r = run("--db", db, "import", good)
+    assert r.exit_code == 0, r.output
+    assert "2 record(s) created, 0 updated" in r.output
+    r = run("--db", db, "list", "motors", "--format", "csv", "--units", "si")
+    assert r.exit_code == 0
+    header = r.output.splitlines()[0]
+    assert "stall_torque [N·m]" in header
+    r = run("--db", db, "show", "acme-test-m-1")
+    assert r.exit_code == 0
+    assert re.search(r"stall_torque\s+350 mN·m\s+given: '350'", r.output), r.output
+    r = run("--db", db, "sql", "SELECT id FROM motors ORDER BY mass", "--format", "csv")
+    assert r.output.splitlines() == ["id", "acme-test-m-2", "acme-test-m-1"]
+
+
+def test_bad_file_exit_2_one_line_per_problem(tmp_path):
+    bad = tmp_path / "bad.csv"
+    bad.write_text("manufacturer,part_number,no_load_speed\nA,1,12 N*m\nA,2,3 furlong\n", encoding="utf-8")
+    db = tmp_path / "c.duckdb"
+    r = run("--db", db, "import", bad)
+    assert r.exit_code == 2
+    errors = [line for line in r.output.splitlines() if line.startswith("error:")]
+    assert f"error: {bad}:2:no_load_speed: '12 N*m' is a torque, expected a speed" in errors
+    assert any(line.startswith(f"error: {bad}:3:no_load_speed:") for line in errors)
+    assert "Traceback" not in r.output
+    assert not db.exists() or run("--db", db, "sql", "SELECT count(*) AS n FROM records",
+                                  "--format", "csv").output.splitlines()[1] == "0"
+
+
+def test_validate_and_unknown_id(tmp_path, good):
+    db = tmp_path / "c.duckdb"
+    r = run("--db", db, "validate", good)
+    assert r.exit_code == 0 and "all files valid" in r.output
+    assert not db.exists()
+    run("--db", db, "import", good)
+    r = run("--db", db, "show", "acme-test-m-3")
+    assert r.exit_code == 2
+    assert "error: no record with id 'acme-test-m-3'; did you mean" in r.output
+
+
+def test_sql_error_is_one_line(tmp_path, good):
+    db = tmp_path / "c.duckdb"
+    run("--db", db, "import", good)
+    r = run("--db", db, "sql", "SELEC 1")
+    assert r.exit_code == 2 and r.output.startswith("error: sql:")
+
+
+def test_env_var_default_path(tmp_path, good, monkeypatch):
+    db = tmp_path / "env.duckdb"
+    monkeypatch.setenv("MOTORSHELF_DB", str(db))
+    assert run("import", good).exit_code == 0
+    assert db.exists()
+
+
+def _commands(group, prefix=""):
+    import click
+
+    for name, cmd in sorted(group.commands.items()):
+        yield prefix + name, cmd
+        if isinstance(cmd, click.Group):
+            yield from _commands(cmd, prefix + name + " ")
+
+
+def test_every_command_is_in_the_readme_with_help():
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    for name, cmd in _commands(cli):
+        assert cmd.help, f"command {name} has no help text"
+        assert f"motorshelf --db" in readme
+        assert re.search(rf"motorshelf( --db \S+)? {re.escape(name)}\b", readme), f"README lacks an example of {name}"
+
+
+def test_console_script_help_starts_without_heavy_imports():
+    code = ("import sys; from catalog.cli import cli; "
+            "heavy = [m for m in ('pandas', 'pint', 'duckdb', 'numpy', 'matplotlib') if m in sys.modules]; "
+            "print(','.join(heavy))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True).stdout.strip()
+    assert out == ""
