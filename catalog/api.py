@@ -12,7 +12,7 @@ import difflib
 from pathlib import Path
 
 from .errors import InputError, NotFound, Problem
-from .store import Store, default_path
+from .store import Store, default_path, one
 
 _VIEWS = {"motors": "motors", "gearheads": "gearheads", "motor": "motors", "gearhead": "gearheads"}
 
@@ -58,7 +58,7 @@ class Catalog:
             sql = f"SELECT * FROM {_VIEWS[name]}"
             if where:
                 sql += f" WHERE {where}"
-            return con.execute(sql + " ORDER BY id").arrow().read_all().to_pandas()
+            return con.sql(sql + " ORDER BY id").to_arrow_table().to_pandas()
 
     def motors(self):
         """Every motor as a pandas DataFrame, one SI column per canonical field."""
@@ -74,15 +74,15 @@ class Catalog:
 
         with self.store.read() as con:
             try:
-                res = con.execute(query, params or [])
+                rel = con.sql(query, params=params) if params else con.sql(query)
+                if rel is None:
+                    import pandas as pd
+
+                    return pd.DataFrame()
+                return rel.to_arrow_table().to_pandas()
             except duckdb.Error as exc:
                 first = str(exc).splitlines()[0]
                 raise InputError(f"sql: {first}", [Problem("sql", None, None, first)]) from None
-            if res.description is None:
-                import pandas as pd
-
-                return pd.DataFrame()
-            return res.arrow().read_all().to_pandas()
 
     def ids(self) -> list[str]:
         with self.store.read() as con:
@@ -96,29 +96,55 @@ class Catalog:
         source file and row.  An unknown id raises :class:`NotFound` with suggestions.
         """
         with self.store.read() as con:
-            head = con.execute(
+            head = one(con.execute(
                 "SELECT record_type, manufacturer, part_number FROM records WHERE record_id = ?",
-                [record_id]).fetchone()
+                [record_id]))
             if head is None:
                 ids = [r[0] for r in con.execute("SELECT record_id FROM records").fetchall()]
                 close = difflib.get_close_matches(record_id, ids, n=5, cutoff=0.5)
                 hint = f"; did you mean {', '.join(close)}?" if close else "; `motorshelf list motors` shows the ids"
                 raise NotFound(f"no record with id {record_id!r}{hint}", suggestions=close)
-            values = con.execute(
+            values = con.sql(
                 "SELECT field, value_num, value_text, raw_text, raw_unit, origin, relation, inputs, "
-                "source_file, source_row, batch_id FROM record_values WHERE record_id = ?",
-                [record_id]).arrow().read_all().to_pandas()
+                "source_file, source_row, batch_id FROM record_values WHERE record_id = $id",
+                params={"id": record_id}).to_arrow_table().to_pandas()
         return head[0], head[1], head[2], values
+
+    def flags(self, tolerance: float | None = None, record_id: str | None = None) -> list:
+        """Consistency flags: over-determined relations whose residual exceeds ``tolerance``."""
+        from .derive import DEFAULT_TOLERANCE, Flag
+
+        tol = DEFAULT_TOLERANCE if tolerance is None else float(tolerance)
+        sql = ("SELECT record_id, relation, field, given, given_value, implied_value, residual FROM flags "
+               "WHERE abs(residual) > $tol")
+        params = {"tol": tol}
+        if record_id is not None:
+            sql += " AND record_id = $rid"
+            params["rid"] = record_id
+        with self.store.read() as con:
+            rows = con.execute(sql.replace("$tol", "?").replace("$rid", "?") + " ORDER BY record_id, relation",
+                               list(params.values())).fetchall()
+        return [Flag(r[0], r[1], r[2], r[3], r[4], r[5], r[6]) for r in rows]
+
+    def derive(self, tolerance: float | None = None):
+        """Recompute every derived value and consistency residual of the catalogue."""
+        from .derive import DEFAULT_TOLERANCE, derive_in_store
+
+        with self.store.write() as con:
+            batch = self.store.new_batch(con, "derive")
+            outcome = derive_in_store(con, batch, record_ids=None,
+                                      tolerance=DEFAULT_TOLERANCE if tolerance is None else tolerance)
+        return outcome
 
     def summary(self) -> dict:
         """Counts: suppliers, motors, gearheads, values, derived values."""
         with self.store.read() as con:
-            row = con.execute(
+            row = one(con.execute(
                 "SELECT count(DISTINCT manufacturer), count(*) FILTER (WHERE record_type='motor'), "
-                "count(*) FILTER (WHERE record_type='gearhead') FROM records").fetchone()
-            vals = con.execute(
+                "count(*) FILTER (WHERE record_type='gearhead') FROM records"))
+            vals = one(con.execute(
                 "SELECT count(*) FILTER (WHERE origin='given'), count(*) FILTER (WHERE origin='derived') "
-                "FROM record_values").fetchone()
+                "FROM record_values"))
         return {"suppliers": row[0], "motors": row[1], "gearheads": row[2],
                 "given_values": vals[0], "derived_values": vals[1]}
 

@@ -21,6 +21,14 @@ def _manifest(folder: Path) -> list[dict]:
     return [e for e in entries if isinstance(e, dict) and "file" in e]
 
 
+def _short(path: Path) -> Path:
+    """``path`` relative to the working directory when it lies below it (shorter messages)."""
+    try:
+        return path.relative_to(Path.cwd())
+    except ValueError:
+        return path
+
+
 def build(db: Path, folder: Path = SAMPLE, out=print) -> dict:
     """Import every file of the manifest into ``db``; returns the catalogue summary."""
     from .api import Catalog
@@ -32,17 +40,17 @@ def build(db: Path, folder: Path = SAMPLE, out=print) -> dict:
     for entry in _manifest(folder):
         if entry.get("kind", "datasheet") != "datasheet":
             continue
-        path = folder / entry["file"]
-        mapping = folder / entry["mapping"] if entry.get("mapping") else None
+        path = _short(folder / entry["file"])
+        mapping = _short(folder / entry["mapping"]) if entry.get("mapping") else None
         try:
             report = cat.import_files([path], mapping=mapping)
         except InputError as exc:
             rejected.append((path, exc.problems))
-            out(f"  rejected {path.relative_to(folder.parent)}: {len(exc.problems)} problem(s)")
+            out(f"  rejected {path}: {len(exc.problems)} problem(s)")
             continue
         converted += report.converted
         how = f" with mapping {Path(entry['mapping']).name}" if mapping else ""
-        out(f"  imported {path.relative_to(folder.parent)}{how}: {report.created} new, "
+        out(f"  imported {path}{how}: {report.created} new, "
             f"{report.updated} updated, {report.converted} values converted to SI"
             + (f", {report.derived} derived" if report.derived else ""))
         for w in report.warnings:

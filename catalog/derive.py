@@ -78,65 +78,68 @@ def _max_continuous_current(tmax, r, rth1, rth2, tref):
 
 
 EQUATIONS: tuple = (
-    Equation("torque constant equals back-EMF constant (SI)", (
+    Equation("torque constant = back-EMF constant (SI)", (
         _s(KT, P.torque_constant_from_back_emf_constant, KE),
         _s(KE, P.back_emf_constant_from_torque_constant, KT)), dc_constants=True),
-    Equation("speed constant", (
+    Equation("speed constant = 1/back-EMF constant", (
         _s("speed_constant", P.speed_constant_from_back_emf_constant, KE),
         _s(KE, P.back_emf_constant_from_speed_constant, "speed_constant")), dc_constants=True),
-    Equation("stall current", (
+    Equation("torque constant = 1/speed constant (SI)", (
+        _s(KT, P.torque_constant_from_speed_constant, "speed_constant"),
+        _s("speed_constant", P.speed_constant_from_torque_constant, KT)), dc_constants=True),
+    Equation("stall current = V/R", (
         _s(IS, P.stall_current, V, R),
         _s(R, P.resistance_from_stall_current, V, IS),
         _s(V, P.supply_voltage_from_stall_current, IS, R))),
-    Equation("stall torque", (
+    Equation("stall torque = Kt·(Is − I0)", (
         _s(TS, P.stall_torque, KT, IS, I0),
         _s(KT, P.torque_constant_from_stall, TS, IS, I0),
         _s(IS, P.stall_current_from_stall_torque, TS, KT, I0),
         _s(I0, P.no_load_current_from_stall, TS, KT, IS, fragile=True))),
-    Equation("no-load speed", (
+    Equation("no-load speed = (V − R·I0)/Ke", (
         _s(W0, P.no_load_speed, V, R, I0, KE),
         _s(KE, P.back_emf_constant_from_no_load_speed, W0, V, R, I0),
         _s(I0, P.no_load_current_from_no_load_speed, W0, V, R, KE, fragile=True),
         _s(R, P.resistance_from_no_load_speed, W0, V, I0, KE, fragile=True),
         _s(V, P.supply_voltage_from_no_load_speed, W0, R, I0, KE))),
-    Equation("speed-torque line", (
+    Equation("speed-torque gradient = no-load speed/stall torque", (
         _s(G, P.speed_torque_gradient_from_no_load_speed_and_stall_torque, W0, TS),
         _s(TS, P.stall_torque_from_no_load_speed_and_gradient, W0, G),
         _s(W0, P.no_load_speed_from_stall_torque_and_gradient, TS, G)), dc_constants=True),
-    Equation("speed-torque gradient", (
+    Equation("speed-torque gradient = R/(Kt·Ke)", (
         _s(G, P.speed_torque_gradient, R, KT, KE),
         _s(R, P.resistance_from_speed_torque_gradient, G, KT, KE)), dc_constants=True),
-    Equation("friction torque", (
+    Equation("friction torque = Kt·I0", (
         _s("friction_torque", P.friction_torque, KT, I0),
         _s(I0, P.no_load_current_from_friction_torque, "friction_torque", KT),
         _s(KT, P.torque_constant_from_friction_torque, "friction_torque", I0))),
-    Equation("mechanical time constant", (
+    Equation("mechanical time constant = J·gradient", (
         _s("mechanical_time_constant", P.mechanical_time_constant_from_gradient, "rotor_inertia", G),
         _s("rotor_inertia", P.rotor_inertia_from_gradient, "mechanical_time_constant", G))),
-    Equation("electrical time constant", (
+    Equation("electrical time constant = L/R", (
         _s("electrical_time_constant", P.electrical_time_constant, "terminal_inductance", R),
         _s("terminal_inductance", P.inductance_from_electrical_time_constant, "electrical_time_constant", R),
         _s(R, P.resistance_from_electrical_time_constant, "electrical_time_constant", "terminal_inductance"))),
-    Equation("motor constant", (
+    Equation("motor constant = Kt/√R", (
         _s("motor_constant", P.motor_constant, KT, R),
         _s(R, P.resistance_from_motor_constant, "motor_constant", KT),
         _s(KT, P.torque_constant_from_motor_constant, "motor_constant", R))),
-    Equation("maximum efficiency", (
+    Equation("maximum efficiency = (1 − √(I0/Is))²", (
         _s("max_efficiency", P.max_efficiency, I0, IS),
         _s(I0, P.no_load_current_from_max_efficiency, "max_efficiency", IS),
         _s(IS, P.stall_current_from_max_efficiency, "max_efficiency", I0))),
-    Equation("maximum output power", (
+    Equation("maximum output power = (V − R·I0)²/(4R)", (
         _s("max_output_power", P.max_output_power, V, R, I0),)),
-    Equation("nominal current", (
+    Equation("nominal current = (Tn + Kt·I0)/Kt", (
         _s("nominal_current", P.current_at_torque, "nominal_torque", KT, I0),
         _s("nominal_torque", P.torque_at_current, "nominal_current", KT, I0))),
-    Equation("nominal speed", (
+    Equation("nominal speed on the speed-torque line", (
         _s("nominal_speed", P.speed_at_torque, "nominal_torque", V, R, KT, KE, I0),
         _s("nominal_torque", P.torque_at_speed, "nominal_speed", V, R, KT, KE, I0)), dc_constants=True),
-    Equation("maximum continuous current at 25 °C ambient", (
+    Equation("maximum continuous current, thermal model at 25 °C ambient", (
         _s("max_continuous_current", _max_continuous_current, "max_winding_temperature", R,
            "thermal_resistance_winding_housing", "thermal_resistance_housing_ambient", TREF),)),
-    Equation("maximum continuous torque at 25 °C ambient", (
+    Equation("maximum continuous torque = Kt·(Icont − I0)", (
         _s("max_continuous_torque", P.torque_at_current, "max_continuous_current", KT, I0),)),
 )
 
@@ -329,7 +332,7 @@ def _load_given(con, record_ids):
     sql = (f"SELECT r.record_id, {select} FROM records r LEFT JOIN record_values v "
            f"ON v.record_id = r.record_id AND v.origin = 'given' "
            f"WHERE r.record_type = 'motor'{where} GROUP BY r.record_id ORDER BY r.record_id")
-    table = con.execute(sql, params).arrow().read_all()
+    table = con.sql(sql).to_arrow_table()
     if record_ids is not None:
         con.unregister("derive_ids")
     ids = np.asarray(table.column("record_id").to_pylist(), dtype=object)

@@ -12,16 +12,34 @@ from .fields import fields_for
 
 #: Columns `motorshelf list` shows, per record type.
 LIST_COLUMNS = {
-    "motor": ["id", "manufacturer", "part_number", "commutation", "nominal_voltage", "no_load_speed",
-              "stall_torque", "nominal_torque", "torque_constant", "terminal_resistance", "rotor_inertia",
-              "mass", "diameter", "length", "price", "currency"],
-    "gearhead": ["id", "manufacturer", "part_number", "ratio", "stages", "efficiency", "max_continuous_torque",
-                 "max_intermittent_torque", "max_input_speed", "mass", "diameter", "length", "mount", "price",
-                 "currency"],
+    "motor": ["id", "commutation", "nominal_voltage", "no_load_speed", "stall_torque", "nominal_torque",
+              "torque_constant", "terminal_resistance", "mass", "diameter", "mount", "price", "currency"],
+    "gearhead": ["id", "ratio", "stages", "efficiency", "max_continuous_torque", "max_intermittent_torque",
+                 "max_input_speed", "mass", "diameter", "mount", "price", "currency"],
 }
 
 
-def display_value(si_value: float, dimension: str | None, preset: str = "datasheet") -> tuple[float, str]:
+#: Fields shown in another unit than their dimension's preset (datasheet habit).
+FIELD_UNITS = {
+    "back_emf_constant": {"datasheet": "mV/rpm", "imperial": "V/krpm"},
+}
+
+
+def _field_display(si_values, field, preset):
+    """(values, label) of an SI column of ``field`` in ``preset``."""
+    import numpy as np
+
+    from .units import parse_unit, to_display
+
+    unit = FIELD_UNITS.get(field.name, {}).get(preset) if field is not None else None
+    if unit is not None:
+        conv = parse_unit(unit, field.dimension)
+        return (np.asarray(si_values, dtype=float) - conv.offset) / conv.factor, unit
+    return to_display(np.asarray(si_values, dtype=float), field.dimension, preset)
+
+
+def display_value(si_value: float, dimension: str | None, preset: str = "datasheet",
+                  field=None) -> tuple[float, str]:
     """(value, unit label) of one SI value in the preset's unit."""
     import numpy as np
 
@@ -29,7 +47,10 @@ def display_value(si_value: float, dimension: str | None, preset: str = "datashe
 
     if dimension is None:
         return si_value, ""
-    vals, label = to_display(np.asarray([si_value], dtype=float), dimension, preset)
+    if field is not None:
+        vals, label = _field_display([si_value], field, preset)
+    else:
+        vals, label = to_display(np.asarray([si_value], dtype=float), dimension, preset)
     return float(vals[0]), label
 
 
@@ -45,7 +66,7 @@ def display_frame(df, record_type: str, preset: str = "datasheet", columns=None)
     for c in cols:
         f = fields.get(c)
         if f is not None and f.is_quantity:
-            vals, label = to_display(np.asarray(df[c], dtype=float), f.dimension, preset)
+            vals, label = _field_display(df[c], f, preset)
             out[f"{c} [{label}]" if label else c] = vals
         else:
             out[c] = df[c].to_numpy()

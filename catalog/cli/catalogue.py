@@ -111,16 +111,22 @@ def show_cmd(obj: Context, record_id, units):
             click.echo(f"  {name:<36} -")
             continue
         if f.is_numeric:
-            v, label = display_value(row.value_num, f.dimension, units)
+            v, label = display_value(row.value_num, f.dimension, units, field=f)
             text = f"{format_number(v, 5)} {label}".strip()
         else:
             text = str(row.value_text)
         if row.origin == "derived":
-            origin = f"derived: {row.relation} from {row.inputs}"
+            origin = f"derived: {row.relation}" + (f", from {row.inputs}" if row.inputs else "")
         else:
-            where = f"{row.source_file}:{row.source_row}" if row.source_file else ""
-            origin = f"given: {row.raw_text!r} ({where})" if row.raw_text is not None else f"given ({where})"
-        click.echo(f"  {name:<36} {text:<20} {origin}")
+            where = f"{row.source_file}:{int(row.source_row)}" if row.source_file else ""
+            raw = row.raw_text if row.raw_text is not None else ""
+            unit = row.raw_unit if isinstance(row.raw_unit, str) and row.raw_unit and row.raw_unit not in raw else ""
+            written = f"{raw!r}" + (f" [{unit}]" if unit else "")
+            origin = f"given: {written} ({where})"
+        click.echo(f"  {name:<36} {text:<22} {origin}")
+    flags = obj.catalog().flags(record_id=record_id)
+    for flag in flags:
+        click.echo(f"flag: {flag}")
 
 
 @cli.command("sql")
@@ -132,3 +138,43 @@ def sql_cmd(obj: Context, query, fmt):
     """Run a read-only SQL query on the catalogue (views: motors, gearheads; SI units)."""
     df = obj.catalog().sql(query)
     print_frame(df, fmt)
+
+
+@cli.command("derive")
+@click.option("--tolerance", type=float, default=0.10, show_default=True,
+              help="Relative residual above which an over-determined relation is flagged.")
+@click.pass_obj
+@handle_errors
+def derive_cmd(obj: Context, tolerance):
+    """Fill in every motor constant that follows from the given ones, marking it derived."""
+    cat = obj.catalog()
+    outcome = cat.derive(tolerance=tolerance)
+    click.echo(f"{cat.path}: {outcome.derived} value(s) derived, {len(outcome.flags)} flag(s) "
+               f"above {tolerance:.0%}")
+    for flag in outcome.flags:
+        click.echo(f"flag: {flag}")
+
+
+@cli.command("check")
+@click.option("--tolerance", type=float, default=0.10, show_default=True,
+              help="Relative residual above which an over-determined relation is flagged.")
+@FORMAT_OPTION
+@click.pass_obj
+@handle_errors
+def check_cmd(obj: Context, tolerance, fmt):
+    """List every consistency flag; exit code 1 when any residual exceeds the tolerance."""
+    import pandas as pd
+
+    flags = obj.catalog().flags(tolerance=tolerance)
+    df = pd.DataFrame([{
+        "id": f.record_id, "relation": f.relation, "field": f.field, "given_si": f.given_value,
+        "implied_si": f.implied_value, "residual": f.residual, "given_values_si": f.given,
+    } for f in flags], columns=["id", "relation", "field", "given_si", "implied_si", "residual", "given_values_si"])
+    if fmt == "table":
+        if not flags:
+            click.echo(f"no flags above {tolerance:.0%}")
+        for f in flags:
+            click.echo(f"flag: {f}")
+    else:
+        print_frame(df, fmt)
+    sys.exit(1 if flags else 0)

@@ -22,6 +22,9 @@ def format_number(value, digits: int = 4) -> str:
     except TypeError:
         pass
     if isinstance(value, float):
+        mag = abs(value)
+        if 10 ** (digits - 1) <= mag < 1e9:
+            return f"{value:.0f}"  # whole numbers need no exponent: 12200, not 1.22e+04
         return f"{value:.{digits}g}"
     return str(value)
 
@@ -36,11 +39,13 @@ def print_frame(df, fmt: str = "table", title: str | None = None) -> None:
         return
     from rich.console import Console
     from rich.table import Table
+    from rich.text import Text
 
     table = Table(title=title, show_lines=False, header_style="bold")
     for col in df.columns:
         numeric = df[col].dtype.kind in "fiu"
-        table.add_column(str(col), justify="right" if numeric else "left", overflow="fold")
+        table.add_column(Text(str(col).replace(" [", "\n[")), justify="right" if numeric else "left",
+                         overflow="fold")
     for row in df.itertuples(index=False):
-        table.add_row(*[format_number(v) for v in row])
-    Console(width=max(100, min(220, 20 * len(df.columns)))).print(table)
+        table.add_row(*[Text(format_number(v)) for v in row])
+    Console(width=max(100, min(200, 16 * len(df.columns)))).print(table)

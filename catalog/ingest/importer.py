@@ -8,7 +8,7 @@ part_number) updates its values and moves the previous ones to ``value_history``
 """
 from __future__ import annotations
 
-__all__ = ["ImportReport", "read_and_check", "import_files", "validate_files", "write_rejects"]
+__all__ = ["default_id", "ImportReport", "read_and_check", "import_files", "validate_files", "write_rejects"]
 
 import csv
 from dataclasses import dataclass, field
@@ -18,6 +18,7 @@ import numpy as np
 
 from ..errors import ImportRejected, InputError, Problem
 from ..fields import fields_for
+from ..store import one
 from ..validate import check_table
 from .mapping import load_mapping
 from .normalise import NormalTable, normalise, slug
@@ -62,6 +63,40 @@ class ImportReport:
         return not self.problems
 
 
+def default_id(manufacturer: str, part_number: str) -> str:
+    """Short record id: the maker's first word and the part number, as a slug."""
+    words = slug(manufacturer).split("-")
+    return slug(words[0], part_number)
+
+
+def _resolve_existing(con, records):
+    """Reuse the id of a record already stored under the same manufacturer and part number,
+    and fall back to the full slug where a short id belongs to another record."""
+    con.register("incoming_keys", records[["record_id", "manufacturer", "part_number"]])
+    rows = con.execute(
+        "SELECT i.record_id, r.record_id, lower(trim(r.manufacturer)) = lower(trim(i.manufacturer)) "
+        "AND lower(trim(r.part_number)) = lower(trim(i.part_number)) "
+        "FROM incoming_keys i JOIN records r ON r.record_id = i.record_id "
+        "OR (lower(trim(r.manufacturer)) = lower(trim(i.manufacturer)) "
+        "AND lower(trim(r.part_number)) = lower(trim(i.part_number)))").fetchall()
+    con.unregister("incoming_keys")
+    remap = {}
+    for incoming, stored, same_key in rows:
+        if same_key:
+            remap[incoming] = stored
+        elif incoming not in remap:
+            remap[incoming] = None  # id taken by another record
+    if not remap:
+        return records, {}
+    full = {}
+    for i, rid in enumerate(records["record_id"]):
+        if rid in remap:
+            new = remap[rid] or slug(records["manufacturer"].iat[i], records["part_number"].iat[i])
+            full[rid] = new
+    records = records.assign(record_id=[full.get(r, r) for r in records["record_id"]])
+    return records, full
+
+
 def _identity(table: NormalTable) -> tuple[list, list[Problem]]:
     """Record ids for the rows; default a slug of manufacturer and part_number."""
     cols = table.columns
@@ -69,14 +104,18 @@ def _identity(table: NormalTable) -> tuple[list, list[Problem]]:
     man = cols["manufacturer"].values if "manufacturer" in cols else [None] * n
     pn = cols["part_number"].values if "part_number" in cols else [None] * n
     given = cols["id"].values if "id" in cols else [None] * n
-    ids = [g if g else (slug(m, p) if m and p else None) for g, m, p in zip(given, man, pn)]
+    ids = [g if g else (default_id(m, p) if m and p else None) for g, m, p in zip(given, man, pn)]
     problems = []
     first: dict[str, int] = {}
     keyfirst: dict[tuple, int] = {}
+    owner: dict[str, tuple] = {}
     for i, rid in enumerate(ids):
         if rid is None:
             continue
         key = (str(man[i]).strip().lower(), str(pn[i]).strip().lower())
+        if not given[i] and rid in owner and owner[rid] != key:
+            rid = ids[i] = slug(man[i], pn[i])  # two makers share a first word: use the full name
+        owner.setdefault(rid, key)
         row = table.row_numbers[i]
         if key in keyfirst:
             problems.append(Problem(table.source, row, "part_number",
@@ -223,7 +262,7 @@ def validate_files(paths, mapping=None) -> ImportReport:
     return report
 
 
-def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, derive=False,
+def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, derive=True,
                  progress=None) -> ImportReport:
     """Import ``paths`` into ``store`` in one transaction; see the module docstring.
 
@@ -273,9 +312,12 @@ def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, der
     with store.write() as con:
         batch = store.new_batch(con, "import", files=files)
         report.batch_id = batch
+        records, renamed = _resolve_existing(con, records)
+        if renamed and values is not None:
+            values["record_id"] = [renamed.get(r, r) for r in values["record_id"]]
         con.register("incoming_records", records)
-        existing = con.execute(
-            "SELECT count(*) FROM incoming_records i JOIN records r USING (record_id)").fetchone()[0]
+        existing = one(con.execute(
+            "SELECT count(*) FROM incoming_records i JOIN records r USING (record_id)"))[0]
         report.updated = int(existing)
         report.created = len(records) - report.updated
         con.execute(

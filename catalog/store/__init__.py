@@ -8,7 +8,7 @@ that finds the file busy waits and retries for a bounded time, then fails with
 """
 from __future__ import annotations
 
-__all__ = ["Store", "default_path", "SCHEMA_VERSION"]
+__all__ = ["Store", "default_path", "one", "SCHEMA_VERSION"]
 
 import contextlib
 import os
@@ -20,6 +20,16 @@ from ..errors import StoreBusy, StoreError
 from .schema import MIGRATIONS, SCHEMA_VERSION, all_view_sql
 
 _FIELDS_KEY = "fields_signature"
+
+
+def one(result):
+    """First row of a query result (or None), reading the result to its end.
+
+    DuckDB refuses further work on a connection whose last result is unfinished,
+    so a single row is taken with ``fetchall``.
+    """
+    rows = result.fetchall()
+    return rows[0] if rows else None
 
 
 def default_path() -> Path:
@@ -123,7 +133,7 @@ class Store:
     @staticmethod
     def _file_version(con) -> int | None:
         try:
-            row = con.execute("SELECT max(version) FROM schema_version").fetchone()
+            row = one(con.execute("SELECT max(version) FROM schema_version"))
         except Exception:
             return None
         return None if row is None or row[0] is None else int(row[0])
@@ -131,7 +141,7 @@ class Store:
     @staticmethod
     def _stale_views(con) -> bool:
         try:
-            row = con.execute("SELECT value FROM meta WHERE key = ?", [_FIELDS_KEY]).fetchone()
+            row = one(con.execute("SELECT value FROM meta WHERE key = ?", [_FIELDS_KEY]))
         except Exception:
             return True
         return row is None or row[0] != _fields_signature()
@@ -163,7 +173,7 @@ class Store:
     # -- helpers -------------------------------------------------------------
     @staticmethod
     def new_batch(con, kind: str, files: str = "", note: str = "") -> int:
-        batch_id = con.execute("SELECT nextval('batch_seq')").fetchone()[0]
+        batch_id = one(con.execute("SELECT nextval('batch_seq')"))[0]
         con.execute(
             "INSERT INTO batches (batch_id, kind, started_at, files, note, user_name) "
             "VALUES (?, ?, now(), ?, ?, ?)",

@@ -40,11 +40,11 @@ def test_import_list_show_sql(tmp_path, good):
     assert r.exit_code == 0
     header = r.output.splitlines()[0]
     assert "stall_torque [N·m]" in header
-    r = run("--db", db, "show", "acme-test-m-1")
+    r = run("--db", db, "show", "acme-m-1")
     assert r.exit_code == 0
     assert re.search(r"stall_torque\s+350 mN·m\s+given: '350'", r.output), r.output
     r = run("--db", db, "sql", "SELECT id FROM motors ORDER BY mass", "--format", "csv")
-    assert r.output.splitlines() == ["id", "acme-test-m-2", "acme-test-m-1"]
+    assert r.output.splitlines() == ["id", "acme-m-2", "acme-m-1"]
 
 
 def test_bad_file_exit_2_one_line_per_problem(tmp_path):
@@ -67,9 +67,9 @@ def test_validate_and_unknown_id(tmp_path, good):
     assert r.exit_code == 0 and "all files valid" in r.output
     assert not db.exists()
     run("--db", db, "import", good)
-    r = run("--db", db, "show", "acme-test-m-3")
+    r = run("--db", db, "show", "acme-m-3")
     assert r.exit_code == 2
-    assert "error: no record with id 'acme-test-m-3'; did you mean" in r.output
+    assert "error: no record with id 'acme-m-3'; did you mean" in r.output
 
 
 def test_sql_error_is_one_line(tmp_path, good):

@@ -31,11 +31,11 @@ def test_canonical_headers_with_units_store_si(cat, write):
     assert report.created == 3 and report.updated == 0
     m = cat.motors().set_index("id")
     # mN·m -> N·m (SI prefix, exact); r/min -> rad/s (NIST SP 811 B.8: pi/30); g·cm² -> kg·m² (exact)
-    assert m.loc["acme-test-m-1", "stall_torque"] == pytest.approx(0.350, rel=1e-12)
-    assert m.loc["acme-test-m-1", "no_load_speed"] == pytest.approx(5200 * RPM, rel=1e-12)
-    assert m.loc["acme-test-m-1", "rotor_inertia"] == pytest.approx(12.5 * G_CM2, rel=1e-12)
-    assert m.loc["acme-test-m-2", "mass"] == pytest.approx(0.120, rel=1e-12)
-    assert m.loc["acme-test-m-2", "commutation"] == "brushless"
+    assert m.loc["acme-m-1", "stall_torque"] == pytest.approx(0.350, rel=1e-12)
+    assert m.loc["acme-m-1", "no_load_speed"] == pytest.approx(5200 * RPM, rel=1e-12)
+    assert m.loc["acme-m-1", "rotor_inertia"] == pytest.approx(12.5 * G_CM2, rel=1e-12)
+    assert m.loc["acme-m-2", "mass"] == pytest.approx(0.120, rel=1e-12)
+    assert m.loc["acme-m-2", "commutation"] == "brushless"
 
 
 def test_units_in_cells_and_imperial(cat, write):
@@ -45,7 +45,7 @@ def test_units_in_cells_and_imperial(cat, write):
         """)
     cat.import_files([path])
     m = cat.motors().set_index("id")
-    row = m.loc["imp-co-00341-12"]
+    row = m.loc["imp-00341-12"]
     assert row["part_number"] == "00341-12"  # text, leading zero kept
     assert row["stall_torque"] == pytest.approx(12.5 * OZF_IN, rel=1e-9)
     assert row["no_load_speed"] == pytest.approx(4200 * RPM, rel=1e-9)
@@ -60,7 +60,7 @@ def test_raw_text_and_provenance_kept(cat, write):
         Imp Co,X1,12.5 oz-in
         """)
     report = cat.import_files([path])
-    _, _, _, values = cat.record("imp-co-x1")
+    _, _, _, values = cat.record("imp-x1")
     row = values.set_index("field").loc["stall_torque"]
     assert row["raw_text"] == "12.5 oz-in"
     assert row["origin"] == "given"
@@ -86,7 +86,7 @@ def test_mapping_profile(cat, write):
         SX-1,10,3000,blue
         """)
     cat.import_files([data], mapping=mapping)
-    row = cat.motors().set_index("id").loc["supplier-x-sx-1"]
+    row = cat.motors().set_index("id").loc["supplier-sx-1"]
     assert row["stall_torque"] == pytest.approx(10 * OZF_IN, rel=1e-9)
     assert row["no_load_speed"] == pytest.approx(3000 * RPM, rel=1e-9)
     # 20 °C -> K: IEC/ISO definition T[K] = t[°C] + 273.15 (scipy.constants.zero_Celsius)
@@ -124,12 +124,12 @@ def test_yaml_value_unit_mappings_and_gearheads(cat, write):
             stall_torque: "1.2 N·m"
         """)
     cat.import_files([path])
-    g = cat.gearheads().set_index("id").loc["gear-co-p-14"]
+    g = cat.gearheads().set_index("id").loc["gear-p-14"]
     assert g["ratio"] == 14 and g["stages"] == 2
     assert g["efficiency"] == pytest.approx(0.81, rel=1e-12)
     assert g["max_continuous_torque"] == pytest.approx(2.5, rel=1e-12)
     assert g["inertia"] == pytest.approx(0.9e-7, rel=1e-12)
-    assert cat.motors().set_index("id").loc["gear-co-m-1", "stall_torque"] == pytest.approx(1.2)
+    assert cat.motors().set_index("id").loc["gear-m-1", "stall_torque"] == pytest.approx(1.2)
 
 
 def test_json_records(cat, write):
@@ -151,7 +151,7 @@ def test_xlsx_with_typed_sheet(cat, tmp_path):
     path = tmp_path / "g.xlsx"
     wb.save(path)
     cat.import_files([path])
-    g = cat.gearheads().set_index("id").loc["x-gears-00912"]
+    g = cat.gearheads().set_index("id").loc["x-00912"]
     # kgf·cm -> N·m = g_n * 0.01 (NIST SP 811 B.8, exact from g_n = 9.80665 m/s²)
     assert g["max_continuous_torque"] == pytest.approx(10.0 * sc.g * 0.01, rel=1e-12)
     assert g["part_number"] == "00912"
@@ -206,9 +206,9 @@ def test_reimport_updates_and_keeps_history(cat, db, write):
         """)])
     m = cat.motors().set_index("id")
     assert len(m) == 3
-    assert m.loc["acme-test-m-1", "stall_torque"] == pytest.approx(0.360)
-    assert m.loc["acme-test-m-1", "no_load_speed"] == pytest.approx(5200 * RPM)  # untouched field kept
-    hist = cat.sql("SELECT value_num, raw_text FROM value_history WHERE record_id = 'acme-test-m-1' "
+    assert m.loc["acme-m-1", "stall_torque"] == pytest.approx(0.360)
+    assert m.loc["acme-m-1", "no_load_speed"] == pytest.approx(5200 * RPM)  # untouched field kept
+    hist = cat.sql("SELECT value_num, raw_text FROM value_history WHERE record_id = 'acme-m-1' "
                    "AND field = 'stall_torque'")
     assert list(hist["value_num"]) == [pytest.approx(0.350)]
 
@@ -216,7 +216,7 @@ def test_reimport_updates_and_keeps_history(cat, db, write):
 @pytest.mark.parametrize("content, expected", [
     ("manufacturer,part_number,part_number\nA,1,2\n", "column 'part_number' appears twice"),
     ("manufacturer,part_number,stal_torque\nA,1,2\n", "unknown column 'stal_torque', expected a motor field (did you mean stall_torque"),
-    ("manufacturer,part_number\nA,1\nA,1\n", "appears twice in this file (first at row 2)"),
+    ("manufacturer,part_number,stall_torque\nA,1,1 N*m\nA,1,2 N*m\n", "appears twice in this file (first at row 2)"),
     ("part_number,stall_torque\n1,2 N*m\n", "manufacturer: missing, expected a value"),
     ("manufacturer,part_number,stall_torque\nA,1,nan N*m\n", "stall_torque"),
     ("manufacturer,part_number,stall_torque\nA,1,12\n", "no unit"),
@@ -236,7 +236,7 @@ def test_sql_lightest_24v_motors_with_stall_torque_over_0_3(cat, write):
     cat.import_files([write("a.csv", CANONICAL)])
     df = cat.sql("SELECT id, mass FROM motors WHERE nominal_voltage = 24 AND stall_torque > 0.3 "
                  "ORDER BY mass")
-    assert list(df["id"]) == ["acme-test-m-1"]
+    assert list(df["id"]) == ["acme-m-1"]
 
 
 def test_sql_is_read_only(cat, write):

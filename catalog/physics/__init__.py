@@ -1,0 +1,48 @@
+"""Pure physics of permanent-magnet DC motors and gearheads, in SI units.
+
+Numpy only (no pint, duckdb or pandas import).  Every function takes
+floats, numpy arrays or pandas Series, broadcasts with numpy rules and
+returns a float for scalar input, otherwise an ndarray (a Series when the
+result has the shape of a Series argument; Series are used positionally,
+never index-aligned).  Angles in rad, speeds in rad/s, temperatures in K.
+Missing data (NaN) propagates to NaN results without warnings.
+
+Modules
+-------
+motor            constants of the linear motor model (forward relations)
+operating_point  speed/torque/current/voltage at a point, efficiency, power
+inverse_line     inverse relations on the speed-torque line
+inverse_constants inverse relations for R, Kt, J, L, efficiency
+relations        table of derivation relations walked by a derivation engine
+temperature      copper R(T), magnet Kt(T), insulation classes
+thermal          two-node thermal network: steady state, closed forms
+transient        two-node network: exact transient and periodic duty
+gearing          speed, torque and inertia through a gearhead
+cycle            RMS, mean and energy over duty-cycle segments
+"""
+
+from . import (cycle, gearing, inverse_constants, inverse_line, motor,
+               operating_point, relations, temperature, thermal, transient)
+from .cycle import *  # noqa: F401,F403
+from .gearing import *  # noqa: F401,F403
+from .inverse_constants import *  # noqa: F401,F403
+from .inverse_line import *  # noqa: F401,F403
+from .motor import *  # noqa: F401,F403
+from .operating_point import *  # noqa: F401,F403
+from .relations import *  # noqa: F401,F403
+from .temperature import *  # noqa: F401,F403
+from .thermal import *  # noqa: F401,F403
+from .transient import *  # noqa: F401,F403
+
+__all__ = [
+    *motor.__all__,
+    *operating_point.__all__,
+    *inverse_line.__all__,
+    *inverse_constants.__all__,
+    *relations.__all__,
+    *temperature.__all__,
+    *thermal.__all__,
+    *transient.__all__,
+    *gearing.__all__,
+    *cycle.__all__,
+]
