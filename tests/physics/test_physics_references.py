@@ -162,7 +162,7 @@ def test_modelica_dc_permanent_magnet_data():
                                                                                rel=1e-9)
 
 
-# --- Electric Machinery (Fitzgerald, Kingsley & Umans), 6th ed., Example 7.10,
+# --- Electric Machinery, 6th ed. (a standard DC-machine textbook), Example 7.10,
 #     quoted from memory: Ra = 1.03 Ω; no load on 50 V at 2100 r/min, 1.25 A ---
 
 def test_electric_machinery_example_7_10_no_load_test():
