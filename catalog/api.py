@@ -12,13 +12,14 @@ import difflib
 from pathlib import Path
 
 from .errors import InputError, NotFound, Problem
+from .inventory.methods import StockMethods
 from .store import Store, default_path, one
 
 _VIEWS = {"motors": "motors", "gearheads": "gearheads", "motor": "motors", "gearhead": "gearheads"}
 
 
-class Catalog:
-    """One catalogue file.
+class Catalog(StockMethods):
+    """One catalogue file (the shelf methods ``stock_*`` and ``history``: :mod:`catalog.inventory.methods`).
 
     Parameters
     ----------
@@ -124,7 +125,18 @@ class Catalog:
         with self.store.read() as con:
             rows = con.execute(sql.replace("$tol", "?").replace("$rid", "?") + " ORDER BY record_id, relation",
                                list(params.values())).fetchall()
-        return [Flag(r[0], r[1], r[2], r[3], r[4], r[5], r[6]) for r in rows]
+            out = []
+            for r in rows:  # the flagged few: show the given values of the relation's fields
+                names = [f.strip() for f in (r[3] or "").split(",") if f.strip()]
+                given = {}
+                if names:
+                    vals = con.execute(
+                        "SELECT field, value_num FROM record_values WHERE record_id = ? AND origin = 'given'",
+                        [r[0]]).fetchall()
+                    given = {f: v for f, v in vals if f in names}
+                text = ", ".join(f"{f}={given[f]:.6g}" for f in names if f in given)
+                out.append(Flag(r[0], r[1], r[2], text, r[4], r[5], r[6]))
+        return out
 
     def derive(self, tolerance: float | None = None):
         """Recompute every derived value and consistency residual of the catalogue."""
@@ -135,6 +147,31 @@ class Catalog:
             outcome = derive_in_store(con, batch, record_ids=None,
                                       tolerance=DEFAULT_TOLERANCE if tolerance is None else tolerance)
         return outcome
+
+    def select(self, envelope, stock=None, **kw):
+        """Evaluate every motor × gear option against a load envelope; see :func:`catalog.select.select`.
+
+        ``envelope`` is a TOML path or a parsed dict; returns a :class:`catalog.select.Selection`.
+        ``stock`` (``only``, ``prefer``, ``ignore``; default the envelope's ``ranking.stock``)
+        takes the shelf into account, see :mod:`catalog.inventory.selection`.
+        """
+        from .inventory import select_with_stock, stock_mode
+        from .select import load_envelope, select
+
+        envelope = load_envelope(envelope)   # envelope mistakes first, before reading the file
+        kw.setdefault("motor_notes", self._flag_notes())
+        if stock_mode(envelope, stock) != "ignore":
+            return select_with_stock(self.motors(), self.gearheads(), envelope, self.stock_available(),
+                                     stock, **kw)
+        return select(self.motors(), self.gearheads(), envelope, **kw)
+
+    def _flag_notes(self) -> dict:
+        """motor id -> a warning for datasheets that contradict themselves (selection notes)."""
+        counts: dict = {}
+        for flag in self.flags():
+            counts[flag.record_id] = counts.get(flag.record_id, 0) + 1
+        return {rid: f"datasheet contradicts itself in {n} relation(s) (see motorshelf check)"
+                for rid, n in counts.items()}
 
     def summary(self) -> dict:
         """Counts: suppliers, motors, gearheads, values, derived values."""

@@ -147,6 +147,24 @@ EQUATIONS: tuple = (
 DERIVABLE = tuple(sorted({s.output for e in EQUATIONS for s in e.solvers}))
 
 
+_DEFAULT_SOLVER = Solver(TREF, (), None)
+_SOLVER_NAMES = {s: e.name for e in EQUATIONS for s in e.solvers}
+_SOLVER_NAMES[_DEFAULT_SOLVER] = "assumed datasheet reference temperature 25 °C"
+
+
+class _EquationNames:
+    """field -> object array of the relation name of each derived cell (built on demand)."""
+
+    def __init__(self, origin):
+        self._origin = origin
+
+    def __getitem__(self, name):
+        return np.array([None if s is None else _SOLVER_NAMES[s] for s in self._origin[name]], dtype=object)
+
+    def get(self, name, default=None):
+        return self[name] if name in self._origin else default
+
+
 @dataclass
 class DeriveResult:
     """Columns after derivation plus, per derived cell, the solver that made it."""
@@ -204,8 +222,8 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
         cols[name] = np.full(n, np.nan) if arr is None else np.array(arr, dtype=float, copy=True)
     origin = {name: np.full(n, None, dtype=object) for name in cols}
     dc_ok = _dc_basis_mask(text_columns, n)
-    # the resistance reference temperature defaults to 25 °C wherever a resistance is known
-    tref_missing = np.isnan(cols[TREF]) & ~np.isnan(cols[R])
+    tref_given = ~np.isnan(cols[TREF])
+
     def apply(fragile: bool) -> bool:
         changed = False
         for eq in EQUATIONS:
@@ -239,14 +257,13 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
     for _ in range(max_passes):
         if not apply(False) and not apply(True):
             break
-    # record the assumed reference temperature as a derived value where it was used
-    default_solver = Solver(TREF, (), None)
+    # record the assumed reference temperature as a derived value where it was used: the
+    # resistance reference temperature defaults to 25 °C wherever a resistance is known,
+    # given or derived (checked after the closure, which already used the default)
+    tref_missing = ~tref_given & ~np.isnan(cols[R])
     cols[TREF] = np.where(tref_missing, DEFAULT_REFERENCE_TEMPERATURE, cols[TREF])
-    origin[TREF][tref_missing] = default_solver
-    names = {s: e.name for e in EQUATIONS for s in e.solvers}
-    names[default_solver] = "assumed datasheet reference temperature 25 °C"
-    equation = {f: np.array([None if s is None else names[s] for s in o], dtype=object)
-                for f, o in origin.items()}
+    origin[TREF][tref_missing] = _DEFAULT_SOLVER
+    equation = _EquationNames(origin)
     return DeriveResult(cols, origin, equation)
 
 
@@ -358,15 +375,21 @@ def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFA
     ids, columns, texts = _load_given(con, record_ids)
     outcome = StoreOutcome()
     n = len(ids)
+    # an unchanged derived value keeps the batch that computed it, so deriving twice changes nothing
+    keep = ("CREATE OR REPLACE TEMP TABLE previous_derived AS SELECT record_id, field, value_num, relation, "
+            "inputs, batch_id FROM record_values WHERE origin = 'derived'")
     if record_ids is None:
+        con.execute(keep)
         con.execute("DELETE FROM record_values WHERE origin = 'derived'")
         con.execute("DELETE FROM flags")
     elif n:
         con.register("derive_ids", _ids_frame(ids))
+        con.execute(keep + " AND record_id IN (SELECT record_id FROM derive_ids)")
         con.execute("DELETE FROM record_values WHERE origin = 'derived' AND record_id IN (SELECT record_id FROM derive_ids)")
         con.execute("DELETE FROM flags WHERE record_id IN (SELECT record_id FROM derive_ids)")
         con.unregister("derive_ids")
     if n == 0:
+        con.execute("DROP TABLE IF EXISTS previous_derived")
         return outcome
     result = derive_columns(columns, texts, n)
     frames = []
@@ -375,11 +398,16 @@ def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFA
         if not mask.any():
             continue
         idx = np.flatnonzero(mask)
+        solvers = origin[idx]
+        keys = [id(s) for s in solvers]  # identity, not the dataclass hash: cheap per cell
+        distinct = {id(s): s for s in solvers[np.unique(keys, return_index=True)[1]]}
+        relation = {k: _SOLVER_NAMES[s] for k, s in distinct.items()}
+        inputs = {k: ", ".join(s.inputs) for k, s in distinct.items()}
         frames.append(pd.DataFrame({
             "record_id": ids[idx], "field": name, "value_num": result.columns[name][idx],
             "value_text": None, "raw_text": None, "raw_unit": None, "origin": "derived",
-            "relation": result.equation[name][idx],
-            "inputs": [", ".join(s.inputs) for s in origin[idx]],
+            "relation": [relation[k] for k in keys],
+            "inputs": [inputs[k] for k in keys],
             "source_file": None, "source_row": pd.array([None] * len(idx), dtype="Int64"),
             "batch_id": batch_id,
         }))
@@ -390,21 +418,26 @@ def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFA
                     "CAST(raw_text AS VARCHAR), CAST(raw_unit AS VARCHAR), origin, relation, inputs, "
                     "CAST(source_file AS VARCHAR), CAST(source_row AS INTEGER), batch_id FROM derived_values")
         con.unregister("derived_values")
+        con.execute("UPDATE record_values SET batch_id = p.batch_id FROM previous_derived p "
+                    "WHERE record_values.origin = 'derived' AND record_values.record_id = p.record_id "
+                    "AND record_values.field = p.field AND record_values.value_num IS NOT DISTINCT FROM p.value_num "
+                    "AND record_values.relation IS NOT DISTINCT FROM p.relation "
+                    "AND record_values.inputs IS NOT DISTINCT FROM p.inputs")
         outcome.derived = len(derived)
-    rows = []
+    con.execute("DROP TABLE previous_derived")
+    frames = []
     for eq, idx, given, implied, res in residuals(columns, texts, n):
         primary = eq.solvers[0].output
-        for k, i in enumerate(idx):
+        frames.append(pd.DataFrame({
+            "record_id": ids[idx], "relation": eq.name, "given": ", ".join(given),
+            "field": primary, "given_value": given[primary], "implied_value": implied,
+            "residual": res, "batch_id": batch_id}))
+        for k in np.flatnonzero(np.abs(res) > tolerance):  # the few flagged ones, with their numbers
             text = ", ".join(f"{name}={given[name][k]:.6g}" for name in given)
-            rows.append((ids[i], eq.name, text, primary, float(given[primary][k]), float(implied[k]),
-                         float(res[k]), batch_id))
-            if abs(res[k]) > tolerance:
-                outcome.flags.append(Flag(str(ids[i]), eq.name, primary, text, float(given[primary][k]),
-                                          float(implied[k]), float(res[k])))
-    if rows:
-        frame = pd.DataFrame(rows, columns=["record_id", "relation", "given", "field", "given_value",
-                                            "implied_value", "residual", "batch_id"])
-        con.register("new_flags", frame)
+            outcome.flags.append(Flag(str(ids[idx[k]]), eq.name, primary, text, float(given[primary][k]),
+                                      float(implied[k]), float(res[k])))
+    if frames:
+        con.register("new_flags", pd.concat(frames, ignore_index=True))
         con.execute("INSERT INTO flags SELECT * FROM new_flags")
         con.unregister("new_flags")
     return outcome

@@ -58,6 +58,9 @@ def cli(ctx, db):
 
 
 from . import catalogue  # noqa: E402,F401  (registers the commands)
+from . import select_cmd  # noqa
+from . import stock_cmd  # noqa: E402,F401
+from . import export_cmd  # noqa: E402,F401
 
 
 def main(argv=None):

@@ -11,6 +11,7 @@ from __future__ import annotations
 __all__ = ["default_id", "ImportReport", "read_and_check", "import_files", "validate_files", "write_rejects"]
 
 import csv
+import hashlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -69,9 +70,45 @@ def default_id(manufacturer: str, part_number: str) -> str:
     return slug(words[0], part_number)
 
 
+def unique_id(manufacturer: str, part_number: str) -> str:
+    """The full slug plus a digest of the key, for when slugs collide.
+
+    A slug drops what is not a-z, 0-9, '.', '_' or '-', so ``M-1`` and ``M/1`` (or two
+    part numbers in another script) give one slug; the digest of the key as written
+    (case and surrounding spaces aside) tells them apart.
+    """
+    key = f"{str(manufacturer).strip().lower()}\x1f{str(part_number).strip().lower()}"
+    digest = hashlib.sha256(key.encode("utf-8", "surrogatepass")).hexdigest()[:12]
+    return f"{slug(manufacturer, part_number)[:180].rstrip('-._')}-{digest}"
+
+
 def _resolve_existing(con, records):
     """Reuse the id of a record already stored under the same manufacturer and part number,
     and fall back to the full slug where a short id belongs to another record."""
+    remap = _stored_ids(con, records)
+    if not remap:
+        return records, {}
+    full = {}
+    for i, rid in enumerate(records["record_id"]):
+        if rid in remap:
+            full[rid] = remap[rid] or slug(records["manufacturer"].iat[i], records["part_number"].iat[i])
+    # a fallback slug may itself belong to another record (stored, or of this import)
+    renamed = [i for i, rid in enumerate(records["record_id"]) if rid in full and remap[rid] is None]
+    if renamed:
+        trial = records.iloc[renamed].assign(record_id=[full[records["record_id"].iat[i]] for i in renamed])
+        taken = _stored_ids(con, trial)
+        incoming = set(records["record_id"]) - set(full)
+        new_ids = list(trial["record_id"])
+        for i, new in zip(renamed, new_ids):
+            if new in incoming or new in taken or new_ids.count(new) > 1:
+                full[records["record_id"].iat[i]] = unique_id(records["manufacturer"].iat[i],
+                                                              records["part_number"].iat[i])
+    records = records.assign(record_id=[full.get(r, r) for r in records["record_id"]])
+    return records, full
+
+
+def _stored_ids(con, records) -> dict:
+    """incoming id -> stored id of the same record, or None where the id is another record's."""
     con.register("incoming_keys", records[["record_id", "manufacturer", "part_number"]])
     rows = con.execute(
         "SELECT i.record_id, r.record_id, lower(trim(r.manufacturer)) = lower(trim(i.manufacturer)) "
@@ -80,25 +117,21 @@ def _resolve_existing(con, records):
         "OR (lower(trim(r.manufacturer)) = lower(trim(i.manufacturer)) "
         "AND lower(trim(r.part_number)) = lower(trim(i.part_number)))").fetchall()
     con.unregister("incoming_keys")
-    remap = {}
+    remap: dict = {}
     for incoming, stored, same_key in rows:
         if same_key:
             remap[incoming] = stored
         elif incoming not in remap:
             remap[incoming] = None  # id taken by another record
-    if not remap:
-        return records, {}
-    full = {}
-    for i, rid in enumerate(records["record_id"]):
-        if rid in remap:
-            new = remap[rid] or slug(records["manufacturer"].iat[i], records["part_number"].iat[i])
-            full[rid] = new
-    records = records.assign(record_id=[full.get(r, r) for r in records["record_id"]])
-    return records, full
+    return remap
 
 
-def _identity(table: NormalTable) -> tuple[list, list[Problem]]:
-    """Record ids for the rows; default a slug of manufacturer and part_number."""
+def _identity(table: NormalTable, seen: dict | None = None) -> tuple[list, list[Problem]]:
+    """Record ids for the rows; default a slug of manufacturer and part_number.
+
+    ``seen`` carries the ids and keys of the tables read before, so one import never
+    holds a record twice (the same key, or one id for two keys) across its files.
+    """
     cols = table.columns
     n = table.n
     man = cols["manufacturer"].values if "manufacturer" in cols else [None] * n
@@ -106,27 +139,37 @@ def _identity(table: NormalTable) -> tuple[list, list[Problem]]:
     given = cols["id"].values if "id" in cols else [None] * n
     ids = [g if g else (default_id(m, p) if m and p else None) for g, m, p in zip(given, man, pn)]
     problems = []
-    first: dict[str, int] = {}
-    keyfirst: dict[tuple, int] = {}
-    owner: dict[str, tuple] = {}
+    seen = {} if seen is None else seen
+    first: dict = seen.setdefault("id", {})  # id -> (source, row)
+    keyfirst: dict = seen.setdefault("key", {})  # key -> (source, row)
+    owner: dict = seen.setdefault("owner", {})  # id -> key
     for i, rid in enumerate(ids):
         if rid is None:
             continue
         key = (str(man[i]).strip().lower(), str(pn[i]).strip().lower())
         if not given[i] and rid in owner and owner[rid] != key:
             rid = ids[i] = slug(man[i], pn[i])  # two makers share a first word: use the full name
+            if rid in owner and owner[rid] != key:  # the slugs of two keys coincide (M-1, M/1)
+                rid = ids[i] = unique_id(man[i], pn[i])
         owner.setdefault(rid, key)
         row = table.row_numbers[i]
         if key in keyfirst:
             problems.append(Problem(table.source, row, "part_number",
-                                    f"{pn[i]!r} of {man[i]!r} appears twice in this file "
-                                    f"(first at row {keyfirst[key]}), expected once"))
+                                    f"{pn[i]!r} of {man[i]!r} appears twice in {_where(keyfirst[key], table)}, "
+                                    "expected once"))
         elif rid in first:
             problems.append(Problem(table.source, row, "id",
-                                    f"id {rid!r} appears twice in this file (first at row {first[rid]}), expected once"))
-        keyfirst.setdefault(key, row)
-        first.setdefault(rid, row)
+                                    f"id {rid!r} appears twice in {_where(first[rid], table)}, expected once"))
+        keyfirst.setdefault(key, (table.source, row))
+        first.setdefault(rid, (table.source, row))
     return ids, problems
+
+
+def _where(first: tuple, table: NormalTable) -> str:
+    source, row = first
+    if source == table.source:
+        return f"this file (first at row {row})"
+    return f"this import (first in {source} at row {row})"
 
 
 def read_and_check(paths, mapping=None) -> list[tuple[NormalTable | None, FileResult, list]]:
@@ -136,6 +179,7 @@ def read_and_check(paths, mapping=None) -> list[tuple[NormalTable | None, FileRe
     """
     profile = None
     out = []
+    seen: dict = {}  # ids and keys of every table so far (see _identity)
     if mapping is not None:
         profile = load_mapping(mapping)  # an invalid profile raises: nothing else is read
     for path in paths:
@@ -148,7 +192,7 @@ def read_and_check(paths, mapping=None) -> list[tuple[NormalTable | None, FileRe
         for raw in raws:
             table = normalise(raw, profile)
             result = FileResult(raw.source, table.record_type, rows=table.n,
-                                problems=list(table.problems), warnings=list(table.warnings),
+                                problems=list(raw.problems) + list(table.problems), warnings=list(table.warnings),
                                 converted=table.converted)
             if table.n == 0:
                 result.problems.append(Problem(raw.source, None, None, "no records, expected at least one row"))
@@ -159,7 +203,7 @@ def read_and_check(paths, mapping=None) -> list[tuple[NormalTable | None, FileRe
                 row = table.row_numbers[pos]
                 if (row, fname) not in bad_cells:  # a cell that failed to parse is reported once
                     result.problems.append(Problem(raw.source, row, fname, msg))
-            ids, id_problems = _identity(table)
+            ids, id_problems = _identity(table, seen)
             result.problems.extend(id_problems)
             result.problems.sort(key=lambda p: (p.row or 0, p.field or ""))
             out.append((table, result, ids))
@@ -304,10 +348,12 @@ def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, der
     if keep_valid and problems:
         write_rejects(rejects, checked)
         report.rejects_file = str(rejects)
+    checked = table = None  # the raw cells are not needed any more: free them before writing
     if not recs:
         return report
     records = pd.concat(recs, ignore_index=True)
     values = pd.concat(longs, ignore_index=True) if longs else None
+    recs = longs = lf = None
     files = ", ".join(str(p) for p in paths)
     with store.write() as con:
         batch = store.new_batch(con, "import", files=files)

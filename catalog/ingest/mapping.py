@@ -13,6 +13,7 @@ from pathlib import Path
 
 from ..errors import InputError, Problem
 from ..fields import fields_for, load_schema
+from .readers import yaml_problem
 
 
 @dataclass(frozen=True)
@@ -36,14 +37,24 @@ def load_mapping(path) -> MappingProfile:
     import jsonschema
     import yaml
 
+    from .yamlsafe import load_profile
+
     path = Path(path)
     source = str(path)
     if not path.is_file():
         raise InputError(f"{source}: no such mapping profile", [Problem(source, None, None, "no such mapping profile")])
     try:
-        doc = yaml.safe_load(path.read_text(encoding="utf-8-sig"))
-    except (yaml.YAMLError, UnicodeDecodeError) as exc:
-        msg = f"not a valid YAML mapping profile ({str(exc).splitlines()[0]})"
+        doc = load_profile(path.read_text(encoding="utf-8-sig"))
+    except UnicodeDecodeError as exc:
+        msg = f"byte 0x{exc.object[exc.start]:02x} is not UTF-8, expected UTF-8 text (save the file as UTF-8)"
+        line = exc.object[: exc.start].count(b"\n") + 1
+        raise InputError(f"{source}: {msg}", [Problem(source, line, None, msg)]) from None
+    except yaml.YAMLError as exc:
+        problem, line = yaml_problem(exc)
+        msg = f"not a valid YAML mapping profile ({problem})"
+        raise InputError(f"{source}: {msg}", [Problem(source, line, None, msg)]) from None
+    except RecursionError:
+        msg = "not a valid YAML mapping profile (nested too deeply)"
         raise InputError(f"{source}: {msg}", [Problem(source, None, None, msg)]) from None
     validator = jsonschema.Draft202012Validator(load_schema("mapping"))
     problems = []
@@ -62,7 +73,7 @@ def load_mapping(path) -> MappingProfile:
             problems.append(Problem(source, None, f"columns/{header}/field",
                                     f"{fname!r} is not a {rtype} field{hint}"))
             continue
-        columns[header] = (fname, spec.get("unit"))
+        columns[str(header)] = (fname, spec.get("unit"))  # a header such as 2024 is text in the file
     constants = dict(doc.get("constants") or {})
     for fname in constants:
         if fname not in known:
@@ -76,6 +87,6 @@ def load_mapping(path) -> MappingProfile:
         raise InputError(f"{source}: invalid mapping profile", problems)
     return MappingProfile(
         name=doc["profile"], record_type=rtype, columns=columns, constants=constants,
-        ignore=tuple(doc.get("ignore") or ()), sheet=doc.get("sheet"),
+        ignore=tuple(str(h) for h in doc.get("ignore") or ()), sheet=doc.get("sheet"),
         header_row=int(doc.get("header_row", 1)), source=source,
     )

@@ -61,6 +61,8 @@ def slug(*parts: str) -> str:
 
 def _cell_text(value):
     """A raw cell as text; ``{value, unit}`` mappings become 'value unit'."""
+    if value.__class__ is str:  # the common case first
+        return value if value.strip() else None
     if value is None:
         return None
     if isinstance(value, bool):
@@ -114,15 +116,19 @@ def _resolve_headers(raw: RawTable, mapping: MappingProfile | None):
     hrow = raw.header_row
     positions: dict[int, tuple[str, str | None]] = {}
     seen_headers: dict[str, int] = {}
+    repeated: set[int] = set()  # positions of a header seen before: reported once, then skipped
     for pos, header in enumerate(raw.headers):
         if header in seen_headers and header != "":
             problems.append(Problem(raw.source, hrow, header,
                                     f"column {header!r} appears twice (columns {seen_headers[header] + 1} and {pos + 1}), expected once"))
+            repeated.add(pos)
             continue
         seen_headers[header] = pos
     rtype = mapping.record_type if mapping else raw.record_type
     if mapping:
         for pos, header in enumerate(raw.headers):
+            if pos in repeated:
+                continue
             if header in mapping.columns:
                 positions[pos] = mapping.columns[header]
             elif header in mapping.ignore or header == "":
@@ -139,7 +145,7 @@ def _resolve_headers(raw: RawTable, mapping: MappingProfile | None):
         return rtype, positions, problems, warnings
     parsed = {}
     for pos, header in enumerate(raw.headers):
-        if header == "":
+        if header == "" or pos in repeated:
             continue
         m = _HEADER.match(header)
         if not m:

@@ -7,9 +7,11 @@ number of every record in its source, so every later problem can be reported as
 """
 from __future__ import annotations
 
-__all__ = ["RawTable", "read_file", "SUPPORTED_SUFFIXES", "MAX_FILE_BYTES"]
+__all__ = ["RawTable", "read_file", "SUPPORTED_SUFFIXES", "MAX_FILE_BYTES", "MAX_YAML_BYTES",
+           "MAX_XLSX_UNPACKED_BYTES"]
 
 import csv
+import datetime as _dt
 import io
 import json
 from dataclasses import dataclass, field
@@ -18,8 +20,14 @@ from pathlib import Path
 from ..errors import InputError, Problem
 
 SUPPORTED_SUFFIXES = (".csv", ".xlsx", ".json", ".yaml", ".yml")
-#: Files larger than this are refused before reading (bounded memory).
-MAX_FILE_BYTES = 200 * 1024 * 1024
+#: Files larger than this are refused before reading.  An import holds the whole file,
+#: its SI columns and the rows it writes in memory (one transaction, every row checked
+#: before anything is written): a 20 MB CSV of 100k motors peaks near 1.5 GB.
+MAX_FILE_BYTES = 24 * 1024 * 1024
+#: YAML is parsed in pure Python, node by node: about 20x the memory of CSV per byte.
+MAX_YAML_BYTES = 4 * 1024 * 1024
+#: An .xlsx is a zip archive: its unpacked size is what the reader has to parse.
+MAX_XLSX_UNPACKED_BYTES = 8 * MAX_FILE_BYTES
 
 _TYPE_KEYS = {"motors": "motor", "gearheads": "gearhead", "motor": "motor", "gearhead": "gearhead"}
 
@@ -35,10 +43,16 @@ class RawTable:
     header_row: int = 1  # row number shown for header problems
     record_type: str | None = None  # when the file says it (sheet name, top-level key)
     units: dict = field(default_factory=dict)  # header -> default unit stated by the file
+    problems: list = field(default_factory=list)  # Problem of single rows/cells found while reading
 
 
-def _fail(source: str, message: str, row: int | None = None) -> InputError:
-    return InputError(f"{source}: {message}", [Problem(source, row, None, message)])
+def _fail(source: str, message: str, row: int | None = None, field: str | None = None) -> InputError:
+    return InputError(f"{source}: {message}", [Problem(source, row, field, message)])
+
+
+def _header_missing(source: str, header_row: int) -> InputError:
+    where = "the first row" if header_row == 1 else f"row {header_row}"
+    return _fail(source, f"no header row, expected column names in {where}")
 
 
 def _decode(data: bytes, source: str) -> str:
@@ -63,7 +77,7 @@ def _read_csv(path: Path, source: str, header_row: int = 1) -> list[RawTable]:
         delimiter = "\t"
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
     headers: list[str] | None = None
-    rows, numbers = [], []
+    rows, numbers, extra = [], [], []
     try:
         for lineno, cells in enumerate(reader, start=1):
             if lineno < header_row:
@@ -73,13 +87,68 @@ def _read_csv(path: Path, source: str, header_row: int = 1) -> list[RawTable]:
                 continue
             if not any(c.strip() for c in cells):
                 continue
+            if len(cells) > len(headers) and any(c.strip() for c in cells[len(headers):]):
+                extra.append(Problem(source, reader.line_num, None,
+                                     f"{len(cells)} cells, expected at most {len(headers)} (one per column); "
+                                     f"quote a cell that contains the delimiter {delimiter!r}"))
             rows.append(cells)
             numbers.append(reader.line_num)
     except csv.Error as exc:
         raise _fail(source, f"not valid CSV ({exc})", row=reader.line_num) from None
     if not headers or not any(headers):
-        raise _fail(source, "no header row, expected column names in the first row")
-    return [RawTable(source, headers, rows, numbers, header_row=header_row)]
+        raise _header_missing(source, header_row)
+    return [RawTable(source, headers, rows, numbers, header_row=header_row, problems=extra)]
+
+
+def _xlsx_has_formulas(path: Path, source: str) -> bool:
+    """Check the archive before openpyxl parses it: refuse a zip bomb, and tell whether
+    any worksheet holds a formula (``<f>`` element)."""
+    import zipfile
+
+    try:
+        with zipfile.ZipFile(path) as zf:
+            members = zf.infolist()
+            unpacked = sum(m.file_size for m in members)
+            if unpacked > MAX_XLSX_UNPACKED_BYTES:
+                raise _fail(source, f"workbook unpacks to {unpacked / 1e6:.0f} MB, expected at most "
+                                    f"{MAX_XLSX_UNPACKED_BYTES / 1e6:.0f} MB; split it")
+            for m in members:
+                if not (m.filename.startswith("xl/worksheets/") and m.filename.endswith(".xml")):
+                    continue
+                with zf.open(m) as fh:
+                    tail = b""
+                    while chunk := fh.read(1 << 20):
+                        if b"<f>" in tail + chunk or b"<f " in tail + chunk or b":f>" in tail + chunk:
+                            return True
+                        tail = chunk[-8:]
+    except (zipfile.BadZipFile, zipfile.LargeZipFile, OSError, EOFError, ValueError) as exc:
+        raise _fail(source, f"not a readable .xlsx workbook ({type(exc).__name__}: {exc})") from None
+    return False
+
+
+def _formulas_without_value(path: Path, name: str, wanted: set) -> dict:
+    """``{(row, column): formula}`` of the ``wanted`` cells that hold a formula (second pass)."""
+    import openpyxl
+
+    wb = openpyxl.load_workbook(path, read_only=True, data_only=False)
+    try:
+        found = {}
+        for lineno, values in enumerate(wb[name].iter_rows(values_only=True), start=1):
+            for col, v in enumerate(values):
+                if (lineno, col) in wanted and isinstance(v, str) and v.startswith("="):
+                    found[(lineno, col)] = v
+        return found
+    finally:
+        wb.close()
+
+
+def _column_letter(col: int) -> str:
+    letters = ""
+    col += 1
+    while col:
+        col, rem = divmod(col - 1, 26)
+        letters = chr(65 + rem) + letters
+    return letters
 
 
 def _read_xlsx(path: Path, source: str, sheet: str | None, header_row: int = 1) -> list[RawTable]:
@@ -87,9 +156,10 @@ def _read_xlsx(path: Path, source: str, sheet: str | None, header_row: int = 1) 
 
     import openpyxl
 
+    has_formulas = _xlsx_has_formulas(path, source)
     try:
         wb = openpyxl.load_workbook(path, read_only=True, data_only=True)
-    except (zipfile.BadZipFile, KeyError, OSError, ValueError) as exc:
+    except (zipfile.BadZipFile, KeyError, OSError, ValueError, EOFError) as exc:
         raise _fail(source, f"not a readable .xlsx workbook ({type(exc).__name__}: {exc})") from None
     try:
         names = wb.sheetnames
@@ -116,26 +186,75 @@ def _read_xlsx(path: Path, source: str, sheet: str | None, header_row: int = 1) 
                 rows.append(list(values))
                 numbers.append(lineno)
             if not headers or not any(headers):
-                raise _fail(f"{source}[{name}]", "no header row, expected column names in the first row")
+                raise _header_missing(f"{source}[{name}]", header_row)
             while headers and headers[-1] == "":
                 headers.pop()
-            rows = [r[: len(headers)] + [None] * (len(headers) - len(r)) for r in rows]
             label = source if len(chosen) == 1 and sheet is None and rtype is None else f"{source}[{name}]"
-            tables.append(RawTable(label, headers, rows, numbers, header_row=header_row, record_type=rtype))
+            width = len(headers)
+            problems = [Problem(label, lineno, None, f"a value in column {_column_letter(width)} or beyond, "
+                                f"expected at most {width} columns (one per header)")
+                        for r, lineno in zip(rows, numbers)
+                        if any(v is not None and not (isinstance(v, str) and not v.strip()) for v in r[width:])]
+            rows = [r[:width] + [None] * (width - len(r)) for r in rows]
+            if has_formulas:
+                empty = {(lineno, col) for r, lineno in zip(rows, numbers) for col, v in enumerate(r) if v is None}
+                for (lineno, col), formula in sorted(_formulas_without_value(path, name, empty).items()):
+                    problems.append(Problem(label, lineno, headers[col] or None,
+                                            f"cell {_column_letter(col)}{lineno} holds the formula {formula!r} "
+                                            "without a saved value, expected a value (open and save the "
+                                            "workbook in a spreadsheet program, or type the value)"))
+            tables.append(RawTable(label, headers, rows, numbers, header_row=header_row, record_type=rtype,
+                                   problems=problems))
         return tables
     finally:
         wb.close()
 
 
+class _Object(dict):
+    """A JSON object that remembers the keys it was given more than once."""
+
+    duplicates: tuple = ()
+
+
+def _json_object(pairs) -> _Object:
+    obj = _Object(pairs)
+    if len(obj) != len(pairs):
+        seen: set = set()
+        obj.duplicates = tuple(dict.fromkeys(k for k, _ in pairs if k in seen or seen.add(k)))
+    return obj
+
+
+_SCALARS = (str, int, float, bool, _dt.date)
+
+
+def _cell_problem(value) -> str | None:
+    """Why a JSON/YAML cell cannot be one value, or None if it can."""
+    if value is None or isinstance(value, _SCALARS):
+        return None
+    if isinstance(value, dict):
+        if "value" not in value or not set(value) <= {"value", "unit"}:
+            keys = ", ".join(repr(str(k)) for k in list(value)[:5])
+            return f"a mapping with keys {keys}, expected a value or {{value: ..., unit: ...}}"
+        if getattr(value, "duplicates", ()):
+            return f"key {value.duplicates[0]!r} appears twice in the value, expected once"
+        for part in ("value", "unit"):
+            if value.get(part) is not None and not isinstance(value[part], _SCALARS):
+                return f"a {type(value[part]).__name__} as {part}, expected a single {part}"
+        return None
+    return f"a {type(value).__name__}, expected a single value"
+
+
 def _records_to_tables(doc, source: str) -> list[RawTable]:
     """JSON/YAML: a list of records, or {motors: [...], gearheads: [...], units: {...}}."""
     groups: list[tuple[str | None, list, dict]] = []
+    if getattr(doc, "duplicates", ()):
+        raise _fail(source, f"top-level key {doc.duplicates[0]!r} appears twice, expected once")
     if isinstance(doc, list):
         groups.append((None, doc, {}))
     elif isinstance(doc, dict):
         units = doc.get("units") or {}
-        if not isinstance(units, dict):
-            raise _fail(source, "'units' must map field names to units")
+        if not isinstance(units, dict) or any(not isinstance(v, str) for v in units.values()):
+            raise _fail(source, "'units' must map field names to unit spellings such as mNm")
         unknown = [k for k in doc if k not in _TYPE_KEYS and k not in ("units", "description", "source")]
         if unknown:
             raise _fail(source, f"unknown top-level key {unknown[0]!r}, expected motors, gearheads or units")
@@ -150,44 +269,69 @@ def _records_to_tables(doc, source: str) -> list[RawTable]:
         raise _fail(source, "expected a list of records or a mapping with 'motors'/'gearheads'")
     tables = []
     for rtype, records, units in groups:
+        label = source if len(groups) == 1 else f"{source}[{'motors' if rtype == 'motor' else 'gearheads'}]"
         headers: list[str] = []
         seen = set()
+        problems = []
         for i, rec in enumerate(records, start=1):
             if not isinstance(rec, dict):
                 raise _fail(source, f"record {i} is a {type(rec).__name__}, expected a mapping of field: value", row=i)
+            for k in getattr(rec, "duplicates", ()):
+                problems.append(Problem(label, i, str(k), f"key {k!r} appears twice in record {i}, expected once"))
             for k in rec:
                 if str(k) not in seen:
                     seen.add(str(k))
                     headers.append(str(k))
         rows = [[rec.get(h) for h in headers] for rec in records]
-        label = source if len(groups) == 1 else f"{source}[{'motors' if rtype == 'motor' else 'gearheads'}]"
+        for i, row in enumerate(rows):
+            for j, cell in enumerate(row):
+                if cell is not None and not isinstance(cell, _SCALARS):
+                    why = _cell_problem(cell)
+                    if why:
+                        problems.append(Problem(label, i + 1, headers[j], why))
+                        row[j] = None  # never turned into text
         tables.append(RawTable(label, headers, rows, list(range(1, len(records) + 1)),
-                               header_row=None, record_type=rtype, units={str(k): str(v) for k, v in units.items()}))
+                               header_row=None, record_type=rtype, units={str(k): str(v) for k, v in units.items()},
+                               problems=problems))
     return tables
 
 
 def _read_json(path: Path, source: str) -> list[RawTable]:
     text = _decode(path.read_bytes(), source)
     try:
-        doc = json.loads(text)
+        doc = json.loads(text, object_pairs_hook=_json_object)
     except json.JSONDecodeError as exc:
         raise _fail(source, f"not valid JSON ({exc.msg} at column {exc.colno})", row=exc.lineno) from None
+    except RecursionError:
+        raise _fail(source, "not valid JSON (nested too deeply), expected a list of flat records") from None
     return _records_to_tables(doc, source)
+
+
+def yaml_problem(exc) -> tuple[str, int | None]:
+    """The message and line of a YAML error, as shown to the user."""
+    mark = getattr(exc, "problem_mark", None)
+    row = mark.line + 1 if mark is not None else None
+    problem = getattr(exc, "problem", None) or str(exc).splitlines()[0]
+    if problem.startswith("could not determine a constructor for the tag"):
+        tag = problem.rsplit(" ", 1)[-1].strip("'").replace("tag:yaml.org,2002:", "!!")
+        problem = (f"tag {tag} is not allowed, expected plain values "
+                   "(YAML is loaded safely: no objects are constructed)")
+    return problem, row
 
 
 def _read_yaml(path: Path, source: str) -> list[RawTable]:
     import yaml
 
+    from .yamlsafe import load_data
+
     text = _decode(path.read_bytes(), source)
     try:
-        doc = yaml.safe_load(text)  # safe loading only: no object construction
+        doc = load_data(text)  # safe loading only: no object construction, bounded aliases
     except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        row = mark.line + 1 if mark is not None else None
-        problem = getattr(exc, "problem", None) or str(exc).splitlines()[0]
+        problem, row = yaml_problem(exc)
         raise _fail(source, f"not valid YAML ({problem})", row=row) from None
     except RecursionError:
-        raise _fail(source, "YAML nested too deeply") from None
+        raise _fail(source, "not valid YAML (nested too deeply)") from None
     return _records_to_tables(doc, source)
 
 
@@ -204,8 +348,10 @@ def read_file(path, sheet: str | None = None, header_row: int = 1) -> list[RawTa
     if suffix not in SUPPORTED_SUFFIXES:
         raise _fail(source, f"unsupported file type {suffix or '(none)'!r}, expected one of {', '.join(SUPPORTED_SUFFIXES)}")
     size = path.stat().st_size
-    if size > MAX_FILE_BYTES:
-        raise _fail(source, f"file of {size / 1e6:.0f} MB, expected at most {MAX_FILE_BYTES / 1e6:.0f} MB; split it")
+    limit = MAX_YAML_BYTES if suffix in (".yaml", ".yml") else MAX_FILE_BYTES
+    if size > limit:
+        raise _fail(source, f"file of {size / 1e6:.1f} MB, expected at most {limit / 1e6:.1f} MB "
+                            f"for a {suffix} file; split it")
     if size == 0:
         raise _fail(source, "empty file, expected a header row and records")
     if suffix == ".csv":

@@ -76,7 +76,7 @@ class Store:
                 return duckdb.connect(str(self.path), read_only=read_only)
             except duckdb.IOException as exc:
                 if not _is_lock_error(exc):
-                    raise StoreError(f"{self.path}: cannot open the catalogue: {exc}", path=str(self.path)) from None
+                    raise self._open_error(exc) from None
                 if time.monotonic() >= deadline:
                     raise StoreBusy(
                         f"{self.path}: the catalogue is busy (another motorshelf process is using it); "
@@ -87,22 +87,64 @@ class Store:
             time.sleep(delay * (0.5 + random.random()))
             delay = min(delay * 1.6, 0.5)
 
+    def _open_error(self, exc) -> StoreError:
+        text = str(exc).splitlines()[0]
+        if "not a valid DuckDB database file" in text:
+            return StoreError(f"{self.path}: not a catalogue file (not a DuckDB database), expected a file "
+                              "made by motorshelf; the file was not changed", path=str(self.path))
+        return StoreError(f"{self.path}: cannot open the catalogue: {text}", path=str(self.path))
+
+    def _write_error(self, exc, committed: bool = False) -> StoreError:
+        text = str(exc).splitlines()[0]
+        if committed:
+            return StoreError(f"{self.path}: the change was committed, but closing the catalogue failed "
+                              f"({text}); it is kept in the file's write-ahead log", path=str(self.path))
+        return StoreError(f"{self.path}: cannot write the catalogue ({text}); nothing was changed, "
+                          "free some space or check the file's permissions and try again", path=str(self.path))
+
     @contextlib.contextmanager
     def write(self):
-        """A read-write connection inside one transaction (committed on success)."""
-        self.path.parent.mkdir(parents=True, exist_ok=True)
-        con = self._connect(read_only=False)
+        """A read-write connection inside one transaction (committed on success).
+
+        A failure of the file itself (disk full, I/O error, no permission) rolls the
+        transaction back and is raised as :class:`StoreError`: nothing was changed.
+        """
+        import duckdb
+
+        # the file's own faults; a constraint or binder error is a bug and stays as it is
+        faults = (duckdb.IOException, duckdb.OutOfMemoryException, duckdb.PermissionException,
+                  duckdb.FatalException)
         try:
-            self._migrate(con)
-            con.execute("BEGIN TRANSACTION")
+            self.path.parent.mkdir(parents=True, exist_ok=True)
+        except OSError as exc:
+            raise StoreError(f"{self.path}: cannot create the catalogue's folder ({exc.strerror or exc})",
+                             path=str(self.path)) from None
+        con = self._connect(read_only=False)
+        committed = False
+        try:
+            try:
+                self._migrate(con)
+                con.execute("BEGIN TRANSACTION")
+            except faults as exc:
+                raise self._write_error(exc) from None
             try:
                 yield con
-            except BaseException:
-                con.execute("ROLLBACK")
+                con.execute("COMMIT")
+                committed = True
+            except BaseException as exc:
+                try:
+                    con.execute("ROLLBACK")
+                except duckdb.Error:
+                    pass  # already rolled back (a failed COMMIT) or the connection is gone
+                if isinstance(exc, faults):
+                    raise self._write_error(exc) from None
                 raise
-            con.execute("COMMIT")
         finally:
-            con.close()
+            try:
+                con.close()
+            except duckdb.Error as exc:
+                if committed:
+                    raise self._write_error(exc, committed=True) from None
 
     @contextlib.contextmanager
     def read(self):
@@ -120,6 +162,8 @@ class Store:
         con = self._connect(read_only=True)
         try:
             version = self._file_version(con)
+            if version is not None and version > SCHEMA_VERSION:
+                raise self._newer(version)  # its layout may mean something else: read nothing
             if version is None or version < SCHEMA_VERSION or self._stale_views(con):
                 con.close()
                 with self.write():
@@ -139,6 +183,14 @@ class Store:
         return None if row is None or row[0] is None else int(row[0])
 
     @staticmethod
+    def _foreign(con) -> bool:
+        """True for a database holding tables or views but no ``schema_version`` of ours."""
+        names = {r[0] for r in con.execute(
+            "SELECT table_name FROM information_schema.tables WHERE table_catalog = current_database()"
+        ).fetchall()}
+        return bool(names) and "schema_version" not in names
+
+    @staticmethod
     def _stale_views(con) -> bool:
         try:
             row = one(con.execute("SELECT value FROM meta WHERE key = ?", [_FIELDS_KEY]))
@@ -146,13 +198,20 @@ class Store:
             return True
         return row is None or row[0] != _fields_signature()
 
+    def _newer(self, version: int) -> StoreError:
+        return StoreError(
+            f"{self.path}: catalogue file has layout version {version}, newer than this motorshelf "
+            f"knows ({SCHEMA_VERSION}); upgrade motorshelf, the file was not changed",
+            path=str(self.path), version=version)
+
     def _migrate(self, con) -> None:
         version = self._file_version(con) or 0
         if version > SCHEMA_VERSION:
-            raise StoreError(
-                f"{self.path}: catalogue file has layout version {version}, newer than this motorshelf "
-                f"knows ({SCHEMA_VERSION}); upgrade motorshelf, the file was not changed",
-                path=str(self.path), version=version)
+            raise self._newer(version)
+        if version == 0 and self._foreign(con):
+            raise StoreError(f"{self.path}: not a catalogue file (a DuckDB database without motorshelf's "
+                             "tables), expected a file made by motorshelf; the file was not changed",
+                             path=str(self.path))
         stale = self._stale_views(con)
         if version == SCHEMA_VERSION and not stale:
             return

@@ -12,7 +12,7 @@ __all__ = ["SCHEMA_VERSION", "MIGRATIONS", "view_sql", "VALUE_COLUMNS"]
 from ..fields import RECORD_TYPES, fields_for
 
 #: Version of the catalogue file layout this code writes.
-SCHEMA_VERSION = 1
+SCHEMA_VERSION = 2
 
 VALUE_COLUMNS = (
     "record_id", "field", "value_num", "value_text", "raw_text", "raw_unit",
@@ -49,8 +49,39 @@ _V1 = [
     "CREATE SEQUENCE IF NOT EXISTS batch_seq START 1",
 ]
 
+# v2: the in-house shelf (catalog/inventory).  Quantities are never stored: on hand and
+# reserved are sums over the append-only stock_movements of a stock item (record, location,
+# condition); stock_items keeps only the item's serial numbers and notes.
+_V2 = [
+    "CREATE SEQUENCE IF NOT EXISTS stock_item_seq START 1",
+    "CREATE SEQUENCE IF NOT EXISTS stock_movement_seq START 1",
+    "CREATE SEQUENCE IF NOT EXISTS stock_reservation_seq START 1",
+    """CREATE TABLE IF NOT EXISTS stock_items (
+        item_id INTEGER PRIMARY KEY, record_id VARCHAR NOT NULL, location VARCHAR NOT NULL,
+        condition VARCHAR NOT NULL, serial_numbers VARCHAR, notes VARCHAR,
+        created_at TIMESTAMP NOT NULL, created_batch INTEGER NOT NULL,
+        UNIQUE (record_id, location, condition))""",
+    """CREATE TABLE IF NOT EXISTS stock_movements (
+        movement_id BIGINT PRIMARY KEY, item_id INTEGER NOT NULL, record_id VARCHAR NOT NULL,
+        location VARCHAR NOT NULL, condition VARCHAR NOT NULL, kind VARCHAR NOT NULL,
+        quantity_change INTEGER NOT NULL, reserved_change INTEGER NOT NULL,
+        reservation_id INTEGER, moved_at TIMESTAMP NOT NULL, person VARCHAR, project VARCHAR,
+        reason VARCHAR, serial_numbers VARCHAR, batch_id INTEGER NOT NULL)""",
+    """CREATE TABLE IF NOT EXISTS stock_levels (
+        record_id VARCHAR PRIMARY KEY, min_quantity INTEGER NOT NULL, batch_id INTEGER NOT NULL)""",
+    """CREATE OR REPLACE VIEW stock AS SELECT i.item_id, i.record_id, r.record_type, r.manufacturer,
+        r.part_number, i.location, i.condition,
+        CAST(coalesce(sum(m.quantity_change), 0) AS INTEGER) AS on_hand,
+        CAST(coalesce(sum(m.reserved_change), 0) AS INTEGER) AS reserved,
+        CAST(coalesce(sum(m.quantity_change), 0) - coalesce(sum(m.reserved_change), 0) AS INTEGER) AS available,
+        i.serial_numbers, i.notes, max(m.moved_at) AS last_movement
+        FROM stock_items i LEFT JOIN stock_movements m ON m.item_id = i.item_id
+        LEFT JOIN records r ON r.record_id = i.record_id
+        GROUP BY ALL""",
+]
+
 #: version -> list of statements bringing a file from version-1 to version.
-MIGRATIONS: dict[int, list[str]] = {1: _V1}
+MIGRATIONS: dict[int, list[str]] = {1: _V1, 2: _V2}
 
 
 def _column_expr(field) -> str:

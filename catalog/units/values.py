@@ -30,8 +30,13 @@ _SEP_THOUSANDS = re.compile(rf"[+-]?[0-9]{{1,3}}(?:[{_GROUP_SEP}][0-9]{{3}})+(?:
 _GLUED_SEP = re.compile(r"[+-]?[0-9]+(?:[.,'’][0-9]+)+")
 _SPACED = re.compile(r"[+-]?[0-9]{1,3}(?:[ \u00a0\u2009\u202f][0-9]{3})+(?=$|[ A-Za-zµΩ°%\[(])")
 _MINUS = str.maketrans({"−": "-", "\u00a0": " ", "\u2009": " ", "\u202f": " "})
-_NAN = {"nan", "na", "n/a"}
-_INF = {"inf", "infinity", "∞"}
+# Fast path of parse_cells: a plain number, optionally followed by a unit that starts
+# with a letter or symbol (never a digit, comma, dot, quote or sign).  Everything
+# else (decimal commas, thousands separators, nan, ...) takes the strict slow path.
+_FAST = re.compile(r"\s*([+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)"
+                   r"(?:\s*([^0-9\s,.'’+\-−][^,]*?))?\s*")
+_NAN = {"nan", "na", "n/a", ".nan"}  # .nan/.inf: YAML's spellings, read as text
+_INF = {"inf", "infinity", "∞", ".inf"}
 
 
 def _fmt(x: float) -> str:
@@ -152,9 +157,12 @@ def _convert(numbers, units, dimension, default_unit, texts):
     si = np.full(nums.shape, np.nan)
     errors: list = []
     warnings: list = []
+    raw_groups: dict = {}
+    for i, u in enumerate(units):  # group by the spelling as written, normalise once per group
+        raw_groups.setdefault(u, []).append(i)
     groups: dict = {}
-    for i, u in enumerate(units):
-        groups.setdefault(_key(u), []).append(i)
+    for u, where in raw_groups.items():
+        groups.setdefault(_key(u), []).extend(where)
     default = _key(default_unit)
     unitless_ok = dim.accepts_percent or dim.unitless_only
     for key, where in groups.items():
@@ -169,7 +177,8 @@ def _convert(numbers, units, dimension, default_unit, texts):
             conv = parse_unit(spelling or "", dim)
         except UnitError as e:
             for i in present:
-                cell = texts[i] if (texts is not None and key is not None) else f"{_fmt(nums[i])} {spelling}"
+                cell = str(texts[i]).strip() if (texts is not None and key is not None) \
+                    else f"{_fmt(nums[i])} {spelling}"
                 errors.append((int(i), str(e.with_text(cell))))
             continue
         si[idx] = nums[idx] * conv.factor + conv.offset
@@ -198,9 +207,31 @@ def parse_cells(texts: Sequence, dimension, default_unit: str | None = None) -> 
     n = len(texts)
     nums = np.full(n, np.nan)
     units: list = [None] * n
-    shown: list = [None] * n
+    shown: list = list(texts)
     errors: list = []
+    fast = _FAST.fullmatch
+    fast_idx: list = []
+    fast_num: list = []
+    slow: list = []
     for i, cell in enumerate(texts):
+        if cell.__class__ is str:
+            m = fast(cell)
+            if m is not None:
+                fast_idx.append(i)
+                fast_num.append(m.group(1))
+                units[i] = m.group(2)
+                continue
+        slow.append(i)
+    if fast_idx:
+        idx = np.asarray(fast_idx, dtype=np.intp)
+        vals = np.asarray(fast_num, dtype=float)
+        finite = np.isfinite(vals)
+        nums[idx[finite]] = vals[finite]
+        for i in idx[~finite]:  # overflow such as 1e999: let the strict path say why
+            units[i] = None
+            slow.append(int(i))
+    for i in slow:
+        cell = texts[i]
         try:
             value, unit = split_value_unit(cell)
         except UnitError as e:

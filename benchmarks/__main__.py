@@ -1,0 +1,22 @@
+"""`make bench`: run every benchmark, one line per figure (median, baseline, ratio)."""
+from __future__ import annotations
+
+import importlib
+import sys
+
+SCRIPTS = ["bench_startup", "bench_derive", "bench_import", "bench_select"]
+
+
+def main() -> int:
+    print("motorshelf benchmarks (results also in benchmarks/results/*.json)")
+    for name in SCRIPTS:
+        try:
+            module = importlib.import_module(f"benchmarks.{name}")
+        except ModuleNotFoundError:
+            continue
+        module.main()
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,336 @@
+"""The shelf commands: ``stock ...`` (movements, reservations, lists, stock files) and ``history``.
+
+Each command parses its options, calls one ``Catalog.stock_*`` method and prints
+the result; quantities are validated by the API, so a wrong one is one
+``error:`` line like every other mistake.
+"""
+from __future__ import annotations
+
+__all__ = ["stock", "history_cmd"]
+
+import sys
+
+import click
+
+from . import Context, cli, handle_errors
+from .output import FORMAT_OPTION, print_frame
+
+_CONDITIONS = click.Choice(["new", "used", "needs-testing", "faulty"])
+_BY = click.option("--by", "person", default=None, metavar="PERSON", help="Who does it (free text).")
+_REASON = click.option("--reason", default=None, metavar="TEXT", help="Why (free text).")
+_SERIAL = click.option("--serial", "serials", multiple=True, metavar="SN",
+                       help="Serial or lot number of a piece (repeat, or separate with ';').")
+
+
+def _where(required: bool = False, default_condition=None):
+    def deco(f):
+        f = click.option("--condition", type=_CONDITIONS, default=default_condition,
+                         show_default=default_condition is not None,
+                         help="Condition of the pieces" + ("" if default_condition else
+                                                          " (needed when the record lies there in several)") + ".")(f)
+        return click.option("--location", required=required, default=None, metavar="LOCATION",
+                            help="Where the pieces lie, e.g. 'Lab 2 / cabinet B'"
+                                 + ("." if required else " (needed when the record is stocked in several places)."))(f)
+    return deco
+
+
+def _done(change) -> None:
+    click.echo(change.message)
+
+
+@cli.group("stock")
+def stock():
+    """The in-house shelf: what is in stock, where, and what happened to it."""
+
+
+@stock.command("receive")
+@click.argument("record_id", metavar="ID")
+@click.argument("quantity", metavar="QTY")
+@_where(required=True, default_condition="new")
+@_SERIAL
+@click.option("--notes", default=None, metavar="TEXT", help="Notes about the pieces (replace the item's notes).")
+@click.option("--min", "min_quantity", default=None, metavar="N",
+              help="Reorder level of the record: `stock list --low` shows it below N usable pieces.")
+@_BY
+@_REASON
+@click.pass_obj
+@handle_errors
+def receive_cmd(obj: Context, record_id, quantity, location, condition, serials, notes, min_quantity, person, reason):
+    """Record QTY pieces of catalogue record ID arriving at --location."""
+    _done(obj.catalog().stock_receive(record_id, quantity, location, condition, ";".join(serials) or None, notes,
+                                      person, reason, min_quantity))
+
+
+@stock.command("take")
+@click.argument("record_id", metavar="[ID]", required=False)
+@click.argument("quantity", metavar="[QTY]", required=False)
+@_where()
+@click.option("--project", default=None, metavar="PROJECT", help="The project the pieces are for.")
+@click.option("--reservation", default=None, type=int, metavar="N",
+              help="Take the pieces of reservation N (all that is left, or QTY of them).")
+@_SERIAL
+@_BY
+@_REASON
+@click.pass_obj
+@handle_errors
+def take_cmd(obj: Context, record_id, quantity, location, condition, project, reservation, serials, person, reason):
+    """Take QTY pieces of ID off the shelf for a --project (--by whom), or turn a --reservation into a take."""
+    if reservation is not None and quantity is None and record_id is not None and record_id.isdigit():
+        record_id, quantity = None, record_id  # `take --reservation 3 1`: the one argument is the quantity
+    _done(obj.catalog().stock_take(record_id, quantity, location, condition, person, project, reason, reservation,
+                                   ";".join(serials) or None))
+
+
+@stock.command("return")
+@click.argument("record_id", metavar="ID")
+@click.argument("quantity", metavar="QTY")
+@_where(required=True, default_condition="used")
+@click.option("--project", default=None, metavar="PROJECT", help="The project the pieces come back from.")
+@_SERIAL
+@_BY
+@_REASON
+@click.pass_obj
+@handle_errors
+def return_cmd(obj: Context, record_id, quantity, location, condition, project, serials, person, reason):
+    """Put QTY pieces of ID back on the shelf at --location (condition used unless given)."""
+    _done(obj.catalog().stock_return(record_id, quantity, location, condition, person, project, reason,
+                                     ";".join(serials) or None))
+
+
+@stock.command("move")
+@click.argument("record_id", metavar="ID")
+@click.argument("quantity", metavar="QTY")
+@click.option("--to", "to_location", required=True, metavar="LOCATION", help="Where the pieces go.")
+@click.option("--from", "from_location", default=None, metavar="LOCATION",
+              help="Where they lie now (needed when the record is stocked in several places).")
+@click.option("--condition", type=_CONDITIONS, default=None, help="Condition of the pieces now.")
+@click.option("--to-condition", type=_CONDITIONS, default=None,
+              help="New condition, e.g. used after testing or faulty (default: unchanged).")
+@_SERIAL
+@_BY
+@_REASON
+@click.pass_obj
+@handle_errors
+def move_cmd(obj: Context, record_id, quantity, to_location, from_location, condition, to_condition, serials,
+             person, reason):
+    """Move QTY pieces of ID to another location (or re-classify them with --to-condition)."""
+    _done(obj.catalog().stock_move(record_id, quantity, to_location, from_location, condition, to_condition,
+                                   person, reason, ";".join(serials) or None))
+
+
+@stock.command("adjust")
+@click.argument("record_id", metavar="ID")
+@click.argument("counted", metavar="COUNTED")
+@_where()
+@_BY
+@_REASON
+@click.pass_obj
+@handle_errors
+def adjust_cmd(obj: Context, record_id, counted, location, condition, person, reason):
+    """Set ID at --location to the COUNTED number of pieces (writes the difference)."""
+    _done(obj.catalog().stock_adjust(record_id, counted, location, condition, person, reason))
+
+
+@stock.command("write-off")
+@click.argument("record_id", metavar="ID")
+@click.argument("quantity", metavar="QTY")
+@click.option("--reason", required=True, metavar="TEXT", help="Why the pieces leave the books (required).")
+@_where()
+@_SERIAL
+@_BY
+@click.pass_obj
+@handle_errors
+def write_off_cmd(obj: Context, record_id, quantity, reason, location, condition, serials, person):
+    """Take QTY pieces of ID off the books for good (scrapped, lost, given away)."""
+    _done(obj.catalog().stock_write_off(record_id, quantity, reason, location, condition, person,
+                                        ";".join(serials) or None))
+
+
+@stock.command("reserve")
+@click.argument("record_id", metavar="ID")
+@click.argument("quantity", metavar="QTY")
+@click.option("--project", required=True, metavar="PROJECT", help="The project the pieces are held for.")
+@_where()
+@_BY
+@_REASON
+@click.pass_obj
+@handle_errors
+def reserve_cmd(obj: Context, record_id, quantity, project, location, condition, person, reason):
+    """Hold QTY pieces of ID for a --project: they stay on the shelf but are not available to others."""
+    _done(obj.catalog().stock_reserve(record_id, quantity, project, location, condition, person, reason))
+
+
+@stock.command("release")
+@click.argument("reservation", metavar="RESERVATION")
+@click.option("--quantity", default=None, metavar="N", help="Release only N pieces (default: all that are left).")
+@_BY
+@_REASON
+@click.pass_obj
+@handle_errors
+def release_cmd(obj: Context, reservation, quantity, person, reason):
+    """Give the pieces of a reservation (its number, see `stock reservations`) back to everyone."""
+    from ..errors import InputError
+
+    if not str(reservation).isdigit():
+        raise InputError(f"reservation {reservation!r} is not a reservation number, expected e.g. 3")
+    _done(obj.catalog().stock_release(int(reservation), quantity, person, reason))
+
+
+@stock.command("reservations")
+@click.option("--all", "show_all", is_flag=True, help="Also list released and taken reservations.")
+@click.option("--project", default=None, metavar="PROJECT", help="Only this project's reservations.")
+@FORMAT_OPTION
+@click.pass_obj
+@handle_errors
+def reservations_cmd(obj: Context, show_all, project, fmt):
+    """List the open reservations (number, record, location, pieces left, project)."""
+    df = obj.catalog().stock_reservations(open_only=not show_all, project=project)
+    if fmt == "table" and df.empty:
+        click.echo("no open reservations" if not show_all else "no reservations")
+        return
+    if fmt == "table":
+        df = df.assign(reserved_at=df["reserved_at"].dt.strftime("%Y-%m-%d %H:%M"),
+                       last_change=df["last_change"].dt.strftime("%Y-%m-%d %H:%M"))
+    print_frame(df, fmt, title=f"{len(df)} reservation(s)")
+
+
+@stock.command("list")
+@click.option("--location", default=None, metavar="TEXT", help="Only locations containing TEXT (ignoring case).")
+@click.option("--low", is_flag=True, help="Records with fewer usable pieces available than their reorder level.")
+@click.option("--all", "show_all", is_flag=True, help="Also items with nothing left on hand.")
+@FORMAT_OPTION
+@click.pass_obj
+@handle_errors
+def list_cmd(obj: Context, location, low, show_all, fmt):
+    """List the stock items: record, location, condition, on hand, reserved, available."""
+    cat = obj.catalog()
+    if low:
+        df = cat.stock_low(location)
+        title = f"{len(df)} record(s) below their reorder level"
+    else:
+        df = cat.stock_list(location, include_empty=show_all)
+        if fmt == "table":
+            df = df.drop(columns=["record_type", "manufacturer", "part_number", "last_movement"])
+        title = f"{len(df)} stock item(s), {int(df['on_hand'].sum()) if len(df) else 0} piece(s)"
+    if fmt == "table" and df.empty:
+        click.echo("nothing below its reorder level" if low else "no stock" + (f" at {location!r}" if location else ""))
+        return
+    print_frame(df, fmt, title=title)
+
+
+@stock.command("history")
+@click.argument("record_id", metavar="ID")
+@FORMAT_OPTION
+@click.pass_obj
+@handle_errors
+def stock_history_cmd(obj: Context, record_id, fmt):
+    """Every stock movement of record ID, oldest first, with the quantities after each."""
+    df = obj.catalog().stock_history(record_id)
+    if fmt == "table":
+        if df.empty:
+            click.echo(f"no stock movements of {record_id}")
+            return
+        df = df.assign(moved_at=df["moved_at"].dt.strftime("%Y-%m-%d %H:%M")).drop(columns=["batch_id"])
+        df = df.drop(columns=[c for c in ("reserved_after", "reservation_id", "serial_numbers")
+                              if not df[c].fillna(0).astype(bool).any()])
+    print_frame(df, fmt, title=f"{len(df)} movement(s) of {record_id}")
+
+
+@stock.command("import")
+@click.argument("files", nargs=-1, required=True, type=click.Path())
+@_BY
+@click.pass_obj
+@handle_errors
+def import_cmd(obj: Context, files, person):
+    """Receive every row of stock files (CSV, XLSX, JSON, YAML; schemas/stock.schema.json), in one transaction."""
+    from ..errors import ImportRejected
+
+    cat = obj.catalog()
+    try:
+        rows, pieces, batch = cat.stock_import(list(files), person=person)
+    except ImportRejected as exc:
+        for p in exc.problems:
+            click.echo(f"error: {p}", err=True)
+        click.echo(f"error: {exc.message}", err=True)
+        sys.exit(2)
+    click.echo(f"{cat.path}: received {pieces} piece(s) in {rows} row(s) of {', '.join(files)} (batch {batch})")
+
+
+@stock.command("count")
+@click.argument("file", type=click.Path())
+@click.option("--apply", "apply_", is_flag=True, help="Write the differences as adjust movements.")
+@click.option("--keep-unlisted", is_flag=True,
+              help="Leave items the file does not list alone (default: at a counted location they count as 0).")
+@_BY
+@FORMAT_OPTION
+@click.pass_obj
+@handle_errors
+def count_cmd(obj: Context, file, apply_, keep_unlisted, person, fmt):
+    """Reconcile a counted shelf (a stock file) with the records: show the differences, --apply writes them."""
+    from ..errors import ImportRejected
+
+    cat = obj.catalog()
+    try:
+        diff, applied, batch = cat.stock_count(file, apply=apply_, keep_unlisted=keep_unlisted, person=person)
+    except ImportRejected as exc:
+        for p in exc.problems:
+            click.echo(f"error: {p}", err=True)
+        click.echo(f"error: {exc.message}", err=True)
+        sys.exit(2)
+    shown = diff.drop(columns=["item_id", "source", "row"])
+    if fmt != "table":
+        print_frame(shown, fmt)
+        return
+    if diff.empty:
+        click.echo(f"{file}: the count matches the records")
+        return
+    print_frame(shown, "table", title=f"{len(diff)} difference(s) between {file} and the records")
+    if applied:
+        click.echo(f"{cat.path}: {len(diff)} adjust movement(s) written (batch {batch})")
+    else:
+        click.echo(f"nothing written; `motorshelf stock count {file} --apply` writes these as adjust movements")
+
+
+@cli.command("history")
+@click.argument("record_id", metavar="ID")
+@click.option("--all", "show_all", is_flag=True, help="Also values a re-import wrote again unchanged.")
+@FORMAT_OPTION
+@click.pass_obj
+@handle_errors
+def history_cmd(obj: Context, record_id, show_all, fmt):
+    """Every change of catalogue record ID: old and new value, when, and by which batch (file)."""
+    df = obj.catalog().history(record_id)
+    rec = df.attrs["record"]
+    if not show_all:
+        df = df[df["changed"]]
+    if fmt != "table":
+        print_frame(df, fmt)
+        return
+    when = lambda t: t.strftime("%Y-%m-%d %H:%M") if t is not None and t == t else "?"  # noqa: E731
+    click.echo(f"{record_id}  ({rec['record_type']}: {rec['manufacturer']} {rec['part_number']})")
+    click.echo(f"  created {when(rec['created_at'])} by batch {rec['created_batch']} ({rec['created_files'] or '-'}); "
+               f"last changed {when(rec['updated_at'])} by batch {rec['updated_batch']} ({rec['updated_kind']}"
+               + (f": {rec['updated_files']}" if rec["updated_files"] else "") + ")")
+    if df.empty:
+        click.echo("  no value was changed since" + ("" if show_all else " (--all also shows values written again unchanged)"))
+        return
+
+    def shown(num, text, raw, unit):
+        written = "" if raw is None or raw != raw else f" ({raw}{' ' + unit if isinstance(unit, str) and unit else ''})"
+        if num is not None and num == num:
+            return f"{num:.6g} SI{written}"
+        return f"{text}" if text is not None and text == text else "-"
+
+    import pandas as pd
+
+    out = pd.DataFrame({
+        "replaced at": [when(t) for t in df["replaced_at"]],
+        "field": df["field"],
+        "old": [shown(*r) for r in zip(df["old_value"], df["old_text"], df["old_raw"], df["old_unit"])],
+        "old origin": df["old_origin"],
+        "new": [shown(n, t, r, None) for n, t, r in zip(df["new_value"], df["new_text"], df["new_raw"])],
+        "from batch": [f"{b} {f or ''}".strip() for b, f in zip(df["old_batch"], df["old_files"])],
+        "replaced by": [f"{b} {k}: {f or ''}".strip() for b, k, f in
+                        zip(df["replaced_by_batch"], df["replaced_by_kind"], df["replaced_by_files"])],
+    })
+    print_frame(out, "table", title=f"{len(out)} replaced value(s) of {record_id}")

@@ -1,0 +1,198 @@
+"""Export the catalogue (all motors or gearheads, or a SQL filter of them).
+
+The filter is the condition of a ``WHERE`` clause on the ``motors`` or
+``gearheads`` view (SI units, canonical column names), run on a read-only
+connection with file access switched off; values can be passed as named
+parameters (``mass < $m`` with ``params={"m": 0.2}``) instead of being
+pasted into the text.
+"""
+from __future__ import annotations
+
+__all__ = ["catalogue_tables", "export_catalogue", "provenance_table", "KINDS", "about_block"]
+
+import datetime as _dt
+
+from ..errors import InputError, Problem
+
+#: Export kind → (view, record type).
+KINDS = {"motors": ("motors", "motor"), "gearheads": ("gearheads", "gearhead")}
+
+
+def about_block(cat=None, preset: str = "datasheet", **more) -> dict:
+    """Run details written with every export (``about`` sheet / object)."""
+    from .. import __version__
+
+    out = {"program": f"motorshelf {__version__}",
+           "created": _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat(),
+           "catalogue": str(cat.path) if cat is not None else "",
+           "units": preset,
+           "values": "display units in the headers; stored in SI"}
+    out.update(more)
+    return out
+
+
+def _where_problem(where: str, message: str) -> InputError:
+    return InputError(f"--where: {message}", [Problem("--where", None, None, message)])
+
+
+def _check_where(where: str) -> None:
+    import duckdb
+
+    text = where.strip()
+    if not text:
+        raise _where_problem(where, "empty condition, expected e.g. \"mass < 0.2\"")
+    try:
+        statements = duckdb.extract_statements(f"SELECT 1 FROM motors WHERE ({text}\n)")
+    except duckdb.Error as exc:
+        raise _where_problem(where, str(exc).splitlines()[0]) from None
+    if len(statements) != 1 or statements[0].type != duckdb.StatementType.SELECT:
+        raise _where_problem(where, "expected one condition, found more than one statement")
+
+
+def _query(cat, view: str, where: str | None, params: dict | None):
+    """(records frame, values frame) of the view rows matching ``where``."""
+    import duckdb
+
+    cond = ""
+    if where:
+        _check_where(where)
+        cond = f" WHERE ({where.strip()}\n)"
+    sql = f"SELECT * FROM {view}{cond} ORDER BY id"
+    vsql = ("SELECT record_id, field, value_num, value_text, raw_text, raw_unit, origin, relation, inputs, "
+            f"source_file, source_row FROM record_values WHERE record_id IN (SELECT id FROM {view}{cond}) "
+            "ORDER BY record_id, field")
+    params = dict(params or {})
+    with cat.store.read() as con:
+        try:
+            con.execute("SET enable_external_access = false")
+            con.execute("SET lock_configuration = true")
+        except duckdb.Error:  # pragma: no cover - older duckdb
+            pass
+        try:
+            rows = (con.sql(sql, params=params) if params else con.sql(sql)).to_arrow_table().to_pandas()
+            vals = (con.sql(vsql, params=params) if params else con.sql(vsql)).to_arrow_table().to_pandas()
+        except duckdb.Error as exc:
+            raise _where_problem(where or "", str(exc).splitlines()[0]) from None
+    return rows, vals
+
+
+def provenance_table(values, record_types: dict, preset: str = "datasheet", name: str = "provenance"):
+    """The provenance sheet: one row per record and field used.
+
+    ``values`` has the columns of ``record_values`` (record_id, field,
+    value_num, value_text, raw_text, raw_unit, origin, relation, inputs,
+    source_file, source_row); ``record_types`` maps record id → ``motor`` or
+    ``gearhead`` (for the field dimensions).  Numbers are shown in ``preset``
+    with the unit in the ``unit`` column, and in SI.
+    """
+    import numpy as np
+
+    from ..fields import fields_for
+    from ..units import get_dimension
+    from .columns import UNITLESS, Column, Table, _clean_number, text_column, unit_conversion
+
+    values = values.reset_index(drop=True)
+    n = len(values)
+    shown, unit, si_unit = [None] * n, [None] * n, [None] * n
+    si_vals = [None] * n
+    fields = {t: fields_for(t) for t in ("motor", "gearhead")}
+    keyed = values.assign(_rt=values["record_id"].map(record_types).fillna("motor"))
+    for (rt, fname), grp in keyed.groupby(["_rt", "field"], sort=False):
+        f = fields[rt].get(fname)
+        nums = grp["value_num"].to_numpy(dtype=float, na_value=np.nan)
+        pos = grp.index.to_numpy()
+        if f is None or not f.is_numeric or np.all(np.isnan(nums)):
+            continue
+        if f.dimension is None:
+            disp, label, si_label = nums, ("currency" if fname == "price" else UNITLESS), None
+        else:
+            convert, label = unit_conversion(f.dimension, preset, fname)
+            label = label or convert.label_for(nums)
+            disp = convert(nums)
+            si_label = get_dimension(f.dimension).display["si"][0] or UNITLESS
+            label = label or UNITLESS
+        for k, p in enumerate(pos):
+            i = int(p)
+            shown[i] = _clean_number(disp[k], f.kind == "integer")
+            si_vals[i] = _clean_number(nums[k])
+            unit[i] = label
+            si_unit[i] = si_label or label
+    src = [f"{a}:{int(b)}" if isinstance(a, str) and a and b == b and b is not None else (a or None)
+           for a, b in zip(values["source_file"], values["source_row"])]
+    origin_text = []
+    for o, rel, inp, raw, ru, s in zip(values["origin"], values["relation"], values["inputs"],
+                                       values["raw_text"], values["raw_unit"], src):
+        if o == "derived":
+            origin_text.append(f"derived: {rel}" + (f" from {inp}" if isinstance(inp, str) and inp else ""))
+        else:
+            written = f"{raw!r}" if isinstance(raw, str) else "''"
+            if isinstance(ru, str) and ru and (not isinstance(raw, str) or ru not in raw):
+                written += f" [{ru}]"
+            origin_text.append(f"given: {written}" + (f" ({s})" if s else ""))
+    cols = [
+        text_column("record_id", values["record_id"].tolist()),
+        text_column("field", values["field"].tolist()),
+        Column("value", "number", shown, si_vals, "see unit", "see si_unit"),
+        text_column("unit", unit),
+        Column("value_si", "number", si_vals, si_vals, "see si_unit", "see si_unit"),
+        text_column("si_unit", si_unit),
+        text_column("text", values["value_text"].tolist()),
+        text_column("origin", values["origin"].tolist()),
+        text_column("relation", values["relation"].tolist()),
+        text_column("inputs", values["inputs"].tolist()),
+        text_column("raw_text", values["raw_text"].tolist()),
+        text_column("raw_unit", values["raw_unit"].tolist()),
+        text_column("source", src),
+        text_column("how", origin_text),
+    ]
+    return Table(name, cols, freeze_columns=2)
+
+
+def catalogue_tables(cat, kind: str, where: str | None = None, params: dict | None = None,
+                     preset: str = "datasheet"):
+    """``[records table, provenance table]`` of ``kind`` (``motors`` or ``gearheads``)."""
+    from ..fields import fields_for
+    from .columns import table_from_frame
+
+    if kind not in KINDS:
+        raise InputError(f"unknown kind {kind!r}, expected motors or gearheads",
+                         [Problem("kind", None, None, f"{kind!r} is not motors or gearheads")])
+    view, rtype = KINDS[kind]
+    rows, vals = _query(cat, view, where, params)
+    order = [c for c in fields_for(rtype) if c in rows.columns]
+    main = table_from_frame(rows, kind, preset, record_type=rtype, columns=order, freeze_columns=1)
+    prov = provenance_table(vals.reset_index(drop=True), {r: rtype for r in rows["id"]}, preset)
+    return [main, prov]
+
+
+def export_catalogue(cat, kind: str, path, where: str | None = None, params: dict | None = None,
+                     units: str = "datasheet"):
+    """Write the ``motors`` or ``gearheads`` of ``cat`` (optionally filtered) to ``path``.
+
+    Parameters
+    ----------
+    cat : Catalog
+        The catalogue (``catalog.open(path)``).
+    kind : str
+        ``motors`` or ``gearheads``.
+    path : str or Path
+        ``.csv``, ``.xlsx``, ``.json`` or ``.parquet``.
+    where : str, optional
+        SQL condition on the view (SI units), e.g. ``"mass < $m AND mount = 'F22'"``.
+    params : dict, optional
+        Named parameters of ``where`` (``{"m": 0.2}``).
+    units : str
+        Display preset ``si``, ``datasheet`` or ``imperial`` (Parquet is always SI).
+
+    Returns
+    -------
+    (Path, int)
+        The file written and the number of records in it.
+    """
+    from .writers import format_for, write_tables
+
+    format_for(path)
+    tables = catalogue_tables(cat, kind, where, params, units)
+    about = about_block(cat, units if format_for(path) != "parquet" else "si", export=kind,
+                        where=where or "", parameters=dict(params or {}), records=len(tables[0]))
+    return write_tables(tables, path, about), len(tables[0])

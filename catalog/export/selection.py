@@ -1,0 +1,198 @@
+"""Export a selection: shortlist, rejected candidates, envelope, provenance, cautions.
+
+:func:`write_selection` writes one file whose format follows the extension.
+The XLSX holds every sheet (``shortlist``, ``rejected``, ``rejection counts``,
+``envelope``, ``provenance``, ``cautions``, ``about``); JSON holds the same
+tables (the shortlist at the top level); CSV and Parquet hold the shortlist
+only (Parquet in SI).
+"""
+from __future__ import annotations
+
+__all__ = ["CAUTION", "selection_tables", "write_selection", "envelope_table", "caution_lines"]
+
+import math
+
+#: The caution every selection export and report carries.
+CAUTION = ("Catalogue-based selection is a first pass: verify with a prototype under the real load and "
+           "temperature. Winding overheating damages insulation and can demagnetise magnets; peak currents "
+           "beyond the rating can demagnetise permanently; supplies above extra-low voltage are dangerous; "
+           "moving machinery needs guarding. Local codes and a qualified engineer have the last word.")
+
+
+def _leaves(node, sch, path):
+    """(key path, value as given, schema node) of every leaf of the envelope."""
+    if isinstance(node, dict):
+        props = sch.get("properties", {})
+        for k, v in node.items():
+            yield from _leaves(v, props.get(k, {}), path + [k])
+    elif isinstance(node, list) and any(isinstance(v, dict) for v in node):
+        items = sch.get("items", {})
+        for i, v in enumerate(node):
+            yield from _leaves(v, items, path + [i])
+    else:
+        yield path, node, sch
+
+
+def _key(path) -> str:
+    out = ""
+    for p in path:
+        out += f"[{p}]" if isinstance(p, int) else (f".{p}" if out else str(p))
+    return out
+
+
+def envelope_table(envelope, preset: str = "datasheet"):
+    """The envelope as given: one row per input with its value in display units and in SI."""
+    from ..select.envelope import envelope_schema
+    from ..units import UnitError, get_dimension, parse_quantity
+    from .columns import UNITLESS, Column, Table, _clean_number, text_column, unit_conversion
+
+    keys, given, shown, unit, si, si_unit, desc = [], [], [], [], [], [], []
+    for path, value, sch in _leaves(envelope.raw, envelope_schema(), []):
+        keys.append(_key(path))
+        if isinstance(value, list):
+            given.append(", ".join(map(str, value)))
+        elif isinstance(value, bool):
+            given.append("true" if value else "false")
+        else:
+            given.append(str(value))
+        desc.append(sch.get("description", ""))
+        dim = sch.get("x-dimension")
+        v_si = None
+        if dim is not None and not isinstance(value, bool):
+            try:
+                v_si = float(value) if isinstance(value, (int, float)) else parse_quantity(value, dim)
+            except (UnitError, ValueError):
+                v_si = None
+        if v_si is None:
+            if isinstance(value, (int, float)) and not isinstance(value, bool):
+                shown.append(_clean_number(value)); si.append(_clean_number(value))
+                unit.append(UNITLESS); si_unit.append(UNITLESS)
+            else:
+                shown.append(None); si.append(None); unit.append(None); si_unit.append(None)
+            continue
+        convert, label = unit_conversion(dim, preset)
+        label = label or convert.label_for([v_si]) or UNITLESS
+        shown.append(_clean_number(float(convert([v_si])[0])))
+        si.append(_clean_number(v_si))
+        unit.append(label)
+        si_unit.append(get_dimension(dim).display["si"][0] or UNITLESS)
+    cols = [text_column("key", keys), text_column("as given", given),
+            Column("value", "number", shown, si, "see unit", "see si_unit"), text_column("unit", unit),
+            Column("value_si", "number", si, si, "see si_unit", "see si_unit"), text_column("si_unit", si_unit),
+            text_column("meaning", desc)]
+    return Table("envelope", cols, freeze_columns=1)
+
+
+def caution_lines(selection, catalog=None) -> list[tuple[str, str]]:
+    """(topic, text) rows: the caution, the model's assumptions, notes and consistency flags."""
+    env = selection.envelope
+    rows = [("caution", CAUTION)]
+    tol = env.tolerance
+    if tol.get("torque_constant") or tol.get("terminal_resistance"):
+        rows.append(("tolerance corner", f"every check used Kt and Ke × {1 + tol.get('torque_constant', 0):.3g} "
+                                         f"and R × {1 + tol.get('terminal_resistance', 0):.3g} (envelope tolerance)"))
+    if env.housing_cooling_factor != 1.0:
+        rows.append(("cooling", f"housing-to-ambient thermal resistance × {env.housing_cooling_factor:.3g} "
+                                "(envelope housing_cooling_factor)"))
+    rows.append(("thermal model", "winding temperature from the two-node thermal network at the envelope's "
+                                  "ambient, copper loss only (friction, iron and brush losses not included); "
+                                  "magnet taken at the winding temperature"))
+    rows.append(("values", "catalogue values as given or derived (see the provenance sheet); typical values, "
+                           "not guaranteed minimums"))
+    notes = sorted({n for text in selection.shortlist.get("notes", []) if isinstance(text, str)
+                    for n in text.split("; ") if n})
+    rows += [("note", n) for n in notes]
+    if catalog is not None and len(selection.shortlist):
+        used = set(selection.shortlist["motor"]) | set(selection.shortlist["gear"])
+        for flag in catalog.flags():
+            if flag.record_id in used:
+                rows.append(("consistency flag", str(flag)))
+    elif catalog is None:
+        rows.append(("provenance", "not included: the export was made without the catalogue"))
+    return rows
+
+
+def selection_tables(selection, preset: str = "datasheet", catalog=None) -> list:
+    """The tables of a selection export, the shortlist first."""
+    import pandas as pd
+
+    from .catalogue import provenance_table
+    from .columns import SELECTION_DIMENSIONS, Table, quantity_column, table_from_frame, text_column
+    from .detail import catalog_of
+
+    try:
+        cat = catalog_of(selection, catalog)
+    except Exception:
+        cat = None
+    short = selection.shortlist
+    tables = [table_from_frame(short, "shortlist", preset, dimensions=SELECTION_DIMENSIONS, freeze_columns=2)]
+    tables.append(table_from_frame(selection.rejected, "rejected", preset, dimensions=SELECTION_DIMENSIONS,
+                                   freeze_columns=1))
+    counts = selection.reason_counts()
+    from ..select import CHECKS
+
+    tables.append(Table("rejection counts", [
+        text_column("check", list(counts.index)),
+        text_column("meaning", [CHECKS.get(k, "") for k in counts.index]),
+        quantity_column("candidates", [int(v) for v in counts.values], "count", preset, integer=True)]))
+    tables.append(envelope_table(selection.envelope, preset))
+    if cat is not None and len(short):
+        ids = sorted(set(short["motor"]) | {g for g in short["gear"] if isinstance(g, str)})
+        vals = cat.sql("SELECT record_id, field, value_num, value_text, raw_text, raw_unit, origin, relation, "
+                       "inputs, source_file, source_row FROM record_values WHERE list_contains($ids, record_id) "
+                       "ORDER BY record_id, field", params={"ids": ids})
+        types = cat.sql("SELECT record_id, record_type FROM records WHERE list_contains($ids, record_id)",
+                        params={"ids": ids})
+        rtypes = dict(zip(types["record_id"], types["record_type"]))
+    else:
+        vals = pd.DataFrame(columns=["record_id", "field", "value_num", "value_text", "raw_text", "raw_unit",
+                                     "origin", "relation", "inputs", "source_file", "source_row"])
+        rtypes = {}
+    tables.append(provenance_table(vals, rtypes, preset))
+    rows = caution_lines(selection, cat)
+    tables.append(Table("cautions", [text_column("topic", [r[0] for r in rows]),
+                                     text_column("text", [r[1] for r in rows])]))
+    return tables
+
+
+def _about(selection, cat, preset) -> dict:
+    from .catalogue import about_block
+
+    env = selection.envelope
+    n_pass, n_rej = len(selection.passing), len(selection.rejected)
+    return about_block(cat, preset, envelope=env.name, envelope_source=str(env.source),
+                       candidates=n_pass + n_rej, passing=n_pass, shortlisted=len(selection.shortlist),
+                       rejected=n_rej, ranking=", ".join(env.rank_keys), caution=CAUTION)
+
+
+def write_selection(selection, path, units: str = "datasheet", catalog=None):
+    """Write a selection to ``path`` (``.xlsx``, ``.csv``, ``.json`` or ``.parquet``).
+
+    Parameters
+    ----------
+    selection : Selection
+        The result of ``catalog.open(db).select(envelope)``.
+    path : str or Path
+        Output file; the format follows the extension.
+    units : str
+        Display preset ``si``, ``datasheet`` or ``imperial`` (Parquet is always SI).
+    catalog : Catalog, optional
+        The catalogue the selection came from, for the provenance sheet
+        (default ``selection.catalog`` when the selection carries it).
+
+    Returns
+    -------
+    Path
+    """
+    from .detail import catalog_of
+    from .writers import format_for, write_tables
+
+    fmt = format_for(path)
+    try:
+        cat = catalog_of(selection, catalog)
+    except Exception:
+        cat = None
+    tables = selection_tables(selection, units, cat)
+    return write_tables(tables, path, _about(selection, cat, "si" if fmt == "parquet" else units), fmt)
+
+

@@ -1,0 +1,309 @@
+"""Writers: :class:`~catalog.export.columns.Table` lists to CSV, XLSX, JSON, Parquet.
+
+The format follows the file extension (:func:`format_for`).
+
+* **XLSX** (the spreadsheet-safe format): one sheet per table plus ``about``;
+  numbers are number cells with a number format per column, text is written
+  as string cells with the ``@`` (text) format, so part numbers such as
+  ``00341-06`` or ``007210`` never become dates or lose their zeros; header
+  row frozen, autofilter on, column widths to fit.
+* **CSV**: RFC 4180 (comma, CRLF, double quotes where needed), UTF-8 without
+  byte-order mark, the first table only.  CSV has no cell types: a
+  spreadsheet that opens it guesses, and may turn ``00341-06`` into a date
+  whether or not it is quoted.  Ids are written as the plain text they are;
+  open the XLSX (or import the CSV with the id columns set to text) to keep them.
+* **JSON**: ``{"units": {column: unit}, "records": [...]}`` for the first
+  table, the others under ``"tables"``, the run details under ``"about"``.
+* **Parquet**: the first table in SI, plain column names, the unit in each
+  column's field metadata (``unit``, ``dimension``).
+
+Text that a spreadsheet would read as a formula (starting with ``=``, ``+``,
+``-``, ``@``, a tab or a carriage return) is neutralised in the spreadsheet
+formats: a leading apostrophe in CSV, a string cell with the quote-prefix
+flag in XLSX (the text itself unchanged).
+"""
+from __future__ import annotations
+
+__all__ = ["FORMATS", "format_for", "write_tables", "neutralise", "number_format",
+           "FORMULA_PREFIXES"]
+
+import json
+import math
+from copy import copy
+from pathlib import Path
+
+from ..errors import InputError, Problem
+
+#: File extension → format name.
+FORMATS = {".csv": "csv", ".xlsx": "xlsx", ".json": "json", ".parquet": "parquet"}
+#: First characters that make a spreadsheet read a text cell as a formula.
+FORMULA_PREFIXES = ("=", "+", "-", "@", "\t", "\r")
+
+_HEADER_FILL = "E4ECE8"   # pale sage
+_MAX_WIDTH = 48
+
+
+def format_for(path) -> str:
+    """The export format of ``path`` from its extension; unknown → InputError."""
+    ext = Path(path).suffix.lower()
+    if ext not in FORMATS:
+        msg = f"unknown file extension {ext or '(none)'!r}, expected one of {', '.join(FORMATS)}"
+        raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
+    return FORMATS[ext]
+
+
+def neutralise(text: str) -> str:
+    """``text`` with a leading apostrophe if a spreadsheet would run it as a formula."""
+    if isinstance(text, str) and text.startswith(FORMULA_PREFIXES):
+        return "'" + text
+    return text
+
+
+def _finite(v):
+    return v is not None and not (isinstance(v, float) and (math.isnan(v) or math.isinf(v)))
+
+
+def number_format(values, integer: bool = False) -> str:
+    """A spreadsheet number format showing about four significant digits.
+
+    Integers: ``0``; magnitudes below 0.001 or from 1e9: ``0.000E+00``;
+    otherwise a fixed count of decimals from the typical magnitude.
+    """
+    if integer:
+        return "0"
+    mags = sorted(abs(v) for v in values if _finite(v) and v != 0)
+    if not mags:
+        return "0.###"
+    typical = mags[round(0.9 * (len(mags) - 1))]
+    if typical < 1e-3 or typical >= 1e9:
+        return "0.000E+00"
+    decimals = max(0, min(6, 3 - math.floor(math.log10(typical))))
+    return "0" if decimals == 0 else "0." + "0" * decimals
+
+
+# -- CSV -------------------------------------------------------------------------
+def _csv_cell(col, v) -> str:
+    if v is None:
+        return ""
+    if col.kind == "bool":
+        return "true" if v else "false"
+    if col.is_numeric:
+        if isinstance(v, float) and math.isinf(v):
+            return "inf" if v > 0 else "-inf"
+        return str(v) if isinstance(v, int) else repr(float(v))
+    return neutralise(str(v))
+
+
+def _write_csv(tables, path: Path) -> None:
+    import csv
+
+    table = tables[0]
+    with path.open("w", encoding="utf-8", newline="") as fh:
+        w = csv.writer(fh, dialect="excel", lineterminator="\r\n", quoting=csv.QUOTE_MINIMAL)
+        w.writerow([c.header for c in table.columns])
+        for i in range(len(table)):
+            w.writerow([_csv_cell(c, c.values[i]) for c in table.columns])
+
+
+# -- JSON ------------------------------------------------------------------------
+def _json_value(v):
+    if isinstance(v, float) and (math.isnan(v) or math.isinf(v)):
+        return None
+    return v
+
+
+def _json_table(table) -> dict:
+    return {"units": table.units,
+            "records": [{k: _json_value(v) for k, v in r.items()} for r in table.records()]}
+
+
+def _write_json(tables, path: Path, about: dict) -> None:
+    doc = {"about": about, "table": tables[0].name, **_json_table(tables[0])}
+    if len(tables) > 1:
+        doc["tables"] = {t.name: _json_table(t) for t in tables[1:]}
+    path.write_text(json.dumps(doc, ensure_ascii=False, indent=2) + "\n", encoding="utf-8")
+
+
+# -- Parquet ---------------------------------------------------------------------
+def _write_parquet(tables, path: Path, about: dict) -> None:
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    table = tables[0]
+    fields, arrays = [], []
+    for c in table.columns:
+        meta = {}
+        if c.is_numeric:
+            typ = pa.int64() if c.kind == "integer" else pa.float64()
+            meta = {"unit": c.si_unit, "dimension": c.dimension or ""}
+            data = [None if v is None or (isinstance(v, float) and math.isnan(v)) else
+                    (int(v) if c.kind == "integer" and not math.isinf(v) else v) for v in c.si]
+            if c.kind == "integer":
+                data = [None if isinstance(v, float) else v for v in data]
+        elif c.kind == "bool":
+            typ, data = pa.bool_(), c.si
+        else:
+            typ, data = pa.string(), c.si
+        fields.append(pa.field(c.name, typ, metadata={k.encode(): v.encode() for k, v in meta.items()} or None))
+        arrays.append(pa.array(data, type=typ))
+    schema = pa.schema(fields, metadata={b"motorshelf": json.dumps(about, ensure_ascii=False).encode()})
+    pq.write_table(pa.Table.from_arrays(arrays, schema=schema), path)
+
+
+# -- XLSX ------------------------------------------------------------------------
+def _display_len(v, fmt: str = "") -> int:
+    if v is None:
+        return 0
+    if isinstance(v, float):
+        if "E" in fmt:
+            return 10
+        decimals = len(fmt.split(".")[1]) if "." in fmt else 0
+        try:
+            return len(f"{v:,.{decimals}f}")
+        except (ValueError, OverflowError):
+            return 8
+    text = str(v)
+    return max(len(line) for line in text.splitlines()) if text else 0
+
+
+def _sheet_title(name: str, used: set) -> str:
+    bad = '[]:*?/\\'
+    title = "".join("_" if ch in bad else ch for ch in name)[:31] or "sheet"
+    base, n = title, 2
+    while title.lower() in used:
+        title = f"{base[:28]}-{n}"
+        n += 1
+    used.add(title.lower())
+    return title
+
+
+def _xlsx_sheet(wb, table, used: set) -> None:
+    from openpyxl.styles import Alignment, Border, Font, PatternFill, Side
+    from openpyxl.utils import get_column_letter
+
+    ws = wb.create_sheet(_sheet_title(table.name, used))
+    head_font = Font(bold=True)
+    head_fill = PatternFill("solid", fgColor=_HEADER_FILL)
+    head_border = Border(bottom=Side(style="thin", color="7A8C84"))
+    head_align = Alignment(wrap_text=True, vertical="bottom")
+    top_align = Alignment(vertical="top", wrap_text=False)
+    wrap_align = Alignment(vertical="top", wrap_text=True)
+    n = len(table)
+    for j, col in enumerate(table.columns, start=1):
+        cell = ws.cell(row=1, column=j, value=col.header)
+        cell.data_type = "s"
+        cell.font, cell.fill, cell.border, cell.alignment = head_font, head_fill, head_border, head_align
+        fmt = number_format(col.values, col.kind == "integer") if col.is_numeric else "@"
+        long_text = not col.is_numeric and any(
+            isinstance(v, str) and (len(v) > _MAX_WIDTH or "\n" in v) for v in col.values)
+        styles = {}   # one style per kind of cell, copied (setting styles cell by cell is slow)
+
+        def style_of(key, c, number_format, quote=False):
+            if key not in styles:
+                c.number_format = number_format
+                c.alignment = wrap_align if long_text else top_align
+                if quote:
+                    c.quotePrefix = True
+                styles[key] = copy(c._style)
+            else:
+                c._style = copy(styles[key])
+
+        width = 0
+        for i, v in enumerate(col.values):
+            c = ws.cell(row=i + 2, column=j)
+            if v is None or (isinstance(v, float) and (math.isnan(v) or math.isinf(v))):
+                if not col.is_numeric:
+                    style_of("text", c, "@")
+                continue
+            if col.is_numeric:
+                c.value = v
+                style_of("num", c, fmt)
+            elif col.kind == "bool":
+                c.value = bool(v)
+                style_of("bool", c, "General")
+            else:
+                text = str(v)
+                c.value = text
+                c.data_type = "s"          # never a formula, whatever it starts with
+                quote = text.startswith(FORMULA_PREFIXES)
+                style_of("quoted" if quote else "text", c, "@", quote)
+            if i < 2000:
+                width = max(width, _display_len(v, fmt))
+        words = col.header.replace("[", " [").split()
+        head_need = max([len(w) for w in words] + [min(len(col.header), 18)])
+        ws.column_dimensions[get_column_letter(j)].width = min(_MAX_WIDTH, max(width, head_need, 6) + 2)
+    last = get_column_letter(max(1, len(table.columns)))
+    ws.freeze_panes = f"{get_column_letter(table.freeze_columns + 1)}2"
+    ws.auto_filter.ref = f"A1:{last}{n + 1}"
+    ws.row_dimensions[1].height = 32 if any(len(c.header) > 18 for c in table.columns) else 18
+
+
+def _write_xlsx(tables, path: Path, about: dict) -> None:
+    from openpyxl import Workbook
+
+    from .columns import Table, text_column
+
+    wb = Workbook()
+    wb.remove(wb.active)
+    used: set = set()
+    for t in tables:
+        _xlsx_sheet(wb, t, used)
+    keys = list(about)
+    info = Table("about", [text_column("item", keys), text_column("value", [_about_text(about[k]) for k in keys])])
+    _xlsx_sheet(wb, info, used)
+    wb.properties.creator = "motorshelf"
+    wb.properties.title = str(about.get("title", ""))
+    wb.save(path)
+
+
+def _about_text(v) -> str:
+    if isinstance(v, (list, tuple)):
+        return "; ".join(map(str, v))
+    if isinstance(v, dict):
+        return "; ".join(f"{k}: {x}" for k, x in v.items())
+    return "" if v is None else str(v)
+
+
+def write_tables(tables, path, about: dict | None = None, fmt: str | None = None) -> Path:
+    """Write ``tables`` (a list of :class:`Table`, the main one first) to ``path``.
+
+    Parameters
+    ----------
+    tables : list of Table
+        The first table is the one CSV and Parquet hold.
+    path : str or Path
+        Output file; its folder must exist.
+    about : dict, optional
+        Run details (program version, catalogue, preset, date ...): the XLSX
+        ``about`` sheet, the JSON ``about`` object, Parquet file metadata.
+    fmt : str, optional
+        ``csv``, ``xlsx``, ``json`` or ``parquet``; default from the extension.
+
+    Returns
+    -------
+    Path
+        The file written.
+    """
+    path = Path(path)
+    fmt = fmt or format_for(path)
+    about = dict(about or {})
+    if not path.parent.exists():
+        msg = f"folder {str(path.parent)!r} does not exist"
+        raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
+    tmp = path.with_name(f".{path.name}.part")
+    try:
+        if fmt == "csv":
+            _write_csv(tables, tmp)
+        elif fmt == "json":
+            _write_json(tables, tmp, about)
+        elif fmt == "parquet":
+            _write_parquet(tables, tmp, about)
+        elif fmt == "xlsx":
+            _write_xlsx(tables, tmp, about)
+        else:
+            raise ValueError(f"unknown format {fmt!r}")
+        tmp.replace(path)
+    finally:
+        if tmp.exists():
+            tmp.unlink()
+    return path

@@ -1,0 +1,359 @@
+"""Load envelopes: read a TOML file (or a dict), validate it, convert it to SI.
+
+The structure is checked against ``schemas/envelope.schema.json`` (JSON Schema
+2020-12, ``additionalProperties: false`` everywhere); every quantity string is
+then read with :func:`catalog.units.parse_quantity` in the dimension the schema
+names (``x-dimension``) and checked for sign (``x-sign``) and range
+(``x-min``/``x-max``); finally limits that contradict each other are refused.
+Every problem becomes a :class:`~catalog.errors.Problem` whose field is the key
+path (``cycle.segments[2].duration``, positions from 0), collected into one
+:class:`~catalog.errors.InputError`.
+
+A cycle segment whose speed ramp passes through zero is split at the crossing
+into two segments with the same name, so that within every evaluated segment
+the speed keeps its sign (friction and gear power flow then stay constant).
+"""
+from __future__ import annotations
+
+__all__ = ["Envelope", "load_envelope", "envelope_schema", "RANK_KEYS"]
+
+import json
+import math
+import tomllib
+from dataclasses import dataclass, field
+from functools import lru_cache
+from pathlib import Path
+
+import numpy as np
+
+from ..errors import InputError, Problem
+from ..units import UnitError, dimension_noun, parse_quantity
+
+SCHEMA_PATH = Path(__file__).resolve().parents[2] / "schemas" / "envelope.schema.json"
+
+#: Ranking keys and what they mean (units as in the shortlist columns).
+RANK_KEYS = {
+    "mass": "motor plus gearhead mass [kg]",
+    "price": "motor plus gearhead price [catalogue currency]",
+    "length": "motor plus gearhead length [m]",
+    "diameter": "largest diameter of motor and gearhead [m]",
+    "winding_temperature": "peak winding temperature [K]",
+    "energy_per_cycle": "energy drawn from the supply per cycle [J]",
+    "rms_current": "RMS motor current [A]",
+    "smallest_margin": "smallest margin over all checks, as a fraction "
+                       "(temperature as (Tmax - Tw)/(Tmax - Ta)) [1]",
+    "ratio": "gear ratio [1]",
+}
+
+
+@dataclass
+class Envelope:
+    """A validated load envelope in SI units.
+
+    Segment arrays have shape (S,): ``duration`` [s], ``torque`` load torque
+    at the gear output [N·m], ``speed_start``/``speed_end`` load speed [rad/s],
+    ``continuous`` whether a segment counts for thermal/RMS limits [-].
+    For operating points the duration is 1 s (a weight only).
+    """
+
+    name: str
+    description: str
+    source: str
+    mode: str                      # "points" or "cycle"
+    names: list
+    duration: np.ndarray
+    torque: np.ndarray
+    speed_start: np.ndarray
+    speed_end: np.ndarray
+    continuous: np.ndarray
+    repeat: bool = True
+    nominal_voltage: float = math.nan      # [V]
+    min_voltage: float = math.nan          # [V]
+    drive_voltage_drop: float = 0.0        # [V]
+    drive_continuous_current: float = math.inf  # [A]
+    drive_peak_current: float = math.inf   # [A]
+    regenerative: bool = False
+    ambient_temperature: float = 298.15    # [K]
+    housing_cooling_factor: float = 1.0    # [1]
+    load_inertia: float = 0.0              # [kg·m²]
+    back_drive: bool = True
+    limits: dict = field(default_factory=dict)   # max_diameter [m], max_length [m], max_mass [kg], max_price
+    commutation: list | None = None
+    mount: list | None = None
+    margins: dict = field(default_factory=dict)  # voltage/current/torque/speed [1], temperature [K]
+    tolerance: dict = field(default_factory=dict)  # torque_constant, terminal_resistance [1]
+    direct: bool = True
+    catalogue_gears: bool = True
+    ratios: list = field(default_factory=list)    # assumed gear ratios [1]
+    stage_efficiency: float = 0.9          # [1]
+    stages: int | None = None
+    gear_inertia: float = 0.0              # [kg·m²]
+    rank_keys: list = field(default_factory=lambda: ["mass"])
+    top: int = 10
+    pareto: list | None = None
+    currency: str | None = None            # prices are compared in this currency
+    exchange_rates: dict = field(default_factory=dict)  # other currency -> value in `currency`
+    raw: dict = field(default_factory=dict, repr=False)
+
+    @property
+    def available_voltage(self) -> float:
+        """Voltage at the motor terminals in the worst case [V]."""
+        return self.min_voltage - self.drive_voltage_drop
+
+    @property
+    def period(self) -> float:
+        """Cycle duration [s]."""
+        return float(np.sum(self.duration))
+
+
+@lru_cache(maxsize=1)
+def envelope_schema() -> dict:
+    """The envelope JSON Schema as a dict."""
+    return json.loads(SCHEMA_PATH.read_text(encoding="utf-8"))
+
+
+def _path(parts) -> str:
+    out = ""
+    for p in parts:
+        out += f"[{p}]" if isinstance(p, int) else (f".{p}" if out else str(p))
+    return out
+
+
+def _join(parent, key):
+    return _path(list(parent) + [key])
+
+
+def _schema_problem(err, source) -> Problem:
+    """Our own one-line wording for a JSON-Schema error."""
+    where = list(err.absolute_path)
+    v, val, sch = err.validator, err.validator_value, err.schema
+    if v == "additionalProperties":
+        allowed = ", ".join(sch.get("properties", {}))
+        extra = sorted(set(err.instance) - set(sch.get("properties", {})))
+        return Problem(source, None, _join(where, extra[0]),
+                       f"unknown key, expected one of {allowed}")
+    if v == "required":
+        missing = [k for k in val if k not in err.instance][0]
+        return Problem(source, None, _join(where, missing), "missing, this key is required")
+    if v == "minItems":
+        what = "segment" if where and where[-1] == "segments" else "entry"
+        if val > 1:
+            what = f"{val} entries"
+        return Problem(source, None, _path(where),
+                       f"empty, expected at least one {what}" if not err.instance
+                       else f"has {len(err.instance)} entries, expected at least {val}")
+    if v == "maxItems":
+        return Problem(source, None, _path(where), f"has {len(err.instance)} entries, expected at most {val}")
+    if v == "type":
+        want = {"string": "a quantity string with a unit" if "x-dimension" in sch else "a string",
+                "boolean": "true or false", "integer": "a whole number", "number": "a number",
+                "array": "a list", "object": "a table"}
+        kinds = val if isinstance(val, list) else [val]
+        return Problem(source, None, _path(where),
+                       f"{err.instance!r} is not {' or '.join(want.get(k, k) for k in kinds)}")
+    if v == "enum":
+        return Problem(source, None, _path(where),
+                       f"{err.instance!r} is not allowed, expected one of {', '.join(map(str, val))}")
+    if v == "pattern" and where and where[-2] in ("keys", "pareto"):
+        return Problem(source, None, _path(where),
+                       f"{err.instance!r} is not a ranking key, expected one of "
+                       f"{', '.join(RANK_KEYS)} (optionally with a leading '-')")
+    if v in ("minimum", "exclusiveMinimum", "maximum", "exclusiveMaximum"):
+        word = {"minimum": "at least", "exclusiveMinimum": "above",
+                "maximum": "at most", "exclusiveMaximum": "below"}[v]
+        return Problem(source, None, _path(where), f"{err.instance!r} is out of range, expected {word} {val}")
+    if v == "uniqueItems":
+        return Problem(source, None, _path(where), "lists an entry twice, expected each once")
+    return Problem(source, None, _path(where) or None, err.message)
+
+
+def _quantities(node, sch, where, source, problems):
+    """Convert every quantity of ``node`` (per the schema) to SI, in place."""
+    if isinstance(node, dict):
+        props = sch.get("properties", {})
+        for key, value in node.items():
+            if key in props:
+                new = _quantities(value, props[key], where + [key], source, problems)
+                node[key] = new
+        return node
+    if isinstance(node, list):
+        items = sch.get("items", {})
+        return [_quantities(v, items, where + [i], source, problems) for i, v in enumerate(node)]
+    dim = sch.get("x-dimension")
+    if dim is None:
+        return node
+    try:
+        value = float(node) if isinstance(node, (int, float)) else parse_quantity(node, dim)
+    except UnitError as exc:
+        problems.append(Problem(source, None, _path(where), exc.message))
+        return math.nan
+    text = repr(node) if isinstance(node, str) else str(node)
+    noun = dimension_noun(dim).split(" ", 1)[1]
+    sign = sch.get("x-sign")
+    if sign == "positive" and value <= 0:
+        word = "zero" if value == 0 else "negative"
+        problems.append(Problem(source, None, _path(where),
+                                f"{text} is {word}, expected a positive {noun}"))
+    elif sign == "nonnegative" and value < 0:
+        problems.append(Problem(source, None, _path(where),
+                                f"{text} is negative, expected zero or a positive {noun}"))
+    for key, word, bad in (("x-min", "at least", lambda a, b, inc: a < b if inc else a <= b),
+                           ("x-max", "at most", lambda a, b, inc: a > b if inc else a >= b)):
+        bound = sch.get(key)
+        if bound and bad(value, bound["value"], bound["inclusive"]):
+            rel = word if bound["inclusive"] else ("above" if key == "x-min" else "below")
+            problems.append(Problem(source, None, _path(where),
+                                    f"{text} is out of range, expected {rel} {bound['value']:g}"))
+    return value
+
+
+def _contradictions(d, source, problems):
+    sup = d.get("supply", {})
+
+    def bad(field_, message):
+        problems.append(Problem(source, None, field_, message))
+
+    nom, vmin, drop = (sup.get(k) for k in ("nominal_voltage", "min_voltage", "drive_voltage_drop"))
+    raw = d["_raw"].get("supply", {})
+    if vmin is not None and nom is not None and vmin > nom:
+        bad("supply.min_voltage", f"{raw['min_voltage']!r} is above supply.nominal_voltage "
+                                  f"{raw['nominal_voltage']!r}, expected at most the nominal voltage")
+    low = vmin if vmin is not None else nom
+    if drop is not None and low is not None and drop >= low:
+        bad("supply.drive_voltage_drop", f"{raw['drive_voltage_drop']!r} leaves no voltage for the motor, "
+                                         f"expected less than the lowest supply voltage")
+    cont, peak = sup.get("drive_continuous_current"), sup.get("drive_peak_current")
+    if cont is not None and peak is not None and peak < cont:
+        bad("supply.drive_peak_current", f"{raw['drive_peak_current']!r} is below "
+                                         f"supply.drive_continuous_current {raw['drive_continuous_current']!r}, "
+                                         f"expected at least the continuous current")
+    rr = d.get("gearing", {}).get("ratio_range")
+    if rr and rr["min"] > rr["max"]:
+        bad("gearing.ratio_range.min", f"{rr['min']!r} is above gearing.ratio_range.max {rr['max']!r}, "
+                                       "expected min <= max")
+    if ("points" in d) == ("cycle" in d):
+        found = "both [[points]] and [cycle]" if "points" in d else "neither [[points]] nor [cycle]"
+        bad("points/cycle", f"found {found}, expected exactly one form of load")
+    gear = d.get("gearing", {})
+    if not (gear.get("direct", True) or gear.get("catalogue", True) or gear.get("ratios")
+            or gear.get("ratio_range")):
+        bad("gearing", "no gear option left, expected direct, catalogue, ratios or ratio_range")
+
+
+def _stage_count(ratio: float) -> int:
+    """Stages of an assumed gear: one per factor of about 7 [-]."""
+    return max(1, math.ceil(math.log(ratio) / math.log(7.0) - 1e-9))
+
+
+def _ratio_label(ratio: float) -> float:
+    return round(ratio, 2) if ratio < 10 else round(ratio, 1)
+
+
+def _segments(d):
+    if "points" in d:
+        pts = d["points"]
+        names = [p["name"] for p in pts]
+        speed = np.array([p["speed"] for p in pts], dtype=float)
+        return ("points", names, np.ones(len(pts)), np.array([p["torque"] for p in pts], dtype=float),
+                speed, speed.copy(), np.array([p["kind"] == "continuous" for p in pts]))
+    names, dur, tq, w0, w1 = [], [], [], [], []
+    for s in d["cycle"]["segments"]:
+        a, b = s["speed_start"], s.get("speed_end", s["speed_start"])
+        if a * b < 0:   # split at the zero crossing: speed keeps its sign per segment
+            f = a / (a - b)
+            for frac, x, y in ((f, a, 0.0), (1.0 - f, 0.0, b)):
+                names.append(s["name"]); dur.append(s["duration"] * frac)
+                tq.append(s["torque"]); w0.append(x); w1.append(y)
+        else:
+            names.append(s["name"]); dur.append(s["duration"]); tq.append(s["torque"])
+            w0.append(a); w1.append(b)
+    n = len(names)
+    return ("cycle", names, np.array(dur), np.array(tq), np.array(w0), np.array(w1), np.ones(n, bool))
+
+
+def load_envelope(envelope, source: str | None = None) -> Envelope:
+    """Read, validate and convert a load envelope.
+
+    Parameters
+    ----------
+    envelope : str, Path, dict or Envelope
+        A TOML file, an already parsed dict (quantities still as unit strings)
+        or an :class:`Envelope` (returned as is).
+    source : str, optional
+        Name used in messages; default the file path (or ``envelope``).
+
+    Returns
+    -------
+    Envelope
+        Every quantity in SI.
+
+    Raises
+    ------
+    InputError
+        One :class:`Problem` per mistake, each naming its key path.
+    """
+    import copy
+
+    from jsonschema import Draft202012Validator
+
+    if isinstance(envelope, Envelope):
+        return envelope
+    if isinstance(envelope, (str, Path)):
+        path = Path(envelope)
+        source = source or str(envelope)
+        try:
+            data = tomllib.loads(path.read_text(encoding="utf-8"))
+        except FileNotFoundError:
+            raise InputError(f"{source}: no such envelope file",
+                             [Problem(source, None, None, "no such file")]) from None
+        except tomllib.TOMLDecodeError as exc:
+            raise InputError(f"{source}: not valid TOML",
+                             [Problem(source, None, None, f"not valid TOML: {exc}")]) from None
+    elif isinstance(envelope, dict):
+        source, data = source or "envelope", envelope
+    else:
+        raise TypeError("envelope must be a path, a dict or an Envelope")
+    schema = envelope_schema()
+    errors = sorted(Draft202012Validator(schema).iter_errors(data), key=lambda e: list(map(str, e.absolute_path)))
+    problems = [_schema_problem(e, source) for e in errors]
+    if problems:
+        raise InputError(f"{source}: {len(problems)} problem(s) in the envelope", problems)
+    d = _quantities(copy.deepcopy(data), schema, [], source, problems)
+    d["_raw"] = data
+    _contradictions(d, source, problems)
+    if problems:
+        raise InputError(f"{source}: {len(problems)} problem(s) in the envelope", problems)
+    return _build(d, data, source)
+
+
+def _build(d, data, source) -> Envelope:
+    mode, names, dur, tq, w0, w1, cont = _segments(d)
+    sup, envi, load = d["supply"], d.get("environment", {}), d.get("load", {})
+    con, gear, rank = d.get("constraints", {}), d.get("gearing", {}), d.get("ranking", {})
+    cont_i = sup.get("drive_continuous_current", math.inf)
+    ratios = list(gear.get("ratios", []))
+    if "ratio_range" in gear:
+        rr = gear["ratio_range"]
+        ratios += list(np.geomspace(rr["min"], rr["max"], rr["steps"]))
+    ratios = sorted({_ratio_label(r) for r in ratios})
+    margins = {"voltage": 0.0, "current": 0.0, "torque": 0.0, "speed": 0.0, "temperature": 0.0}
+    margins.update(con.get("margins", {}))
+    tol = {"torque_constant": 0.0, "terminal_resistance": 0.0}
+    tol.update(con.get("tolerance", {}))
+    return Envelope(
+        name=d["name"], description=d.get("description", ""), source=source, mode=mode,
+        names=names, duration=dur, torque=tq, speed_start=w0, speed_end=w1, continuous=cont,
+        repeat=d.get("cycle", {}).get("repeat", True),
+        nominal_voltage=sup["nominal_voltage"], min_voltage=sup.get("min_voltage", sup["nominal_voltage"]),
+        drive_voltage_drop=sup.get("drive_voltage_drop", 0.0), drive_continuous_current=cont_i,
+        drive_peak_current=sup.get("drive_peak_current", cont_i), regenerative=sup.get("regenerative", False),
+        ambient_temperature=envi.get("ambient_temperature", 298.15),
+        housing_cooling_factor=envi.get("housing_cooling_factor", 1.0),
+        load_inertia=load.get("inertia", 0.0), back_drive=load.get("back_drive", True),
+        limits={k: con[k] for k in ("max_diameter", "max_length", "max_mass", "max_price") if k in con},
+        commutation=con.get("commutation"), mount=con.get("mount"), margins=margins, tolerance=tol,
+        direct=gear.get("direct", True), catalogue_gears=gear.get("catalogue", True), ratios=ratios,
+        stage_efficiency=gear.get("stage_efficiency", 0.9), stages=gear.get("stages"),
+        gear_inertia=gear.get("inertia", 0.0), rank_keys=rank.get("keys", ["mass"]),
+        top=rank.get("top", 10), pareto=rank.get("pareto"), currency=rank.get("currency"),
+        exchange_rates=dict(rank.get("exchange_rates", {})), raw=data)

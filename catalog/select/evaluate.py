@@ -1,0 +1,219 @@
+"""Vectorised evaluation of candidates against a load envelope.
+
+Arrays have shape (N candidates, S segments); candidates are processed in
+chunks of :data:`CHUNK` and nothing loops over candidates.  The physics comes
+from :mod:`catalog.physics`; this module only chains it.
+
+Model per segment (speed ramps linearly, so acceleration, motor torque and
+current are constant within a segment; voltage is linear in speed and so
+extreme at a segment end):
+
+* gear output torque  T_out = T_load + J_load·α_load  [N·m];
+* motor shaft torque  T_m = (J_rotor + J_gear)·n·α + T_out/(n·η) where the
+  motor drives (T_out·ω_load ≥ 0), T_out·η/n where the load drives and the
+  envelope allows back-driving (``load.back_drive``), via
+  :func:`catalog.physics.required_motor_torque`;
+* electromagnetic torque  T_em = T_m + T_f·sign(ω)  (friction opposes motion;
+  none at standstill);
+* current I = T_em/Kt(T_magnet); voltage V = R(T_w)·I + Ke(T_magnet)·ω at both
+  segment ends, needed |V| (inductive drop L·dI/dt neglected: currents are
+  constant within a segment);
+* winding temperature from the two-node network at the envelope ambient:
+  repeated cycle → periodic peak (:func:`periodic_winding_temperature`), or the
+  steady state at the RMS current when the period is below
+  :data:`SHORT_PERIOD` of the winding time constant; single pass →
+  :func:`transient_winding_temperature` from cold; operating points → steady
+  state of each continuous point, the hottest counts.
+
+Thermal coupling: Kt falls as the magnet warms, so current and temperature
+depend on each other.  The magnet is taken at the (peak) winding temperature,
+the conservative choice.  A fixed-point iteration T_w → Kt(T_w) → I → T_w
+(the thermal functions already solve R(T_w) exactly) runs until every change
+is below :data:`TOLERANCE_K`; no steady state (``inf``), Kt ≤ 0 or no
+convergence in :data:`MAX_ITERATIONS` is thermal runaway.
+
+Voltage is checked in two corners, cold (winding and magnet at ambient: the
+strongest back-EMF) and hot (converged temperature: highest R, lowest Kt), the
+worse one counts.  Currents are taken hot (largest).
+"""
+from __future__ import annotations
+
+__all__ = ["evaluate", "evaluate_all", "CHUNK", "SHORT_PERIOD", "TOLERANCE_K", "MAX_ITERATIONS"]
+
+import numpy as np
+
+from ..physics import (energy_per_cycle, periodic_winding_temperature, required_motor_torque,
+                       resistance_at_temperature, rms, steady_winding_temperature,
+                       torque_constant_at_temperature, transient_winding_temperature)
+
+CHUNK = 16384            #: candidates per chunk [-]
+SHORT_PERIOD = 0.02      #: period/τ_w below which the steady state at RMS current is used [1]
+TOLERANCE_K = 0.01       #: fixed-point convergence of the winding temperature [K]
+MAX_ITERATIONS = 100     #: fixed-point iterations before declaring runaway [-]
+FALLBACK_TEMPERATURE = 428.15  #: winding temperature assumed where thermal data is missing [K]
+
+THERMAL_FIELDS = ("Rth1", "Rth2", "Tmax")
+CYCLE_THERMAL_FIELDS = ("tau_w", "tau_m")
+
+
+def _thermal(env, c, current):
+    """Winding temperature [K], shape (N,), for currents (N, S) [A]."""
+    i = np.abs(current)
+    ta = env.ambient_temperature
+    args = (c["R"], c["Rth1"], c["Rth2"])
+    if env.mode == "points":
+        cont = env.continuous
+        if not cont.any():
+            return np.full(len(i), ta)
+        steady = steady_winding_temperature(i[:, cont], c["R"][:, None], c["Rth1"][:, None],
+                                            c["Rth2"][:, None], ta, c["Tref"][:, None])
+        return np.max(steady, axis=1)
+    dur = env.duration
+    if not env.repeat:
+        return transient_winding_temperature(dur, i, *args, c["tau_w"], c["tau_m"], ta, c["Tref"])
+    i_rms = rms(i, dur)
+    steady = steady_winding_temperature(i_rms, *args, ta, c["Tref"])
+    periodic = periodic_winding_temperature(dur, i, *args, c["tau_w"], c["tau_m"], ta, c["Tref"])
+    short = env.period < SHORT_PERIOD * c["tau_w"]
+    return np.where(short, steady, periodic)
+
+
+def _hot_constants(c, temperature):
+    """(R [Ω], Kt [N·m/A], Ke [V·s/rad]) with winding and magnet at ``temperature`` [K]."""
+    r = resistance_at_temperature(c["R"], temperature, c["Tref"])
+    kt = torque_constant_at_temperature(c["Kt"], temperature, c["beta"], c["Tref"])
+    ke = torque_constant_at_temperature(c["Ke"], temperature, c["beta"], c["Tref"])
+    return r, kt, ke
+
+
+def _solve_temperature(env, c, t_em, missing):
+    """Fixed point of winding temperature and hot torque constant (vectorised)."""
+    n = len(t_em)
+    ta = env.ambient_temperature
+    fallback = np.where(np.isnan(c["Tmax"]), FALLBACK_TEMPERATURE, c["Tmax"])
+    tw = np.full(n, ta)
+    active = ~missing
+    runaway = np.zeros(n, bool)
+    iterations = 0
+    while active.any() and iterations < MAX_ITERATIONS:
+        iterations += 1
+        kt = torque_constant_at_temperature(c["Kt"], tw, c["beta"], c["Tref"])
+        bad_kt = kt <= 0
+        new = _thermal(env, c, t_em / np.where(bad_kt, np.nan, kt)[:, None])
+        blown = active & (~np.isfinite(new) | bad_kt)
+        runaway |= blown
+        step = np.abs(new - tw)
+        tw = np.where(active & ~blown, new, tw)
+        active &= ~blown & ~(step < TOLERANCE_K)
+    runaway |= active            # not converged: no consistent temperature
+    tw_eval = np.where(missing | runaway, fallback, tw)
+    reported = np.where(missing, np.nan, np.where(runaway, np.inf, tw))
+    return tw_eval, reported, runaway
+
+
+def _argmin_take(values):
+    """(index of the smallest entry per row, that entry) of an (N, S) array."""
+    filled = np.where(np.isnan(values), np.inf, values)
+    ix = np.argmin(filled, axis=1)
+    return ix, np.take_along_axis(values, ix[:, None], axis=1)[:, 0]
+
+
+def evaluate(env, c: dict, detail: bool = False) -> dict:
+    """Evaluate one chunk of candidates.
+
+    Parameters
+    ----------
+    env : Envelope
+        The load envelope (SI).
+    c : dict
+        Candidate arrays of one chunk (see :func:`build_candidates`).
+    detail : bool
+        Also return the (N, S) segment arrays (for explanations).
+
+    Returns
+    -------
+    dict
+        Per candidate: ``winding_temperature`` [K] (NaN without thermal data,
+        inf at runaway), ``runaway`` [-], ``thermal_missing`` [-],
+        ``rms_current``/``peak_current`` [A], ``voltage_need``/``voltage_speed``
+        (worst segment's needed voltage [V] and motor speed there [rad/s]),
+        ``motor_speed`` [rad/s], ``gear_out_peak``/``gear_out_rms`` [N·m],
+        ``energy_per_cycle`` [J], segment indices ``*_seg`` and, with
+        ``detail``, arrays ``seg_*`` of shape (N, S).
+    """
+    dur, tl = env.duration, env.torque
+    w0, w1 = env.speed_start, env.speed_end
+    alpha = (w1 - w0) / dur if env.mode == "cycle" else np.zeros_like(w0)
+    w_mid = (w0 + w1) / 2.0
+    n, eta = c["ratio"][:, None], c["eta"][:, None]
+    back = eta if env.back_drive else 1.0 / eta
+    t_m = required_motor_torque(tl, w_mid, alpha, n, eta, c["J"][:, None], c["Jg"][:, None],
+                                env.load_inertia, back)
+    t_em = t_m + c["Tf"][:, None] * np.sign(w_mid)
+    wm0, wm1 = n * w0, n * w1
+    t_out = np.abs(tl + env.load_inertia * alpha)                     # (S,)
+
+    fields = THERMAL_FIELDS + (CYCLE_THERMAL_FIELDS if env.mode == "cycle" else ())
+    missing = np.zeros(len(t_m), bool)
+    for name in fields:
+        missing |= np.isnan(c[name])
+    tw_eval, tw_report, runaway = _solve_temperature(env, c, t_em, missing)
+
+    corners = []
+    for temp in (np.full(len(t_m), env.ambient_temperature), tw_eval):
+        r, kt, ke = _hot_constants(c, temp)
+        cur = t_em / kt[:, None]
+        v0 = r[:, None] * cur + ke[:, None] * wm0
+        v1 = r[:, None] * cur + ke[:, None] * wm1
+        corners.append((cur, v0, v1))
+    (_, vc0, vc1), (i_hot, vh0, vh1) = corners
+    v_need = np.fmax(np.fmax(np.abs(vc0), np.abs(vc1)), np.fmax(np.abs(vh0), np.abs(vh1)))
+    hot_worse = np.fmax(np.abs(vh0), np.abs(vh1)) >= np.fmax(np.abs(vc0), np.abs(vc1))
+    end_speed = np.where(np.fmax(np.abs(vh0), np.abs(vc0)) >= np.fmax(np.abs(vh1), np.abs(vc1)),
+                         np.abs(wm0), np.abs(wm1))
+    w_abs = np.fmax(np.abs(wm0), np.abs(wm1))
+    avail = env.available_voltage
+    v_seg, v_worst = _argmin_take((avail - v_need) / avail)
+    i_abs = np.abs(i_hot)
+    ipk_seg, _ = _argmin_take(-i_abs)
+    spd_seg, _ = _argmin_take(-w_abs)
+    tq_seg = int(np.argmax(t_out))
+    if env.mode == "cycle":
+        i_rms = rms(i_hot, dur)
+        t_out_rms = rms(t_out, dur)
+        power0 = vh0 * i_hot + env.drive_voltage_drop * i_abs
+        power1 = vh1 * i_hot + env.drive_voltage_drop * i_abs
+        energy = energy_per_cycle(power0, dur, power1, regenerative=env.regenerative)
+    else:
+        cont = env.continuous
+        i_rms = np.max(i_abs[:, cont], axis=1) if cont.any() else np.zeros(len(i_abs))
+        t_out_rms = float(np.max(t_out[cont])) if cont.any() else 0.0
+        energy = np.full(len(i_abs), np.nan)
+    take = lambda a, ix: np.take_along_axis(a, ix[:, None], axis=1)[:, 0]  # noqa: E731
+    out = {
+        "winding_temperature": tw_report, "runaway": runaway, "thermal_missing": missing,
+        "rms_current": i_rms, "peak_current": take(i_abs, ipk_seg), "peak_current_seg": ipk_seg,
+        "voltage_seg": v_seg, "voltage_margin": v_worst, "voltage_need": take(v_need, v_seg),
+        "voltage_speed": take(end_speed, v_seg), "voltage_hot": take(hot_worse, v_seg),
+        "motor_speed": take(w_abs, spd_seg), "speed_seg": spd_seg,
+        "gear_out_peak": np.full(len(i_abs), t_out[tq_seg]), "gear_out_seg": np.full(len(i_abs), tq_seg),
+        "gear_out_rms": np.broadcast_to(t_out_rms, i_abs.shape[:1]).astype(float),
+        "energy_per_cycle": energy,
+    }
+    if detail:
+        out.update(seg_motor_torque=t_m, seg_em_torque=t_em, seg_current=i_hot, seg_voltage=v_need,
+                   seg_speed_start=wm0, seg_speed_end=wm1, seg_gear_torque=np.broadcast_to(t_out, t_m.shape),
+                   seg_hot_worse=hot_worse)
+    return out
+
+
+def evaluate_all(env, cand: dict) -> dict:
+    """:func:`evaluate` over every candidate, chunk by chunk; (N,) arrays only."""
+    total = len(cand["id"])
+    pieces = []
+    for start in range(0, total, CHUNK):
+        part = {k: v[start:start + CHUNK] for k, v in cand.items()}
+        pieces.append(evaluate(env, part))
+    if not pieces:
+        return {}
+    return {k: np.concatenate([p[k] for p in pieces]) for k in pieces[0]}

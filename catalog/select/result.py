@@ -1,0 +1,213 @@
+"""The result of a selection: shortlist, rejected candidates, explanations.
+
+:func:`select` chains envelope → candidates → evaluation → checks → ranking
+and returns a :class:`Selection`.  Data frames are in SI (temperatures in K,
+speeds in rad/s); the CLI converts for display.
+"""
+from __future__ import annotations
+
+__all__ = ["Selection", "select", "MARGIN_COLUMNS"]
+
+import difflib
+
+import numpy as np
+import pandas as pd
+
+from ..errors import NotFound
+from .candidates import GEAR_ASSUMED, GEAR_CATALOGUE, GEAR_DIRECT, build_candidates
+from .checks import CHECKS, run_checks
+from .envelope import load_envelope
+from .evaluate import evaluate, evaluate_all
+
+#: Margin columns of the shortlist (fractions; temperature_margin in K).
+MARGIN_COLUMNS = ["voltage_margin", "peak_current_margin", "rms_current_margin", "temperature_margin",
+                  "motor_speed_margin", "gear_speed_margin", "gear_peak_torque_margin",
+                  "gear_continuous_torque_margin", "smallest_margin"]
+_RPM = 30.0 / np.pi
+_GEAR_KIND = {GEAR_DIRECT: "direct", GEAR_CATALOGUE: "catalogue", GEAR_ASSUMED: "assumed"}
+
+
+def _pareto(values: np.ndarray) -> np.ndarray:
+    """Non-dominated rows of ``values`` (P, K), smaller is better (chunked broadcast)."""
+    v = np.where(np.isnan(values), np.inf, values)
+    keep = np.ones(len(v), bool)
+    for start in range(0, len(v), 1024):
+        block = v[start:start + 1024][:, None, :]          # (B, 1, K)
+        le = np.all(v[None, :, :] <= block, axis=2)          # other j at least as good everywhere
+        lt = np.any(v[None, :, :] < block, axis=2)
+        keep[start:start + 1024] = ~np.any(le & lt, axis=1)
+    return keep
+
+
+class Selection:
+    """Candidates of a catalogue evaluated against one envelope.
+
+    Attributes
+    ----------
+    envelope : Envelope
+        The validated envelope (SI).
+    table : DataFrame
+        Every candidate with every metric, margin, ``passed`` and ``reasons``.
+    shortlist : DataFrame
+        The passing candidates in ranking order, ``top`` of them.
+    rejected : DataFrame
+        Every failing candidate with its failed checks and their numbers.
+    """
+
+    def __init__(self, envelope, candidates: dict, table: pd.DataFrame, top: int):
+        self.envelope = envelope
+        self._cand = candidates
+        self.table = table
+        passed = table[table["passed"]]
+        self.passing = passed
+        cols = ["rank", "candidate", "motor", "gear", "ratio", "worst_segment", *MARGIN_COLUMNS,
+                "winding_temperature", "rms_current", "peak_current", "energy_per_cycle", "mass",
+                "price", "currency", "pareto", "notes"]
+        self.shortlist = passed.head(top)[cols].reset_index(drop=True)
+        self.rejected = table[~table["passed"]][["candidate", "motor", "gear", "ratio", "failed",
+                                                  "reasons"]].reset_index(drop=True)
+
+    def __repr__(self) -> str:
+        return (f"Selection({self.envelope.name!r}: {len(self.passing)} passing, "
+                f"{len(self.rejected)} rejected)")
+
+    def reason_counts(self) -> pd.Series:
+        """Number of rejected candidates failing each check, most frequent first."""
+        failed = self.table.loc[~self.table["passed"], ["fails_" + k for k in CHECKS]]
+        counts = failed.sum().astype(int)
+        counts.index = list(CHECKS)
+        return counts[counts > 0].sort_values(ascending=False, kind="stable")
+
+    def explain(self, candidate_id: str) -> str:
+        """The whole story of one candidate: every segment and every margin, as text."""
+        ids = list(self._cand["id"])
+        if candidate_id not in ids:
+            close = difflib.get_close_matches(candidate_id, ids, n=5, cutoff=0.5)
+            hint = f"; did you mean {', '.join(close)}?" if close else ""
+            raise NotFound(f"no candidate {candidate_id!r} for this envelope{hint}", suggestions=close)
+        i = ids.index(candidate_id)
+        one = {k: v[i:i + 1] for k, v in self._cand.items()}
+        d = evaluate(self.envelope, one, detail=True)
+        row = self.table[self.table["candidate"] == candidate_id].iloc[0]
+        env = self.envelope
+        lines = [f"candidate {candidate_id}",
+                 f"  motor {row['motor']}; gear {row['gear']} ({_GEAR_KIND[int(one['kind'][0])]}), ratio "
+                 f"{row['ratio']:g}, efficiency {one['eta'][0]:.3g}"]
+        verdict = (f"passes, rank {int(row['rank'])} of {len(self.passing)}" if row["passed"]
+                   else f"rejected: {row['failed']}")
+        lines.append(f"  verdict: {verdict}")
+        tw = row["winding_temperature"]
+        lines.append(f"  winding temperature {tw - 273.15:.1f} °C (ambient {env.ambient_temperature - 273.15:.1f} °C)"
+                     if np.isfinite(tw) else f"  winding temperature: {'runaway' if tw == np.inf else 'unknown'}")
+        lines.append(f"  supply {env.min_voltage:.1f} V minimum - {env.drive_voltage_drop:.1f} V drive drop "
+                     f"= {env.available_voltage:.1f} V at the motor")
+        lines.append("  segment            time[s]  load rpm (start..end)  load N·m  motor rpm (start..end)"
+                     "  motor N·m  current A  voltage V")
+        for s, name in enumerate(env.names):
+            dur = f"{env.duration[s]:.3g}" if env.mode == "cycle" else env.continuous[s] and "cont." or "peak"
+            lines.append(
+                f"  {name[:18]:<18} {dur:>7}  {env.speed_start[s] * _RPM:>9.1f}..{env.speed_end[s] * _RPM:<9.1f}"
+                f"  {env.torque[s]:>8.3g}  {d['seg_speed_start'][0, s] * _RPM:>10.0f}..{d['seg_speed_end'][0, s] * _RPM:<10.0f}"
+                f"  {d['seg_motor_torque'][0, s]:>9.4g}  {d['seg_current'][0, s]:>9.3g}  {d['seg_voltage'][0, s]:>9.3g}")
+        lines.append(f"  RMS current {row['rms_current']:.3g} A, peak {row['peak_current']:.3g} A"
+                     + (f", energy per cycle {row['energy_per_cycle']:.4g} J" if env.mode == "cycle" else ""))
+        lines.append("  margins (required in brackets):")
+        req = env.margins
+        need = {"voltage_margin": req["voltage"], "peak_current_margin": req["current"],
+                "rms_current_margin": req["current"], "temperature_margin": req["temperature"],
+                "motor_speed_margin": req["speed"], "gear_speed_margin": req["speed"],
+                "gear_peak_torque_margin": req["torque"], "gear_continuous_torque_margin": req["torque"]}
+        for col in MARGIN_COLUMNS:
+            value = row[col]
+            if col == "temperature_margin":
+                text = f"{value:.1f} K [{need[col]:.3g} K]" if np.isfinite(value) else "not known"
+            elif np.isnan(value):
+                text = "not checked"
+            else:
+                text = f"{value * 100:.1f} %" + (f" [{need[col] * 100:.3g} %]" if col in need else "")
+            lines.append(f"    {col:<32} {text}")
+        if row["notes"]:
+            lines.append(f"  notes: {row['notes']}")
+        if not row["passed"]:
+            lines.append("  failed checks:")
+            lines += [f"    - {t}" for t in row["reasons"].split("; ")]
+        return "\n".join(lines)
+
+
+def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | None = None,
+           motor_notes: dict | None = None) -> Selection:
+    """Evaluate every motor × gear option against a load envelope.
+
+    Parameters
+    ----------
+    motors, gearheads : DataFrame
+        Catalogue frames in SI (``Catalog.motors()``, ``Catalog.gearheads()``).
+    envelope : str, Path, dict or Envelope
+        The load envelope (TOML path or parsed dict with unit strings).
+    top : int, optional
+        Length of the shortlist; default the envelope's ``ranking.top``.
+    motor_notes : dict, optional
+        motor id -> text added to the notes of its candidates (the API passes the
+        consistency flags of the datasheet here).
+
+    Returns
+    -------
+    Selection
+    """
+    env = load_envelope(envelope)
+    cand = build_candidates(motors, gearheads, env)
+    if motor_notes:
+        cand["motor_note"] = pd.Series(cand["motor"]).map(motor_notes).fillna("").to_numpy(dtype=object)
+    res = evaluate_all(env, cand) if len(cand["id"]) else {}
+    n = len(cand["id"])
+    table = pd.DataFrame({"candidate": cand["id"], "motor": cand["motor"], "gear": cand["gear"],
+                          "ratio": cand["ratio"]})
+    if n:
+        margins, failed, texts, notes = run_checks(env, cand, res)
+        for k, v in margins.items():
+            table[k] = v
+        for k in ("winding_temperature", "rms_current", "peak_current", "energy_per_cycle"):
+            table[k] = res[k]
+        for k in ("mass", "price", "length", "diameter"):
+            table[k] = cand[k]
+        table["currency"] = cand["currency"]
+        seg_choice = np.argmin(np.vstack([np.nan_to_num(table[c].to_numpy(), nan=np.inf) for c in
+                                          ("voltage_margin", "peak_current_margin", "motor_speed_margin")]),
+                               axis=0)
+        segs = np.vstack([res["voltage_seg"], res["peak_current_seg"], res["speed_seg"]])
+        table["worst_segment"] = np.asarray(env.names, dtype=object)[segs[seg_choice, np.arange(n)]]
+        table["notes"] = notes.to_numpy()
+        for k in CHECKS:
+            table["fails_" + k] = failed[k].to_numpy()
+        table["passed"] = ~failed.any(axis=1).to_numpy()
+        keys = failed.apply(lambda col: np.where(col, col.name, ""))
+        table["failed"] = keys.apply(lambda r: ", ".join(x for x in r if x), axis=1).to_numpy()
+        table["reasons"] = texts.apply(lambda r: "; ".join(x for x in r if x), axis=1).to_numpy()
+    else:
+        for k in CHECKS:
+            table["fails_" + k] = np.zeros(0, bool)
+        table["passed"] = np.zeros(0, bool)
+    table = _rank(table, env)
+    return Selection(env, cand, table, env.top if top is None else int(top))
+
+
+def _rank(table: pd.DataFrame, env) -> pd.DataFrame:
+    """Add ``rank`` (passing candidates in ranking order) and ``pareto`` columns."""
+    table = table.copy()
+    table["rank"] = np.nan
+    table["pareto"] = False
+    if "winding_temperature" not in table:
+        return table
+    passing = table[table["passed"]]
+    cols = [k.lstrip("-") for k in env.rank_keys]
+    ascending = [not k.startswith("-") for k in env.rank_keys]
+    order = passing.sort_values(cols + ["candidate"], ascending=ascending + [True], na_position="last",
+                                kind="mergesort").index
+    table.loc[order, "rank"] = np.arange(1, len(order) + 1)
+    if env.pareto and len(passing):
+        sign = np.array([-1.0 if k.startswith("-") else 1.0 for k in env.pareto])
+        vals = passing[[k.lstrip("-") for k in env.pareto]].to_numpy(dtype=float) * sign
+        table.loc[passing.index, "pareto"] = _pareto(vals)
+    ranked = table.loc[order]
+    rest = table.drop(index=order)
+    return pd.concat([ranked, rest]).reset_index(drop=True)

@@ -1,0 +1,155 @@
+"""Speed-torque diagrams: the drawn data equals the computed physics.
+
+Physics checked against a textbook chapter on DC machines (speed-torque line
+ω = (V − R·(T + Tf)/Kt)/Ke, stall torque Ts = Kt·(V/R − I0), no-load speed
+ω0 = (V − R·I0)/Ke), IEC 60028 for the copper resistance line
+R(T) = R20·(1 + 0.00393/K·(T − 20 °C)) and the two-node thermal network for the
+continuous current I = √((Tmax − Ta)/((Rth1 + Rth2)·R(Tmax))).
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+
+from catalog import physics as ph
+from catalog.export.lines import Conditions, MotorModel, OperatingPoint
+from catalog.export.plots import plot_comparison, plot_speed_torque, save_figure
+
+RPM = 30.0 / math.pi
+
+
+def lines_of(fig) -> dict:
+    return {ln.get_gid(): ln for ax in fig.axes for ln in ax.get_lines() if ln.get_gid()}
+
+
+def crossing(line):
+    """(torque where speed = 0, speed where torque = 0) of a straight Line2D, by interpolation."""
+    x, y = (np.asarray(v, dtype=float) for v in line.get_data())
+    order = np.argsort(x)
+    at_zero_torque = float(np.interp(0.0, x[order], y[order]))
+    order = np.argsort(y)
+    at_zero_speed = float(np.interp(0.0, y[order], x[order]))
+    return at_zero_speed, at_zero_torque
+
+
+@pytest.fixture
+def record():
+    """A plain 24 V motor record (SI), resistance stated at 20 °C, magnet β = −0.1 %/K."""
+    return {"id": "test-m1", "terminal_resistance": 2.0, "torque_constant": 0.05, "back_emf_constant": 0.05,
+            "no_load_current": 0.1, "resistance_reference_temperature": 293.15,
+            "max_winding_temperature": 428.15, "thermal_resistance_winding_housing": 4.0,
+            "thermal_resistance_housing_ambient": 10.0, "max_speed": 600.0}
+
+
+def test_plain_record_lines_cross_axes_at_stall_and_no_load(record):
+    model = MotorModel.from_record(record, magnet_coefficient=-0.001)
+    cond = Conditions(voltage=21.0, nominal_voltage=24.0, ambient_temperature=298.15,
+                      winding_temperature=373.15, peak_current=8.0)
+    points = [OperatingPoint("run", 0.2, 250.0, duration=10.0), OperatingPoint("accelerate", 0.4, 0.0, 250.0, 1.0)]
+    fig = plot_speed_torque(model, cond, points, units="si")
+    got = lines_of(fig)
+    # hot: 21 V, winding 100 °C; by hand (IEC 60028 copper line, textbook line)
+    r_hot = 2.0 * (1 + 0.00393 * (373.15 - 293.15))
+    kt_hot = 0.05 * (1 - 0.001 * (373.15 - 293.15))
+    i0 = 0.05 * 0.1 / kt_hot                         # friction torque stays Kt·I0 at the reference
+    stall, no_load = crossing(got["hot"])
+    assert stall == pytest.approx(kt_hot * (21.0 / r_hot - i0), rel=1e-9)
+    assert no_load == pytest.approx((21.0 - r_hot * i0) / kt_hot, rel=1e-9)
+    # the same from catalog.physics functions
+    assert stall == pytest.approx(ph.stall_torque(kt_hot, ph.stall_current(21.0, r_hot), i0), rel=1e-12)
+    assert no_load == pytest.approx(ph.speed_at_torque(0.0, 21.0, r_hot, kt_hot, kt_hot, i0), rel=1e-12)
+    # cold: 24 V, winding at the 25 °C ambient
+    r_cold = ph.resistance_at_temperature(2.0, 298.15, 293.15)
+    kt_cold = ph.torque_constant_at_temperature(0.05, 298.15, -0.001, 293.15)
+    stall_c, no_load_c = crossing(got["cold"])
+    assert stall_c == pytest.approx(ph.stall_torque(kt_cold, 24.0 / r_cold, 0.005 / kt_cold), rel=1e-12)
+    assert no_load_c == pytest.approx(ph.no_load_speed(24.0, r_cold, 0.005 / kt_cold, kt_cold), rel=1e-12)
+    # continuous limit: vertical, at Kt(Tmax)·Icont − Tf (two-node network, copper loss only)
+    x, y = got["thermal"].get_data()
+    assert x[0] == x[1] and y[0] == 0
+    r_max = 2.0 * (1 + 0.00393 * (428.15 - 293.15))
+    i_cont = math.sqrt((428.15 - 298.15) / (14.0 * r_max))
+    assert x[0] == pytest.approx(0.05 * (1 - 0.001 * 135.0) * i_cont - 0.005, rel=1e-9)
+    # peak current (hot Kt) and speed limit
+    assert got["peak"].get_data()[0][0] == pytest.approx(kt_hot * 8.0 - 0.005, rel=1e-12)
+    assert set(got["max_speed"].get_data()[1]) == {600.0}
+    # the points as given, RMS torque at the mean speed
+    assert got["segment-0"].get_xydata().tolist() == [[0.2, 250.0], [0.2, 250.0]]
+    assert got["segment-1"].get_xydata().tolist() == [[0.4, 0.0], [0.4, 250.0]]
+    rx, ry = got["rms"].get_data()
+    assert rx[0] == pytest.approx(math.sqrt((0.2 ** 2 * 10 + 0.4 ** 2 * 1) / 11))
+    assert ry[0] == pytest.approx((250.0 * 10 + 125.0 * 1) / 11)
+
+
+def test_display_units_and_load_side(record):
+    model = MotorModel.from_record(record)
+    model.ratio, model.efficiency = 10.0, 0.8
+    cond = Conditions(voltage=24.0, nominal_voltage=24.0, winding_temperature=298.15)
+    pts = [OperatingPoint("lift", 0.1, 300.0), OperatingPoint("lower", -0.05, -200.0), OperatingPoint("brake", -0.1, 200.0)]
+    motor = lines_of(plot_speed_torque(model, cond, pts, units="datasheet", side="motor"))
+    load = lines_of(plot_speed_torque(model, cond, pts, units="datasheet", side="load"))
+    stall_m, nl_m = crossing(motor["hot"])
+    stall_l, nl_l = crossing(load["hot"])
+    assert stall_l == pytest.approx(stall_m * 10 * 0.8) and nl_l == pytest.approx(nl_m / 10)
+    assert motor["segment-0"].get_xydata()[0].tolist() == pytest.approx([100.0, 300.0 * RPM])   # mN·m, rpm
+    # running backwards while motoring mirrors into the first quadrant; braking shows negative torque
+    assert motor["segment-1"].get_xydata()[0].tolist() == pytest.approx([50.0, 200.0 * RPM])
+    assert load["segment-1"].get_xydata()[0].tolist() == pytest.approx([50.0 * 8.0, 20.0 * RPM])
+    assert load["segment-2"].get_xydata()[0].tolist() == pytest.approx([-100.0 * 10 / 0.8, 20.0 * RPM])
+
+
+def test_candidate_diagram_matches_the_selection(wheel, demo_cat):
+    """The drawn segments are the selection's own operating points (evaluate(detail=True))."""
+    from catalog.export.detail import candidate_detail
+    from catalog.export.figures import candidate_figure
+    from catalog.select.candidates import build_candidates
+    from catalog.select.evaluate import evaluate
+
+    cid = wheel.shortlist["candidate"].iloc[0]
+    row = wheel.shortlist.iloc[0]
+    fig = candidate_figure(wheel, cid, demo_cat, units="si")
+    got = lines_of(fig)
+    env = wheel.envelope
+    cand = build_candidates(demo_cat.motors(), demo_cat.gearheads(), env)
+    i = list(cand["id"]).index(cid)
+    d = evaluate(env, {k: v[i:i + 1] for k, v in cand.items()}, detail=True)
+    for s in range(len(env.names)):
+        torque = d["seg_motor_torque"][0, s]
+        w0, w1 = d["seg_speed_start"][0, s], d["seg_speed_end"][0, s]
+        sign = 1.0 if (w0 or w1) >= 0 else -1.0
+        np.testing.assert_allclose(got[f"segment-{s}"].get_xydata(),
+                                   [[torque * sign, w0 * sign], [torque * sign, w1 * sign]], rtol=1e-12, atol=1e-12)
+    # hot line at the worst-case voltage and the selection's winding temperature
+    detail = candidate_detail(wheel, cid, demo_cat)
+    assert detail.winding_temperature == pytest.approx(row["winding_temperature"])
+    c = {k: v[i] for k, v in cand.items()}
+    tw = row["winding_temperature"]
+    r = ph.resistance_at_temperature(c["R"], tw, c["Tref"])
+    kt = ph.torque_constant_at_temperature(c["Kt"], tw, c["beta"], c["Tref"])
+    ke = ph.torque_constant_at_temperature(c["Ke"], tw, c["beta"], c["Tref"])
+    v = env.min_voltage - env.drive_voltage_drop
+    stall, no_load = crossing(got["hot"])
+    assert no_load == pytest.approx(ph.speed_at_torque(0.0, v, r, kt, ke, c["Tf"] / kt), rel=1e-9)
+    assert stall == pytest.approx(ph.torque_at_speed(0.0, v, r, kt, ke, c["Tf"] / kt), rel=1e-9)
+
+
+def test_comparison_and_files(wheel, demo_cat, tmp_path):
+    from PIL import Image
+
+    from catalog.export.figures import comparison_figure, write_plots
+
+    fig = comparison_figure(wheel, catalog=demo_cat, top=3)
+    got = lines_of(fig)
+    assert {"hot-0", "hot-1", "hot-2"} <= set(got) and "load-0" in got
+    env = wheel.envelope
+    x, y = got["load-2"].get_data()           # load side: the envelope's own segment (speed in rpm)
+    assert y[0] == pytest.approx(abs(env.speed_start[2]) * RPM)
+    paths = write_plots(wheel, tmp_path / "plots", demo_cat, candidates=list(wheel.shortlist["candidate"][:2]))
+    assert [p.name for p in paths][-1] == "compare.png" and len(paths) == 3
+    for p in paths:
+        with Image.open(p) as im:
+            assert im.size[0] > 800 and im.size[1] > 500
+    svg = save_figure(plot_comparison([]), tmp_path / "empty.svg").read_text(encoding="utf-8")
+    assert svg.lstrip().startswith("<?xml") and "<svg" in svg

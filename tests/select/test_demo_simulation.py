@@ -1,0 +1,110 @@
+"""Independent check of each demo envelope's top candidate by simulation.
+
+Along the speed profile the required motor torque follows from the rigid
+mechanics (J·dω/dt = T, gear power balance T_out/(n·η) driving, T_out·η/n
+back-driven, Coulomb friction opposing motion); the current I = T/Kt(Tw) and
+the terminal voltage V = R(Tw)·I + Ke(Tw)·ω follow from the armature equation
+with L·dI/dt neglected (piecewise-constant current); the winding and housing
+temperatures are integrated with scipy.integrate.solve_ivp on the two-node
+network (Cw·dTw/dt = I²R(Tw) − (Tw − Th)/Rth1, Ch·dTh/dt = (Tw − Th)/Rth1 −
+(Th − Ta)/Rth2, Cw = τw/Rth1, Ch = τm/Rth2), repeated cycle after cycle from
+ambient until the cycle-start temperature settles.
+
+Sources: textbook chapter on DC machines (armature and torque equations);
+textbook chapter on heating and cooling of machines (two-node network);
+IEC 60028 (copper resistance law); textbook on drive engineering (gears).
+"""
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pytest
+from scipy.integrate import solve_ivp
+
+QUERIES = Path(__file__).resolve().parents[2] / "queries"
+ALPHA20 = 0.00393
+
+
+def resistance(c, tw):
+    alpha = ALPHA20 / (1 + ALPHA20 * (c["Tref"] - 293.15))
+    return c["R"] * (1 + alpha * (tw - c["Tref"]))
+
+
+def kt_at(c, tw, k):
+    return c[k] * (1 + c["beta"] * (tw - c["Tref"]))
+
+
+def motor_torque(env, c, t_load, w_load, a_load):
+    out = t_load + env.load_inertia * a_load
+    n, eta = c["ratio"], c["eta"]
+    through = out / (n * eta) if out * w_load >= 0 or not env.back_drive else out * eta / n
+    return (c["J"] + c["Jg"]) * n * a_load + through + c["Tf"] * np.sign(w_load)
+
+
+def simulate(env, c):
+    """(peak winding temperature [K], worst |V| [V]) in the periodic state."""
+    ta = env.ambient_temperature
+    cw, ch = c["tau_w"] / c["Rth1"], c["tau_m"] / c["Rth2"]
+    segs = []
+    for k in range(len(env.names)):
+        w0, w1, d = env.speed_start[k], env.speed_end[k], env.duration[k]
+        a = (w1 - w0) / d if env.mode == "cycle" else 0.0
+        segs.append((d, motor_torque(env, c, env.torque[k], (w0 + w1) / 2, a), w0, w1, env.continuous[k]))
+
+    def rhs(_, y, t_em):
+        tw, th = y
+        i = t_em / kt_at(c, tw, "Kt")
+        return [(i * i * resistance(c, tw) - (tw - th) / c["Rth1"]) / cw,
+                ((tw - th) / c["Rth1"] - (th - ta) / c["Rth2"]) / ch]
+
+    y = np.array([ta, ta])
+    if env.mode == "points":   # continuous points held until steady, the hottest counts
+        peak = ta
+        for d, t_em, *_rest, cont in segs:
+            if cont:
+                sol = solve_ivp(rhs, (0, 20 * c["tau_m"]), [ta, ta], args=(t_em,), rtol=1e-9, atol=1e-9)
+                peak = max(peak, sol.y[0, -1])
+        tw_peak = peak
+    else:
+        for _cycle in range(2000):
+            start = y.copy()
+            tw_peak = -np.inf
+            for d, t_em, *_ in segs:
+                sol = solve_ivp(rhs, (0, d), y, args=(t_em,), rtol=1e-9, atol=1e-9, max_step=d / 4)
+                tw_peak = max(tw_peak, sol.y[0].max())
+                y = sol.y[:, -1]
+            if abs(y[0] - start[0]) < 1e-4:
+                break
+    v_worst = 0.0
+    for tw in (ta, tw_peak):
+        for d, t_em, w0, w1, _ in segs:
+            i = t_em / kt_at(c, tw, "Kt")
+            for w in np.linspace(w0, w1, 21):   # along the ramp
+                v = resistance(c, tw) * i + kt_at(c, tw, "Ke") * c["ratio"] * w
+                v_worst = max(v_worst, abs(v))
+    return tw_peak, v_worst
+
+
+@pytest.mark.parametrize("name", ["drive_wheel", "lift_axis", "camera_pan", "water_pump"])
+def test_top_candidate_by_simulation(demo_catalog, name):
+    sel = demo_catalog.select(QUERIES / f"{name}.toml")
+    assert len(sel.shortlist) >= 3
+    assert len(sel.reason_counts()) >= 3
+    top = sel.shortlist.iloc[0]
+    i = list(sel._cand["id"]).index(top["candidate"])
+    c = {k: v[i] for k, v in sel._cand.items()}
+    tw_peak, v_worst = simulate(sel.envelope, c)
+    env = sel.envelope
+    assert v_worst <= env.available_voltage * (1 - env.margins["voltage"]) + 1e-9   # speeds reachable
+    assert tw_peak <= c["Tmax"] - env.margins["temperature"]                        # winding under limit
+    # the selection holds Kt at the peak winding temperature all cycle: conservative, a few % of the rise
+    rise = top["winding_temperature"] - env.ambient_temperature
+    assert top["winding_temperature"] - 0.05 * rise - 0.1 <= tw_peak <= top["winding_temperature"] + 0.1
+    needed = env.available_voltage * (1 - top["voltage_margin"])
+    assert 0.98 * needed <= v_worst <= needed * (1 + 1e-6)     # the selection is the upper bound
+
+
+def test_impossible_has_no_candidate(demo_catalog):
+    sel = demo_catalog.select(QUERIES / "impossible.toml")
+    assert sel.shortlist.empty and len(sel.rejected) > 100
