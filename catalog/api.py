@@ -161,9 +161,12 @@ class Catalog(StockMethods):
         envelope = load_envelope(envelope)   # envelope mistakes first, before reading the file
         kw.setdefault("motor_notes", self._flag_notes())
         if stock_mode(envelope, stock) != "ignore":
-            return select_with_stock(self.motors(), self.gearheads(), envelope, self.stock_available(),
-                                     stock, **kw)
-        return select(self.motors(), self.gearheads(), envelope, **kw)
+            sel = select_with_stock(self.motors(), self.gearheads(), envelope, self.stock_available(),
+                                    stock, **kw)
+        else:
+            sel = select(self.motors(), self.gearheads(), envelope, **kw)
+        sel.catalog = self  # exports read the provenance of the values used from here
+        return sel
 
     def _flag_notes(self) -> dict:
         """motor id -> a warning for datasheets that contradict themselves (selection notes)."""

@@ -54,17 +54,32 @@ def display_shortlist(shortlist):
               help="Print every segment and every margin of one candidate instead of the shortlist.")
 @click.option("--stock", type=click.Choice(["only", "prefer", "ignore"]), default=None,
               help="The shelf: only stocked parts, stocked first, or ignore it (default: the envelope's ranking.stock).")
+@click.option("--out", "out", type=click.Path(dir_okay=False), default=None, metavar="FILE",
+              help="Also write the shortlist (XLSX: with rejected, envelope, provenance, cautions) to FILE: "
+                   ".xlsx, .csv, .json or .parquet.")
+@click.option("--units", "units", type=click.Choice(["si", "datasheet", "imperial"]), default="datasheet",
+              show_default=True, help="Units of the --out file (Parquet always keeps SI).")
 @click.pass_obj
 @handle_errors
-def select_cmd(obj: Context, envelope, top, fmt, explain, stock):
+def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
     """Pick motors (with gear options) that meet a load envelope (TOML, see queries/).
 
     Exit code 0 when at least one candidate passes, 1 when none does, 2 on input errors.
     """
-    sel = obj.catalog().select(envelope, top=top, stock=stock)
+    if out:
+        from ..export.writers import format_for
+
+        format_for(out)   # a wrong extension is an input error before any work
+    cat = obj.catalog()
+    sel = cat.select(envelope, top=top, stock=stock)
     if explain:
         click.echo(sel.explain(explain))
         return
+    if out:
+        from ..export.selection import write_selection
+
+        written = write_selection(sel, out, units=units, catalog=cat)
+        click.echo(f"{written}: shortlist of {len(sel.shortlist)} written ({units} units)", err=fmt != "table")
     env = sel.envelope
     n_pass, n_rej = len(sel.passing), len(sel.rejected)
     if fmt != "table":

@@ -315,22 +315,14 @@ def history_cmd(obj: Context, record_id, show_all, fmt):
         click.echo("  no value was changed since" + ("" if show_all else " (--all also shows values written again unchanged)"))
         return
 
-    def shown(num, text, raw, unit):
+    def shown(num, text, raw, unit, origin):
         written = "" if raw is None or raw != raw else f" ({raw}{' ' + unit if isinstance(unit, str) and unit else ''})"
-        if num is not None and num == num:
-            return f"{num:.6g} SI{written}"
-        return f"{text}" if text is not None and text == text else "-"
+        value = f"{num:.6g}" if num is not None and num == num else (text if isinstance(text, str) else "-")
+        return value + (written or (f" ({origin})" if isinstance(origin, str) else ""))
 
-    import pandas as pd
-
-    out = pd.DataFrame({
-        "replaced at": [when(t) for t in df["replaced_at"]],
-        "field": df["field"],
-        "old": [shown(*r) for r in zip(df["old_value"], df["old_text"], df["old_raw"], df["old_unit"])],
-        "old origin": df["old_origin"],
-        "new": [shown(n, t, r, None) for n, t, r in zip(df["new_value"], df["new_text"], df["new_raw"])],
-        "from batch": [f"{b} {f or ''}".strip() for b, f in zip(df["old_batch"], df["old_files"])],
-        "replaced by": [f"{b} {k}: {f or ''}".strip() for b, k, f in
-                        zip(df["replaced_by_batch"], df["replaced_by_kind"], df["replaced_by_files"])],
-    })
-    print_frame(out, "table", title=f"{len(out)} replaced value(s) of {record_id}")
+    for r in df.itertuples(index=False):
+        old = shown(r.old_value, r.old_text, r.old_raw, r.old_unit, r.old_origin)
+        new = shown(r.new_value, r.new_text, r.new_raw, r.new_unit, r.new_origin)
+        by = f"{r.replaced_by_kind} {r.replaced_by_files or ''}".strip()
+        click.echo(f"  {when(r.replaced_at)}  {r.field:<34} {old} -> {new}  "
+                   f"[batch {r.old_batch} -> {r.replaced_by_batch}: {by}]")

@@ -45,6 +45,10 @@ SELECTION_DIMENSIONS = {
     "diameter": "length",
     "price": "price",
     "efficiency": "dimensionless",
+    "available": "count",          # shelf columns of a stock-aware selection
+    "motor_available": "count",
+    "gear_available": "count",
+    "stock_tier": "count",
 }
 
 

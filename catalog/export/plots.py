@@ -31,7 +31,7 @@ from a selection.
 from __future__ import annotations
 
 __all__ = ["MotorModel", "Conditions", "OperatingPoint", "characteristics", "plot_speed_torque",
-           "plot_comparison", "save_figure", "to_side", "PALETTE"]
+           "plot_comparison", "save_figure", "to_side", "temperature_text", "PALETTE"]
 
 import math
 from pathlib import Path
@@ -56,6 +56,15 @@ def _num(v) -> str:
     if a != 0 and (a < 1e-3 or a >= 1e9):
         return f"{v:.3e}"
     return f"{v:.4g}"
+
+
+def temperature_text(kelvin: float, preset: str = "datasheet") -> str:
+    """A temperature [K] as text in the preset's unit: ``'66 °C'``, ``'151 °F'``, ``'339 K'``."""
+    from ..units import display_unit, parse_unit
+
+    label = display_unit("temperature", preset)
+    conv = parse_unit(label, "temperature")
+    return f"{(kelvin - conv.offset) / conv.factor:.0f} {label}" if math.isfinite(kelvin) else "unknown"
 
 
 def _units(preset: str):
@@ -114,9 +123,8 @@ def plot_speed_torque(model: MotorModel, cond: Conditions, points=(), units: str
         ts = np.array(([t_low * 1.15] if t_low < 0 else []) + [0.0, c["stall_torque"]])
         ws = np.array([c["no_load_speed"] - t * c["no_load_speed"] / c["stall_torque"] for t in ts])
         x, y = disp(ts, ws)
-        temp_c = c["temperature"] - 273.15
         word = "hot" if key == "hot" else "cold"
-        label = (f"{word}: {c['voltage']:.1f} V at the motor, winding {temp_c:.0f} °C — "
+        label = (f"{word}: {c['voltage']:.1f} V at the motor, winding {temperature_text(c['temperature'], units)} — "
                  f"stall {_num(x[-1])} {tl}, no load {_num(y[-2])} {wl}")
         ax.plot(x, y, color=PALETTE[key], gid=key, label=label, solid_capstyle="round", **style)
         w_top.append(float(np.max(y)))
@@ -152,8 +160,8 @@ def plot_speed_torque(model: MotorModel, cond: Conditions, points=(), units: str
         text = label.format(x=_num(x[0]), u=tl) + (" (off the chart)" if x[0] > x_max else "")
         ax.plot([x[0], x[0]], [0.0, y_max], color=PALETTE[key], gid=key, label=text, **style)
 
-    th_label = ("continuous limit (thermal, ambient {amb:.0f} °C, winding ≤ {tm:.0f} °C): {{x}} {{u}}"
-                .format(amb=cond.ambient_temperature - 273.15, tm=model.max_winding_temperature - 273.15))
+    th_label = (f"continuous limit (thermal, ambient {temperature_text(cond.ambient_temperature, units)}, "
+                f"winding ≤ {temperature_text(model.max_winding_temperature, units)}): {{x}} {{u}}")
     vline(ch["continuous_torque"], "thermal", th_label, lw=2.0, ls=(0, (8, 2, 2, 2)))
     vline(ch["peak_torque"], "peak", f"drive peak current {cond.peak_current:.3g} A: {{x}} {{u}}",
           lw=1.8, ls=(0, (1.5, 2)))

@@ -19,7 +19,7 @@ from .html import STYLE, esc, fmt_number, inline_svg, table_html
 REPORT_COLUMNS = ["rank", "candidate", "ratio", "worst_segment", "smallest_margin", "voltage_margin",
                   "peak_current_margin", "rms_current_margin", "temperature_margin", "motor_speed_margin",
                   "gear_peak_torque_margin", "winding_temperature", "rms_current", "peak_current",
-                  "energy_per_cycle", "mass", "price", "pareto"]
+                  "energy_per_cycle", "mass", "price", "currency", "pareto", "available", "location"]
 #: Fields of the records whose provenance the report lists (those the checks read).
 USED_FIELDS = {
     "motor": ["terminal_resistance", "resistance_reference_temperature", "torque_constant", "back_emf_constant",
@@ -71,7 +71,7 @@ def _envelope(selection, units: str) -> str:
             path = f"{seg_key}[{i}].{c}" if env.mode == "points" else f"cycle.segments[{i}].{c}"
             given, value, unit, _ = shown.get(path, (it.get(c, ""), None, None, ""))
             extra = f' <small>= {esc(fmt_number(value))} {esc(unit)}</small>' if value is not None and \
-                str(given) != f"{fmt_number(value)} {unit}" else ""
+                str(given).replace(" ", "") != f"{fmt_number(value)}{unit}".replace("−", "-") else ""
             cells.append(f"<td>{esc(given if c in it else '')}{extra if c in it else ''}</td>")
         body.append("<tr>" + "".join(cells) + "</tr>")
     title = "Operating points" if env.mode == "points" else (
@@ -105,7 +105,7 @@ def _shortlist(selection, tables) -> str:
 
 def _plots(selection, details, units, side, compare) -> str:
     from .detail import load_points
-    from .plots import plot_comparison, plot_speed_torque
+    from .plots import plot_comparison, plot_speed_torque, temperature_text
 
     if not details:
         return "<p>No diagrams: no candidate passed.</p>"
@@ -124,10 +124,10 @@ def _plots(selection, details, units, side, compare) -> str:
                f"{units} units")
         fig = plot_speed_torque(d.model, d.conditions, d.points, units, side,
                                 title=f"{i + 1}. {d.candidate}", subtitle=sub)
-        tw = d.conditions.winding_temperature - 273.15
+        tw = temperature_text(d.conditions.winding_temperature, units)
         cap = (f"Candidate {esc(d.candidate)}: motor {esc(d.motor)}, gear {esc(d.gear)} "
                f"(ratio {fmt_number(d.model.ratio)}, efficiency {fmt_number(d.model.efficiency, 3)}); hot line "
-               f"at {d.conditions.voltage:.1f} V with the winding at {tw:.0f} °C.")
+               f"at {d.conditions.voltage:.1f} V with the winding at {tw}.")
         out.append(f'<figure id="plot-{i + 1}" class="candidate">'
                    + inline_svg(fig, f"c{i + 1}", f"speed-torque diagram of {d.candidate}")
                    + f"<figcaption>{cap}</figcaption></figure>")

@@ -10,8 +10,6 @@ from __future__ import annotations
 
 __all__ = ["CAUTION", "selection_tables", "write_selection", "envelope_table", "caution_lines"]
 
-import math
-
 #: The caution every selection export and report carries.
 CAUTION = ("Catalogue-based selection is a first pass: verify with a prototype under the real load and "
            "temperature. Winding overheating damages insulation and can demagnetise magnets; peak currents "

@@ -136,7 +136,7 @@ class _Segment:
 
 
 def _setup(durations, currents, terminal_resistance, rth1, rth2, tau_w, tau_m,
-           ambient, tref, alpha, talpha):
+           ambient, tref, alpha, talpha, fast=False):
     durations = np.asarray(durations, dtype=float)
     currents = np.asarray(currents, dtype=float)
     if durations.ndim == 0 or currents.ndim == 0:
@@ -155,6 +155,8 @@ def _setup(durations, currents, terminal_resistance, rth1, rth2, tau_w, tau_m,
         np.broadcast_to(p, batch) for p in params)
     r_amb, slope = _resistance_terms(r, ambient, tref, alpha, talpha)
     cw, ch = tau_w / rth1, tau_m / rth2
+    if fast:  # the whole-array path of the periodic peak: no per-segment objects
+        return durations, ambient, (currents, r_amb, slope, rth1, rth2, cw, ch)
     segments = [_Segment(currents[..., k], r_amb, slope, rth1, rth2, cw, ch)
                 for k in range(count)]
     return durations, ambient, segments
@@ -185,6 +187,108 @@ def _propagate(segments, durations, x1, x2, want_trajectory, samples):
         trajectory = (join(times), join(w_samples), join(h_samples))
     return peak, trajectory
 
+
+def _exprel_times(z, t):
+    """t·expm1(z)/z with the series near z = 0 (z = λ·t) [s]."""
+    small = np.abs(z) < 1e-6
+    safe = np.where(small, 1.0, z)
+    return t * np.where(small, 1.0 + z * (0.5 + z / 6.0), np.expm1(safe) / safe)
+
+
+def _periodic_peak_fast(durations, currents, r_amb, slope, rth1, rth2, cw, ch):
+    """Periodic peak rise θw [K] of a batch (B,) over S segments, no trajectory.
+
+    The same closed form as :class:`_Segment` (Putzer, exact interior extremum),
+    evaluated on whole arrays at once, laid out segments-first (S, B) so that
+    the 2×2 affine composition and the propagation of the state, the only
+    steps that run over the segments axis, work on contiguous (B,) rows.
+    ``durations``/``currents`` have shape (B, S) (broadcast views are fine);
+    the parameters shape (B,).  Returns (peak rise [K], runaway [-]).
+    """
+    row = (lambda a: np.asarray(a, dtype=float)[None, :])
+    r_amb, slope, rth1, rth2, cw, ch = (row(a) for a in (r_amb, slope, rth1, rth2, cw, ch))
+    d = np.ascontiguousarray(np.asarray(durations, dtype=float).T)
+    if d.shape[1] != r_amb.shape[1] and np.all(d == d[:, :1]):
+        d = d[:, :1]                                   # one profile for the whole batch
+    i2 = np.square(np.asarray(currents, dtype=float).T)  # (S, B)
+    n_seg, size = i2.shape
+    g = i2 * slope
+    m12 = 1.0 / (rth1 * cw)
+    m21 = 1.0 / (rth1 * ch)
+    m22 = -(1.0 / rth1 + 1.0 / rth2) / ch
+    m11 = (g - 1.0 / rth1) / cw
+    u1 = i2 * (r_amb / cw)
+    half = (m11 - m22) * 0.5
+    s = np.sqrt(half * half + m12 * m21)
+    lam2 = (m11 + m22) * 0.5 - s
+    lam1 = ((1.0 - g * (rth1 + rth2)) / (rth1 * rth2 * cw * ch)) / lam2
+    delta = 2.0 * s
+    k11 = m11 - lam2
+    k22 = m22 - lam2
+    z1 = lam1 * d
+    overflow = np.any(z1 > _OVERFLOW_EXPONENT, axis=0)
+    np.minimum(z1, _OVERFLOW_EXPONENT, out=z1)
+    em2 = np.expm1(lam2 * d)
+    e2 = em2 + 1.0
+    h2 = em2 / lam2                                   # ∫ e^{λ2 τ} dτ
+    h1 = _exprel_times(z1, d)                         # ∫ e^{λ1 τ} dτ
+    dd = delta * d
+    # (e^{λ1 t} − e^{λ2 t})/Δ = e^{λ2 t}·expm1(Δt)/Δ, without overflow for large Δt
+    p = np.where(dd < 1.0, e2 * np.expm1(np.minimum(dd, 1.0)), np.exp(z1) - e2) / delta
+    phi1 = (h1 - h2) / delta
+    e11 = e2 + p * k11
+    e12 = p * m12
+    e21 = p * m21
+    e22 = e2 + p * k22
+    c1 = (h2 + phi1 * k11) * u1
+    c2 = phi1 * m21 * u1
+    a11, a12, a21, a22 = e11[0], e12[0], e21[0], e22[0]
+    b1, b2 = c1[0], c2[0]
+    for k in range(1, n_seg):
+        f11, f12, f21, f22 = e11[k], e12[k], e21[k], e22[k]
+        a11, a12, a21, a22 = (f11 * a11 + f12 * a21, f11 * a12 + f12 * a22,
+                              f21 * a11 + f22 * a21, f21 * a12 + f22 * a22)
+        b1, b2 = f11 * b1 + f12 * b2 + c1[k], f21 * b1 + f22 * b2 + c2[k]
+    half_trace = (a11 + a22) / 2.0
+    radius = half_trace + np.sqrt(np.maximum(half_trace ** 2 - (a11 * a22 - a12 * a21), 0.0))
+    runaway = overflow | (radius >= 1.0)
+    det = (1.0 - a11) * (1.0 - a22) - a12 * a21
+    x1 = ((1.0 - a22) * b1 + a12 * b2) / det
+    x2 = (a21 * b1 + (1.0 - a11) * b2) / det
+    start1 = np.empty((n_seg + 1, size))
+    start2 = np.empty((n_seg, size))
+    start1[0] = x1
+    for k in range(n_seg):
+        start2[k] = x2
+        x1, x2 = e11[k] * x1 + e12[k] * x2 + c1[k], e21[k] * x1 + e22[k] * x2 + c2[k]
+        start1[k + 1] = x1
+    peak = start1.max(axis=0)                         # cycle start and every segment end
+    start1 = start1[:n_seg]
+    # interior extremum: dθw/dt = e^{λ2 t}·(v1 + w1·expm1(Δt)/Δ) = 0 at t* = log1p(−Δ·v1/w1)/Δ
+    v1 = m11 * start1 + m12 * start2 + u1
+    w1 = k11 * v1 + m12 * (m21 * start1 + m22 * start2)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        arg = -delta * v1 / w1
+        cand = (v1 > 0.0) & (arg > -1.0) & (arg < np.expm1(np.minimum(dd, _OVERFLOW_EXPONENT)))
+    if cand.any():
+        segs, cols = np.nonzero(cand)
+        full = (lambda a: a[segs, cols] if a.shape[1] == size else a[segs if a.shape[0] == n_seg else 0, 0])
+        dl, l1, l2, q11 = full(delta), full(lam1), full(lam2), full(k11)
+        t = np.log1p(full(arg)) / dl
+        ok = (t > 0.0) & (t < full(d))
+        t = np.where(ok, t, 0.0)
+        em2 = np.expm1(l2 * t)
+        e2 = em2 + 1.0
+        h2 = em2 / l2
+        h1 = _exprel_times(l1 * t, t)
+        pt = e2 * np.expm1(dl * t) / dl
+        ph = (h1 - h2) / dl
+        y1 = ((e2 + pt * q11) * start1[segs, cols] + pt * m12[0, cols] * start2[segs, cols]
+              + (h2 + ph * q11) * full(u1))
+        inner = np.full(size, -np.inf)
+        np.maximum.at(inner, cols, np.where(ok, y1, -np.inf))
+        peak = np.maximum(peak, inner)
+    return peak, runaway
 
 _PARAMETERS_DOC = """
     durations : ndarray
@@ -253,13 +357,20 @@ def periodic_winding_temperature(durations, currents, terminal_resistance,
     ----------
     Textbook chapter on heating and cooling of machines; IEC 60034-1; IEC 60028.
     """
+    fast = not trajectory
     durations, ambient, segments = _setup(
         durations, currents, terminal_resistance, thermal_resistance_winding_housing,
         thermal_resistance_housing_ambient, winding_thermal_time_constant,
         motor_thermal_time_constant, ambient_temperature, reference_temperature,
-        temperature_coefficient, coefficient_reference_temperature)
+        temperature_coefficient, coefficient_reference_temperature, fast=fast)
     if np.any(np.sum(durations, axis=-1) <= 0.0):
         raise ValueError("a periodic profile needs a positive cycle duration")
+    if fast:
+        batch = ambient.shape
+        flat = (lambda a: np.reshape(a, (-1,) + a.shape[len(batch):]))
+        cur, *params = segments
+        peak, runaway = _periodic_peak_fast(flat(durations), flat(cur), *(flat(q) for q in params))
+        return np.where(runaway.reshape(batch), np.inf, ambient + peak.reshape(batch))
     one, zero = np.ones(ambient.shape), np.zeros(ambient.shape)
     a11, a12, a21, a22, b1, b2 = one, zero, zero, one, zero, zero
     overflow = np.zeros(ambient.shape, dtype=bool)

@@ -72,10 +72,13 @@ def _thermal(env, c, current):
     if not env.repeat:
         return transient_winding_temperature(dur, i, *args, c["tau_w"], c["tau_m"], ta, c["Tref"])
     i_rms = rms(i, dur)
-    steady = steady_winding_temperature(i_rms, *args, ta, c["Tref"])
-    periodic = periodic_winding_temperature(dur, i, *args, c["tau_w"], c["tau_m"], ta, c["Tref"])
-    short = env.period < SHORT_PERIOD * c["tau_w"]
-    return np.where(short, steady, periodic)
+    out = steady_winding_temperature(i_rms, *args, ta, c["Tref"])
+    long = ~(env.period < SHORT_PERIOD * c["tau_w"])  # the transient only where the cycle is long
+    if long.any():
+        ix = np.flatnonzero(long)
+        out[ix] = periodic_winding_temperature(dur, i[ix], c["R"][ix], c["Rth1"][ix], c["Rth2"][ix],
+                                               c["tau_w"][ix], c["tau_m"][ix], ta, c["Tref"][ix])
+    return out
 
 
 def _hot_constants(c, temperature):
@@ -87,24 +90,53 @@ def _hot_constants(c, temperature):
 
 
 def _solve_temperature(env, c, t_em, missing):
-    """Fixed point of winding temperature and hot torque constant (vectorised)."""
+    """Fixed point of winding temperature and hot torque constant (vectorised).
+
+    F(T) = winding temperature with the magnet (Kt) at T is increasing and
+    convex in T (the currents scale with 1/Kt(T), Kt linear in T; the
+    network's response to a heat input scaled by s is a power series in s
+    with non-negative coefficients, since the network is cooperative).  So
+    G(T) = F(T) − T is convex with G(Ta) ≥ 0, and secant steps from the left
+    on G never pass its smallest root T* (the one plain iteration
+    T → F(T) from ambient converges to); each step takes the larger of the
+    secant and the plain step, both ≤ T*.  A secant slope ≥ 0 means G no
+    longer falls, hence has no root: runaway, found in a few evaluations
+    instead of :data:`MAX_ITERATIONS`.  Convergence as before: |F(T) − T| <
+    :data:`TOLERANCE_K`, and F(T) is reported.
+    """
     n = len(t_em)
     ta = env.ambient_temperature
     fallback = np.where(np.isnan(c["Tmax"]), FALLBACK_TEMPERATURE, c["Tmax"])
-    tw = np.full(n, ta)
+    tw = np.full(n, ta)                 # current point x
+    x_prev = np.full(n, np.nan)
+    g_prev = np.full(n, np.nan)
     active = ~missing
     runaway = np.zeros(n, bool)
     iterations = 0
     while active.any() and iterations < MAX_ITERATIONS:
         iterations += 1
-        kt = torque_constant_at_temperature(c["Kt"], tw, c["beta"], c["Tref"])
+        ix = np.flatnonzero(active)  # only the candidates still moving are evaluated again
+        sub = {k: (v[ix] if isinstance(v, np.ndarray) and v.shape[:1] == (n,) else v) for k, v in c.items()}
+        x = tw[ix]
+        kt = torque_constant_at_temperature(sub["Kt"], x, sub["beta"], sub["Tref"])
         bad_kt = kt <= 0
-        new = _thermal(env, c, t_em / np.where(bad_kt, np.nan, kt)[:, None])
-        blown = active & (~np.isfinite(new) | bad_kt)
-        runaway |= blown
-        step = np.abs(new - tw)
-        tw = np.where(active & ~blown, new, tw)
-        active &= ~blown & ~(step < TOLERANCE_K)
+        new = _thermal(env, sub, t_em[ix] / np.where(bad_kt, np.nan, kt)[:, None])
+        blown = ~np.isfinite(new) | bad_kt
+        g = new - x
+        done = ~blown & (np.abs(g) < TOLERANCE_K)
+        xp, gp = x_prev[ix], g_prev[ix]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            slope = (g - gp) / (x - xp)
+            secant = x - g / slope
+        have = np.isfinite(slope) & (slope != 0.0)
+        blown |= ~done & have & (slope > 0.0) & (g > 0.0)   # G convex and not falling: no root
+        step = np.where(g > 0.0, np.fmax(new, np.where(have, secant, new)),
+                        np.where(have, secant, new))         # below the root, or back from above
+        runaway[ix[blown]] = True
+        keep = ~blown
+        x_prev[ix], g_prev[ix] = x, g
+        tw[ix[keep]] = np.where(done, new, step)[keep]
+        active[ix[blown | done]] = False
     runaway |= active            # not converged: no consistent temperature
     tw_eval = np.where(missing | runaway, fallback, tw)
     reported = np.where(missing, np.nan, np.where(runaway, np.inf, tw))

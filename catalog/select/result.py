@@ -180,15 +180,28 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
         for k in CHECKS:
             table["fails_" + k] = failed[k].to_numpy()
         table["passed"] = ~failed.any(axis=1).to_numpy()
-        keys = failed.apply(lambda col: np.where(col, col.name, ""))
-        table["failed"] = keys.apply(lambda r: ", ".join(x for x in r if x), axis=1).to_numpy()
-        table["reasons"] = texts.apply(lambda r: "; ".join(x for x in r if x), axis=1).to_numpy()
+        table["failed"] = _join_columns({k: np.where(failed[k].to_numpy(), k, "") for k in failed}, ", ")
+        table["reasons"] = _join_columns({k: texts[k].to_numpy(dtype=object) for k in texts}, "; ")
     else:
         for k in CHECKS:
             table["fails_" + k] = np.zeros(0, bool)
         table["passed"] = np.zeros(0, bool)
     table = _rank(table, env)
     return Selection(env, cand, table, env.top if top is None else int(top))
+
+
+def _join_columns(columns: dict, sep: str) -> np.ndarray:
+    """Row-wise join of the non-empty strings of several columns, column by column (no row loop)."""
+    out = None
+    for values in columns.values():
+        v = pd.Series(values, dtype=object).fillna("").astype(str)
+        if out is None:
+            out = v
+            continue
+        both = (out != "") & (v != "")
+        out = out + np.where(both, sep, "") + v
+    n = len(next(iter(columns.values()))) if columns else 0
+    return (out if out is not None else pd.Series([""] * n)).to_numpy(dtype=object)
 
 
 def _rank(table: pd.DataFrame, env) -> pd.DataFrame:

@@ -117,3 +117,32 @@ def test_no_passing_candidate(demo_cat, tmp_path):
     sel = demo_cat.select(Path(__file__).resolve().parents[2] / "queries" / "impossible.toml")
     wb = openpyxl.load_workbook(write_selection(sel, tmp_path / "none.xlsx", catalog=demo_cat))
     assert wb["shortlist"].max_row == 1 and wb["rejected"].max_row == len(sel.rejected) + 1
+
+
+def test_every_numeric_shortlist_column_has_a_known_unit(wheel, pump):
+    """A new numeric column of the selection engine must get its dimension in SELECTION_DIMENSIONS."""
+    from catalog.export.columns import SELECTION_DIMENSIONS
+
+    for sel in (wheel, pump):
+        for frame in (sel.shortlist, sel.rejected):
+            numeric = [c for c in frame.columns if frame[c].dtype.kind in "fiu"]
+            assert set(numeric) <= set(SELECTION_DIMENSIONS), set(numeric) - set(SELECTION_DIMENSIONS)
+
+
+def test_select_out_cli(demo_db, tmp_path):
+    from click.testing import CliRunner
+
+    from catalog.cli import cli
+
+    envelope = Path(__file__).resolve().parents[2] / "queries" / "water_pump.toml"
+    out = tmp_path / "pump.xlsx"
+    r = CliRunner().invoke(cli, ["--db", str(demo_db), "select", str(envelope), "--out", str(out),
+                                 "--units", "si"], catch_exceptions=False)
+    assert r.exit_code == 0, r.output
+    assert f"{out}: shortlist of" in r.output
+    import openpyxl
+
+    ws = openpyxl.load_workbook(out)["shortlist"]
+    assert "winding_temperature [K]" in [c.value for c in ws[1]]
+    r = CliRunner().invoke(cli, ["--db", str(demo_db), "select", str(envelope), "--out", str(tmp_path / "p.txt")])
+    assert r.exit_code == 2 and "unknown file extension '.txt'" in r.output and not (tmp_path / "p.txt").exists()

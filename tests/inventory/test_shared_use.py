@@ -24,8 +24,16 @@ def _expected():
     }
 
 
+@pytest.fixture(scope="module")
+def processes():
+    """PROCESSES writer processes and one reader, spawned once for every round."""
+    ctx = mp.get_context("spawn")
+    with ctx.Manager() as manager, ProcessPoolExecutor(PROCESSES + 1, mp_context=ctx) as pool:
+        yield manager, pool
+
+
 @pytest.mark.parametrize("round_", range(ROUNDS))
-def test_concurrent_writers_lose_no_movement(_base, tmp_path, round_):
+def test_concurrent_writers_lose_no_movement(_base, tmp_path, processes, round_):
     import catalog
 
     db = tmp_path / "shared.duckdb"
@@ -34,15 +42,16 @@ def test_concurrent_writers_lose_no_movement(_base, tmp_path, round_):
     cat.stock_receive(workers.R1, 100, "A")
     cat.stock_receive(workers.R2, 100, "A")
     cat.stock_receive(workers.R2, 100, "B")
-    ctx = mp.get_context("spawn")
-    with ctx.Manager() as manager, ProcessPoolExecutor(PROCESSES + 1, mp_context=ctx) as pool:
-        start, stop = manager.Event(), manager.Event()
-        watcher = pool.submit(workers.reader, str(db), start, stop)
-        jobs = [pool.submit(workers.writer, str(db), i, MOVEMENTS, start) for i in range(PROCESSES)]
-        start.set()
+    manager, pool = processes
+    start, stop = manager.Event(), manager.Event()
+    watcher = pool.submit(workers.reader, str(db), start, stop)
+    jobs = [pool.submit(workers.writer, str(db), i, MOVEMENTS, start) for i in range(PROCESSES)]
+    start.set()
+    try:
         written = [job.result() for job in jobs]
+    finally:
         stop.set()
-        reads, bad = watcher.result()
+    reads, bad = watcher.result()
     assert written == [MOVEMENTS] * PROCESSES
     assert bad == [] and reads > 0
     df = cat.stock_list()
@@ -60,9 +69,6 @@ def test_concurrent_writers_lose_no_movement(_base, tmp_path, round_):
 
 def test_a_writer_that_finds_the_file_busy_waits_then_fails_clearly(_base, tmp_path):
     import catalog
-    from click.testing import CliRunner
-
-    from catalog.cli import cli
 
     db = tmp_path / "busy.duckdb"
     shutil.copy(_base, db)
@@ -76,8 +82,6 @@ def test_a_writer_that_finds_the_file_busy_waits_then_fails_clearly(_base, tmp_p
         with pytest.raises(StoreBusy, match=r"the catalogue is busy \(another motorshelf process is using it\); "
                                             r"gave up after 0.3 s"):
             catalog.open(db, wait=0.3).stock_take(workers.R1, 1, person="Mira", project="rover")
-        r = CliRunner().invoke(cli, ["--db", str(db), "stock", "list"], env={"MOTORSHELF_WAIT": ""})
-        assert r.exit_code in (0, 2)  # a CLI read waits its default 30 s: not tested here
     finally:
         release.set()
         holder.join(120)

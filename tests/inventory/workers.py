@@ -27,6 +27,8 @@ def writer(db: str, index: int, n: int, start) -> int:
 
 def reader(db: str, start, stop) -> tuple[int, list]:
     """Read the shelf until ``stop``; returns (reads, inconsistent states seen)."""
+    import time
+
     import catalog
 
     start.wait()
@@ -40,6 +42,7 @@ def reader(db: str, start, stop) -> tuple[int, list]:
         if (r1["reserved"] > r1["on_hand"]).any() or (df["on_hand"] < 0).any():
             bad.append(("balance", r1.to_dict("records")))
         reads += 1
+        time.sleep(0.05)  # leave the writers room; the point is to look in between them
     return reads, bad
 
 
