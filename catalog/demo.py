@@ -88,7 +88,7 @@ _HISTORY = [
     (14, "move", "vaskeline-vk-c2232-12", dict(quantity=2, to_location="Lab 2 / cabinet A / bin 7", person="Mira")),
     (7, "reserve", "brackwater-bs3270-48", dict(quantity=2, project="test rig", person="Edvin")),
     (3, "take", "vaskeline-vk-g22-71", dict(quantity=1, person="Jonas", project="camera mast")),
-    (1, "receive", "kettlebrook-kb205-31-24", dict(quantity=2, location="Workshop / shelf 4 / crate 2", person="Mira",
+    (1, "receive", "kettlebrook-kb205-31-24", dict(quantity=3, location="Workshop / shelf 4 / crate 2", person="Mira",
                                                    reason="spares for the drive wheels")),
 ]
 
@@ -141,6 +141,8 @@ def main(argv=None) -> int:
     else:
         print("files rejected: none")
     print(f"\ntry:  .venv/bin/motorshelf --db {db} list motors")
+    print(f"      .venv/bin/motorshelf --db {db} select queries/drive_wheel.toml")
+    print(f"      .venv/bin/motorshelf --db {db} report queries/drive_wheel.toml --out demo/report.html")
     print(f"      .venv/bin/motorshelf --db {db} stock list --location 'Lab 2'")
     return 0
 

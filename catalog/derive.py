@@ -280,8 +280,30 @@ class Flag:
     residual: float
 
     def __str__(self) -> str:
-        return (f"{self.record_id}: {self.relation}: {self.field} given {self.given_value:.5g}, "
-                f"the other values imply {self.implied_value:.5g} ({self.residual:+.1%}); given {self.given}")
+        return self.describe("datasheet")
+
+    def describe(self, preset: str = "datasheet") -> str:
+        """The flag as one line, values in the display ``preset`` (si, datasheet, imperial)."""
+        def show(name, value):
+            from .fields import fields_for
+            from .present import display_value
+
+            f = fields_for("motor").get(name)
+            if f is None or f.dimension is None:
+                return f"{value:.5g}"
+            v, label = display_value(value, f.dimension, preset, field=f)
+            return f"{v:.5g} {label}".strip()
+
+        parts = []
+        for item in self.given.split(", ") if self.given else []:
+            name, _, value = item.partition("=")
+            try:
+                parts.append(f"{name} {show(name, float(value))}")
+            except ValueError:
+                parts.append(item)
+        return (f"{self.record_id}: {self.relation}: {self.field} given {show(self.field, self.given_value)}, "
+                f"the other values imply {show(self.field, self.implied_value)} ({self.residual:+.1%}); "
+                f"given {', '.join(parts)}")
 
 
 def residuals(columns: dict, text_columns: dict | None = None, n: int | None = None):

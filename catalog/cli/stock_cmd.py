@@ -312,7 +312,8 @@ def history_cmd(obj: Context, record_id, show_all, fmt):
                f"last changed {when(rec['updated_at'])} by batch {rec['updated_batch']} ({rec['updated_kind']}"
                + (f": {rec['updated_files']}" if rec["updated_files"] else "") + ")")
     if df.empty:
-        click.echo("  no value was changed since" + ("" if show_all else " (--all also shows values written again unchanged)"))
+        hint = "" if show_all else " (--all also shows values written again unchanged)"
+        click.echo("  no value was changed since" + hint)
         return
 
     def shown(num, text, raw, unit, origin):

@@ -75,11 +75,14 @@ def _read_csv(path: Path, source: str, header_row: int = 1) -> list[RawTable]:
         delimiter = ";"
     elif first.count("\t") > first.count(","):
         delimiter = "\t"
-    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter)
+    # strict: a quote that is never closed is an error, not a cell swallowing the rest of the file
+    reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, strict=True)
     headers: list[str] | None = None
     rows, numbers, extra = [], [], []
+    start = 1  # first line of the current record (a quoted cell may span lines)
     try:
         for lineno, cells in enumerate(reader, start=1):
+            row, start = start, reader.line_num + 1
             if lineno < header_row:
                 continue
             if headers is None:
@@ -88,12 +91,15 @@ def _read_csv(path: Path, source: str, header_row: int = 1) -> list[RawTable]:
             if not any(c.strip() for c in cells):
                 continue
             if len(cells) > len(headers) and any(c.strip() for c in cells[len(headers):]):
-                extra.append(Problem(source, reader.line_num, None,
+                extra.append(Problem(source, row, None,
                                      f"{len(cells)} cells, expected at most {len(headers)} (one per column); "
                                      f"quote a cell that contains the delimiter {delimiter!r}"))
             rows.append(cells)
-            numbers.append(reader.line_num)
+            numbers.append(row)
     except csv.Error as exc:
+        if "unexpected end of data" in str(exc):
+            raise _fail(source, "a quoted cell is never closed, expected a closing quote (\")",
+                        row=start) from None
         raise _fail(source, f"not valid CSV ({exc})", row=reader.line_num) from None
     if not headers or not any(headers):
         raise _header_missing(source, header_row)

@@ -169,7 +169,8 @@ def take(store, record_id=None, quantity=None, location=None, condition=None, pe
             if q > item["available"]:
                 held = f", {item['reserved']} reserved for others" if item["reserved"] else ""
                 raise InputError(f"cannot take {q} x {record_id} from {item['location']!r} ({item['condition']}): "
-                                 f"{item['available']} available ({item['on_hand']} on hand{held}); nothing was changed")
+                                 f"{item['available']} available ({item['on_hand']} on hand{held}); "
+                                 "nothing was changed")
             dr = 0
         if serials:
             full = one(con.execute("SELECT serial_numbers, location FROM stock_items WHERE item_id = ?",

@@ -183,7 +183,8 @@ def _ensure_items(con, batch, frame):
     con.execute(
         "INSERT INTO stock_items SELECT nextval('stock_item_seq'), w.record_id, coalesce((SELECT min_by(k.location, "
         "k.item_id) FROM stock_items k WHERE lower(k.location) = lower(w.location)), w.location), w.condition, "
-        "NULL, NULL, CAST(now() AS TIMESTAMP), ? FROM wanted_items w WHERE NOT EXISTS (SELECT 1 FROM stock_items i WHERE "
+        "NULL, NULL, CAST(now() AS TIMESTAMP), ? FROM wanted_items w "
+        "WHERE NOT EXISTS (SELECT 1 FROM stock_items i WHERE "
         "i.record_id = w.record_id AND lower(i.location) = lower(w.location) AND i.condition = w.condition)", [batch])
     rows = con.execute(
         "SELECT w.record_id, lower(w.location), w.condition, i.item_id, i.location FROM wanted_items w "

@@ -213,8 +213,7 @@ def _periodic_peak_fast(durations, currents, r_amb, slope, rth1, rth2, cw, ch):
     i2 = np.square(np.asarray(currents, dtype=float).T)  # (S, B)
     n_seg, size = i2.shape
     g = i2 * slope
-    m12 = 1.0 / (rth1 * cw)
-    m21 = 1.0 / (rth1 * ch)
+    m12, m21 = 1.0 / (rth1 * cw), 1.0 / (rth1 * ch)
     m22 = -(1.0 / rth1 + 1.0 / rth2) / ch
     m11 = (g - 1.0 / rth1) / cw
     u1 = i2 * (r_amb / cw)
@@ -223,8 +222,7 @@ def _periodic_peak_fast(durations, currents, r_amb, slope, rth1, rth2, cw, ch):
     lam2 = (m11 + m22) * 0.5 - s
     lam1 = ((1.0 - g * (rth1 + rth2)) / (rth1 * rth2 * cw * ch)) / lam2
     delta = 2.0 * s
-    k11 = m11 - lam2
-    k22 = m22 - lam2
+    k11, k22 = m11 - lam2, m22 - lam2
     z1 = lam1 * d
     overflow = np.any(z1 > _OVERFLOW_EXPONENT, axis=0)
     np.minimum(z1, _OVERFLOW_EXPONENT, out=z1)
@@ -236,12 +234,8 @@ def _periodic_peak_fast(durations, currents, r_amb, slope, rth1, rth2, cw, ch):
     # (e^{λ1 t} − e^{λ2 t})/Δ = e^{λ2 t}·expm1(Δt)/Δ, without overflow for large Δt
     p = np.where(dd < 1.0, e2 * np.expm1(np.minimum(dd, 1.0)), np.exp(z1) - e2) / delta
     phi1 = (h1 - h2) / delta
-    e11 = e2 + p * k11
-    e12 = p * m12
-    e21 = p * m21
-    e22 = e2 + p * k22
-    c1 = (h2 + phi1 * k11) * u1
-    c2 = phi1 * m21 * u1
+    e11, e12, e21, e22 = e2 + p * k11, p * m12, p * m21, e2 + p * k22
+    c1, c2 = (h2 + phi1 * k11) * u1, phi1 * m21 * u1
     a11, a12, a21, a22 = e11[0], e12[0], e21[0], e22[0]
     b1, b2 = c1[0], c2[0]
     for k in range(1, n_seg):
@@ -255,8 +249,7 @@ def _periodic_peak_fast(durations, currents, r_amb, slope, rth1, rth2, cw, ch):
     det = (1.0 - a11) * (1.0 - a22) - a12 * a21
     x1 = ((1.0 - a22) * b1 + a12 * b2) / det
     x2 = (a21 * b1 + (1.0 - a11) * b2) / det
-    start1 = np.empty((n_seg + 1, size))
-    start2 = np.empty((n_seg, size))
+    start1, start2 = np.empty((n_seg + 1, size)), np.empty((n_seg, size))
     start1[0] = x1
     for k in range(n_seg):
         start2[k] = x2

@@ -9,7 +9,7 @@ Reason texts are built column-wise with pandas string operations.
 """
 from __future__ import annotations
 
-__all__ = ["CHECKS", "run_checks"]
+__all__ = ["CHECKS", "run_checks", "reason_texts"]
 
 import numpy as np
 import pandas as pd
@@ -58,7 +58,7 @@ def _margin_note(margin, required, pct=True):
     return text.where(pd.Series(need & (np.asarray(margin) >= 0), dtype=bool), "")
 
 
-def run_checks(env, c: dict, r: dict):
+def run_checks(env, c: dict, r: dict, with_texts: bool = True):
     """Margins, failures and reason texts.
 
     Returns
@@ -68,7 +68,9 @@ def run_checks(env, c: dict, r: dict):
     failed : DataFrame
         One boolean column per check key of :data:`CHECKS`.
     texts : DataFrame
-        One text column per check key (empty where the check passed).
+        One text column per check key (empty where the check passed); empty
+        without ``with_texts`` (the verdicts never depend on the texts, so
+        :func:`reason_texts` builds them later for the rows asked for).
     """
     n = len(c["id"])
     req = env.margins
@@ -78,47 +80,49 @@ def run_checks(env, c: dict, r: dict):
     def put(key, fail, text):
         fail = np.asarray(fail, bool)
         fails[key] = fail
-        texts[key] = pd.Series(text if isinstance(text, pd.Series) else [text] * n).where(fail, "")
+        if with_texts:   # the text is a thunk: built only when asked for
+            text = text()
+            texts[key] = pd.Series(text if isinstance(text, pd.Series) else [text] * n).where(fail, "")
 
     avail = env.available_voltage
     vm = r["voltage_margin"]
     margins["voltage_margin"] = vm
     no_motor = np.isnan(vm)
-    put("motor_data", no_motor, "no motor constants: cannot check voltage (R, Kt or rotor inertia missing)")
+    put("motor_data", no_motor, lambda: "no motor constants: cannot check voltage (R, Kt or rotor inertia missing)")
     put("voltage", ~no_motor & (vm < req["voltage"]),
-        "segment " + _names(env, r["voltage_seg"]) + ": needs " + _f(r["voltage_need"], "{:.1f}") + " V at "
+        lambda: "segment " + _names(env, r["voltage_seg"]) + ": needs " + _f(r["voltage_need"], "{:.1f}") + " V at "
         + _f(r["voltage_speed"] * _RPM, "{:.0f}") + " rpm" + pd.Series(np.where(r["voltage_hot"], " (hot)", " (cold)"))
         + f", has {avail:.1f} V after the drive drop" + _margin_note(vm, req["voltage"]))
     ipk = env.drive_peak_current
     pm = (ipk - r["peak_current"]) / ipk if np.isfinite(ipk) else np.full(n, np.nan)
     margins["peak_current_margin"] = pm
     put("peak_current", np.isfinite(ipk) & (pm < req["current"]),
-        "segment " + _names(env, r["peak_current_seg"]) + ": needs " + _f(r["peak_current"]) + " A"
+        lambda: "segment " + _names(env, r["peak_current_seg"]) + ": needs " + _f(r["peak_current"]) + " A"
         + f", drive gives {ipk:.3g} A peak" + _margin_note(pm, req["current"]))
     icont = env.drive_continuous_current
     rm = (icont - r["rms_current"]) / icont if np.isfinite(icont) else np.full(n, np.nan)
     margins["rms_current_margin"] = rm
     word = "RMS current" if env.mode == "cycle" else "continuous current"
     put("rms_current", np.isfinite(icont) & (rm < req["current"]),
-        word + " " + _f(r["rms_current"]) + f" A, drive gives {icont:.3g} A continuous"
+        lambda: word + " " + _f(r["rms_current"]) + f" A, drive gives {icont:.3g} A continuous"
         + _margin_note(rm, req["current"]))
 
     tw = r["winding_temperature"]
     tm = c["Tmax"] - tw
     margins["temperature_margin"] = tm
-    put("thermal_data", r["thermal_missing"], "no thermal data: cannot check temperature")
+    put("thermal_data", r["thermal_missing"], lambda: "no thermal data: cannot check temperature")
     put("thermal_runaway", r["runaway"] & ~r["thermal_missing"],
-        "thermal runaway: no steady winding temperature at " + _f(r["rms_current"]) + " A RMS")
+        lambda: "thermal runaway: no steady winding temperature at " + _f(r["rms_current"]) + " A RMS")
     put("temperature", np.isfinite(tw) & (tm < req["temperature"]),
-        "winding reaches " + _f(tw - 273.15, "{:.0f}") + " °C, limit " + _f(c["Tmax"] - 273.15, "{:.0f}")
+        lambda: "winding reaches " + _f(tw - 273.15, "{:.0f}") + " °C, limit " + _f(c["Tmax"] - 273.15, "{:.0f}")
         + " °C" + _margin_note(tm, req["temperature"], pct=False))
 
     sm = (c["max_speed"] - r["motor_speed"]) / c["max_speed"]
     margins["motor_speed_margin"] = sm
     no_speed = np.isnan(c["max_speed"])
-    put("speed_data", no_speed, "no motor speed limit: cannot check speed")
+    put("speed_data", no_speed, lambda: "no motor speed limit: cannot check speed")
     put("motor_speed", ~no_speed & (sm < req["speed"]),
-        "segment " + _names(env, r["speed_seg"]) + ": motor at " + _f(r["motor_speed"] * _RPM, "{:.0f}")
+        lambda: "segment " + _names(env, r["speed_seg"]) + ": motor at " + _f(r["motor_speed"] * _RPM, "{:.0f}")
         + " rpm, limit " + _f(c["max_speed"] * _RPM, "{:.0f}") + " rpm" + _margin_note(sm, req["speed"]))
 
     gs = np.where(catalogue, (c["gear_max_speed"] - r["motor_speed"]) / c["gear_max_speed"], np.nan)
@@ -126,15 +130,15 @@ def run_checks(env, c: dict, r: dict):
     gc = np.where(catalogue, (c["gear_cont_torque"] - r["gear_out_rms"]) / c["gear_cont_torque"], np.nan)
     margins.update(gear_speed_margin=gs, gear_peak_torque_margin=gp, gear_continuous_torque_margin=gc)
     no_gear = catalogue & (np.isnan(gs) | np.isnan(gp) | np.isnan(gc))
-    put("gear_data", no_gear, "no gearhead rating: cannot check the gearhead (speed or torque rating missing)")
+    put("gear_data", no_gear, lambda: "no gearhead rating: cannot check the gearhead (speed or torque rating missing)")
     put("gear_speed", catalogue & (gs < req["speed"]),
-        "segment " + _names(env, r["speed_seg"]) + ": gearhead input at " + _f(r["motor_speed"] * _RPM, "{:.0f}")
+        lambda: "segment " + _names(env, r["speed_seg"]) + ": gearhead input at " + _f(r["motor_speed"] * _RPM, "{:.0f}")
         + " rpm, limit " + _f(c["gear_max_speed"] * _RPM, "{:.0f}") + " rpm" + _margin_note(gs, req["speed"]))
     put("gear_peak_torque", catalogue & (gp < req["torque"]),
-        "segment " + _names(env, r["gear_out_seg"]) + ": gearhead output " + _f(r["gear_out_peak"]) + " N·m, "
+        lambda: "segment " + _names(env, r["gear_out_seg"]) + ": gearhead output " + _f(r["gear_out_peak"]) + " N·m, "
         "intermittent rating " + _f(c["gear_peak_torque"]) + " N·m" + _margin_note(gp, req["torque"]))
     put("gear_continuous_torque", catalogue & (gc < req["torque"]),
-        ("RMS" if env.mode == "cycle" else "continuous") + " gearhead output " + _f(r["gear_out_rms"])
+        lambda: ("RMS" if env.mode == "cycle" else "continuous") + " gearhead output " + _f(r["gear_out_rms"])
         + " N·m, continuous rating " + _f(c["gear_cont_torque"]) + " N·m" + _margin_note(gc, req["torque"]))
 
     lim_missing = np.zeros(n, bool)
@@ -144,28 +148,57 @@ def run_checks(env, c: dict, r: dict):
         limit = env.limits.get(f"max_{key}")
         value = c[key]
         if limit is None:
-            put(key, np.zeros(n, bool), "")
+            put(key, np.zeros(n, bool), lambda: "")
             continue
         gap = np.isnan(value)
         lim_missing |= gap
         missing_names = missing_names + np.where(gap, f" {key}", "")
-        put(key, ~gap & (value > limit), key + " " + _f(value * scale, "{:.4g}") + f" {unit} > "
+        put(key, ~gap & (value > limit), lambda: key + " " + _f(value * scale, "{:.4g}") + f" {unit} > "
             + f"{limit * scale:.4g} {unit}".rstrip())
-    put("size_data", lim_missing, "no data for a limit:" + missing_names)
+    put("size_data", lim_missing, lambda: "no data for a limit:" + missing_names)
     for key in ("commutation", "mount"):
         allowed = getattr(env, key)
         if allowed is None:
-            put(key, np.zeros(n, bool), "")
+            put(key, np.zeros(n, bool), lambda: "")
             continue
         bad = ~pd.Series(c[key]).isin(allowed).to_numpy()
-        put(key, bad, key + " " + pd.Series(c[key]).replace("", "unknown") + f" not in {', '.join(allowed)}")
+        put(key, bad, lambda: key + " " + pd.Series(c[key]).replace("", "unknown") + f" not in {', '.join(allowed)}")
 
     frac = [vm, pm, rm, sm, gs, gp, gc, tm / (c["Tmax"] - env.ambient_temperature)]
     stack = np.vstack([np.where(np.isnan(x), np.inf, x) for x in frac])
     smallest = np.min(stack, axis=0)
     margins["smallest_margin"] = np.where(np.isinf(smallest), np.nan, smallest)
     failed = pd.DataFrame(fails)
-    return margins, failed, pd.DataFrame(texts), _notes(c)
+    return margins, failed, pd.DataFrame(texts), (_notes(c) if with_texts else None)
+
+
+def reason_texts(env, c: dict, r: dict, rows) -> tuple:
+    """(failed keys, reasons, notes) as object arrays for the candidate positions ``rows``.
+
+    The checks are row-wise, so running them on the rows asked for gives the
+    same texts as on the whole table, at the cost of those rows only.
+    """
+    rows = np.asarray(rows, dtype=int)
+    take = (lambda d: {k: (v[rows] if isinstance(v, np.ndarray) and v.ndim and len(v) == len(c["id"]) else v)
+                       for k, v in d.items()})
+    _, failed, texts, notes = run_checks(env, take(c), take(r))
+    keys = _join({k: np.where(failed[k].to_numpy(), k, "") for k in failed}, ", ")
+    reasons = _join({k: texts[k].to_numpy(dtype=object) for k in texts}, "; ")
+    return keys, reasons, notes.to_numpy(dtype=object)
+
+
+def _join(columns: dict, sep: str) -> np.ndarray:
+    """Row-wise join of the non-empty strings of several columns, column by column (no row loop)."""
+    out = None
+    for values in columns.values():
+        v = pd.Series(values, dtype=object).fillna("").astype(str)
+        if out is None:
+            out = v
+            continue
+        both = (out != "") & (v != "")
+        out = out + np.where(both, sep, "") + v
+    n = len(next(iter(columns.values()))) if columns else 0
+    return (out if out is not None else pd.Series([""] * n)).to_numpy(dtype=object)
 
 
 def _notes(c):

@@ -30,7 +30,11 @@ depend on each other.  The magnet is taken at the (peak) winding temperature,
 the conservative choice.  A fixed-point iteration T_w → Kt(T_w) → I → T_w
 (the thermal functions already solve R(T_w) exactly) runs until every change
 is below :data:`TOLERANCE_K`; no steady state (``inf``), Kt ≤ 0 or no
-convergence in :data:`MAX_ITERATIONS` is thermal runaway.
+convergence in :data:`MAX_ITERATIONS` is thermal runaway.  The iteration is
+accelerated by secant steps that cannot pass the root (G = F − T is convex),
+starts from an exact lower bound, and a repeated cycle whose RMS lower bound
+already has no fixed point is runaway without any transient
+(:func:`_rms_screen`); only candidates still moving are evaluated again.
 
 Voltage is checked in two corners, cold (winding and magnet at ambient: the
 strongest back-EMF) and hot (converged temperature: highest R, lowest Kt), the
@@ -38,7 +42,10 @@ worse one counts.  Currents are taken hot (largest).
 """
 from __future__ import annotations
 
-__all__ = ["evaluate", "evaluate_all", "CHUNK", "SHORT_PERIOD", "TOLERANCE_K", "MAX_ITERATIONS"]
+__all__ = ["evaluate", "evaluate_all", "CHUNK", "WORKERS", "SHORT_PERIOD", "TOLERANCE_K", "MAX_ITERATIONS"]
+
+import os
+from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
@@ -50,6 +57,8 @@ CHUNK = 16384            #: candidates per chunk [-]
 SHORT_PERIOD = 0.02      #: period/τ_w below which the steady state at RMS current is used [1]
 TOLERANCE_K = 0.01       #: fixed-point convergence of the winding temperature [K]
 MAX_ITERATIONS = 100     #: fixed-point iterations before declaring runaway [-]
+WORKERS = max(1, min(4, os.cpu_count() or 1))  #: chunks evaluated at once (threads) [-]
+_SCREEN_STEPS = 8        # plain iterations of the RMS lower bound (any number keeps it a lower bound)
 FALLBACK_TEMPERATURE = 428.15  #: winding temperature assumed where thermal data is missing [K]
 
 THERMAL_FIELDS = ("Rth1", "Rth2", "Tmax")
@@ -112,6 +121,11 @@ def _solve_temperature(env, c, t_em, missing):
     g_prev = np.full(n, np.nan)
     active = ~missing
     runaway = np.zeros(n, bool)
+    if env.mode == "cycle" and env.repeat and n:
+        start, hopeless = _rms_screen(env, c, t_em)
+        runaway |= active & hopeless
+        active &= ~hopeless
+        tw = np.where(active, start, tw)
     iterations = 0
     while active.any() and iterations < MAX_ITERATIONS:
         iterations += 1
@@ -141,6 +155,39 @@ def _solve_temperature(env, c, t_em, missing):
     tw_eval = np.where(missing | runaway, fallback, tw)
     reported = np.where(missing, np.nan, np.where(runaway, np.inf, tw))
     return tw_eval, reported, runaway
+
+
+def _rms_screen(env, c, t_em):
+    """(lower bound of the fixed point [K], sure runaway [-]) of a repeated cycle, without the transient.
+
+    In the periodic state the mean of θw over a cycle is Rth·mean(P) (average
+    both node equations), P = I²·R(Tw) ≥ I²·R(Ta) because θw ≥ 0 (the network
+    is cooperative, its inputs non-negative), and the peak is at least the
+    mean: F(T) ≥ L(T) = Ta + Rth·R(Ta)·I_rms(T)², exactly also for the
+    short-period steady state.  With k(T) = Kt(T)/Kt = k0 + kb·(T − Ta)
+    (linear), y = T − Ta solves y·k(y)² = a, a = Rth·R(Ta)·I_rms(Ta·Kt)².  For
+    kb < 0, max y·k² over 0 ≤ y < −k0/kb is −4·k0³/(27·kb): above it L,
+    hence F, has no fixed point (sure runaway, no transient needed).
+    Otherwise the plain iterates y ← a/k(y)² rise from 0 towards the smallest
+    root of L, which is below the smallest root of F; a few of them give a
+    start for :func:`_solve_temperature` that is ≤ T* (the secant argument
+    needs only that).
+    """
+    ta = env.ambient_temperature
+    r_amb = resistance_at_temperature(c["R"], ta, c["Tref"])
+    k0 = torque_constant_at_temperature(1.0, ta, c["beta"], c["Tref"])
+    kb = torque_constant_at_temperature(1.0, ta + 1.0, c["beta"], c["Tref"]) - k0
+    i_rms = rms(np.abs(t_em), env.duration) / c["Kt"]
+    a = (c["Rth1"] + c["Rth2"]) * r_amb * i_rms * i_rms
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        bound = np.where(kb < 0.0, -4.0 * k0 ** 3 / (27.0 * kb), np.inf)
+        hopeless = (k0 > 0.0) & (a > bound * (1.0 + 1e-9))
+        y = np.zeros_like(a)
+        for _ in range(_SCREEN_STEPS):
+            k = k0 + kb * y
+            y = np.where(k > 0.0, a / (k * k), y)
+    y = np.where(np.isfinite(y) & ~hopeless, y, 0.0)
+    return ta + y, hopeless
 
 
 def _argmin_take(values):
@@ -242,10 +289,14 @@ def evaluate(env, c: dict, detail: bool = False) -> dict:
 def evaluate_all(env, cand: dict) -> dict:
     """:func:`evaluate` over every candidate, chunk by chunk; (N,) arrays only."""
     total = len(cand["id"])
-    pieces = []
-    for start in range(0, total, CHUNK):
-        part = {k: v[start:start + CHUNK] for k, v in cand.items()}
-        pieces.append(evaluate(env, part))
+    starts = range(0, total, CHUNK)
+    run = (lambda start: evaluate(env, {k: v[start:start + CHUNK] for k, v in cand.items()}))
+    workers = min(len(starts), WORKERS)
+    if workers > 1:   # numpy releases the GIL inside its array loops: chunks run side by side
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            pieces = list(pool.map(run, starts))
+    else:
+        pieces = [run(start) for start in starts]
     if not pieces:
         return {}
     return {k: np.concatenate([p[k] for p in pieces]) for k in pieces[0]}

@@ -15,7 +15,7 @@ import pandas as pd
 
 from ..errors import NotFound
 from .candidates import GEAR_ASSUMED, GEAR_CATALOGUE, GEAR_DIRECT, build_candidates
-from .checks import CHECKS, run_checks
+from .checks import CHECKS, reason_texts, run_checks
 from .envelope import load_envelope
 from .evaluate import evaluate, evaluate_all
 
@@ -54,27 +54,73 @@ class Selection:
         Every failing candidate with its failed checks and their numbers.
     """
 
-    def __init__(self, envelope, candidates: dict, table: pd.DataFrame, top: int):
+    def __init__(self, envelope, candidates: dict, table: pd.DataFrame, top: int, *, lazy=None):
         self.envelope = envelope
         self._cand = candidates
-        self.table = table
-        passed = table[table["passed"]]
-        self.passing = passed
+        self._top = top
+        self._lazy = lazy          # (rows of the table -> DataFrame of the text columns), or None
+        self._table = table
+        self._passing = self._rejected = None
+        passed = table["passed"].to_numpy(dtype=bool)
+        self._passed = passed
+        head = np.flatnonzero(passed)[:top]
         cols = ["rank", "candidate", "motor", "gear", "ratio", "worst_segment", *MARGIN_COLUMNS,
                 "winding_temperature", "rms_current", "peak_current", "energy_per_cycle", "mass",
                 "price", "currency", "pareto", "notes"]
-        self.shortlist = passed.head(top)[cols].reset_index(drop=True)
-        self.rejected = table[~table["passed"]][["candidate", "motor", "gear", "ratio", "failed",
-                                                  "reasons"]].reset_index(drop=True)
+        self.shortlist = self._rows(head)[cols].reset_index(drop=True)
+
+    def _rows(self, rows) -> pd.DataFrame:
+        """Table rows at positions ``rows``, with the text columns (built only for them)."""
+        part = self._table.iloc[rows]
+        if self._lazy is None:
+            return part
+        part = part.copy()
+        for k, v in self._lazy(np.asarray(rows)).items():
+            part[k] = v
+        return part
+
+    @property
+    def table(self) -> pd.DataFrame:
+        """Every candidate with every metric, margin, ``passed``, ``failed``, ``reasons`` and ``notes``.
+
+        The text columns are built on first access (every check is decided
+        without them; ``reason_counts`` and the shortlist never need them).
+        """
+        if self._lazy is not None:
+            self._table = self._rows(np.arange(len(self._table)))
+            self._lazy = None
+        return self._table
+
+    @table.setter
+    def table(self, value):
+        self._table, self._lazy = value, None
+
+    @property
+    def passing(self) -> pd.DataFrame:
+        """The passing candidates in ranking order."""
+        if self._passing is None:
+            self._passing = self._rows(np.flatnonzero(self._passed))
+        return self._passing
+
+    @property
+    def rejected(self) -> pd.DataFrame:
+        """Every failing candidate with its failed checks and their numbers (texts built on first access)."""
+        if self._rejected is None:
+            self._rejected = self._rows(np.flatnonzero(~self._passed))[
+                ["candidate", "motor", "gear", "ratio", "failed", "reasons"]].reset_index(drop=True)
+        return self._rejected
 
     def __repr__(self) -> str:
-        return (f"Selection({self.envelope.name!r}: {len(self.passing)} passing, "
-                f"{len(self.rejected)} rejected)")
+        n_pass = int(self._passed.sum())
+        return (f"Selection({self.envelope.name!r}: {n_pass} passing, "
+                f"{len(self._passed) - n_pass} rejected)")
 
     def reason_counts(self) -> pd.Series:
         """Number of rejected candidates failing each check, most frequent first."""
-        failed = self.table.loc[~self.table["passed"], ["fails_" + k for k in CHECKS]]
-        counts = failed.sum().astype(int)
+        t = self._table
+        rej = ~self._passed
+        counts = pd.Series([int(np.count_nonzero(t["fails_" + k].to_numpy(dtype=bool) & rej)) for k in CHECKS],
+                           dtype=int)
         counts.index = list(CHECKS)
         return counts[counts > 0].sort_values(ascending=False, kind="stable")
 
@@ -88,12 +134,13 @@ class Selection:
         i = ids.index(candidate_id)
         one = {k: v[i:i + 1] for k, v in self._cand.items()}
         d = evaluate(self.envelope, one, detail=True)
-        row = self.table[self.table["candidate"] == candidate_id].iloc[0]
+        pos = np.flatnonzero(self._table["candidate"].to_numpy(dtype=object) == candidate_id)[:1]
+        row = self._rows(pos).iloc[0]
         env = self.envelope
         lines = [f"candidate {candidate_id}",
                  f"  motor {row['motor']}; gear {row['gear']} ({_GEAR_KIND[int(one['kind'][0])]}), ratio "
                  f"{row['ratio']:g}, efficiency {one['eta'][0]:.3g}"]
-        verdict = (f"passes, rank {int(row['rank'])} of {len(self.passing)}" if row["passed"]
+        verdict = (f"passes, rank {int(row['rank'])} of {int(self._passed.sum())}" if row["passed"]
                    else f"rejected: {row['failed']}")
         lines.append(f"  verdict: {verdict}")
         tw = row["winding_temperature"]
@@ -163,7 +210,7 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     table = pd.DataFrame({"candidate": cand["id"], "motor": cand["motor"], "gear": cand["gear"],
                           "ratio": cand["ratio"]})
     if n:
-        margins, failed, texts, notes = run_checks(env, cand, res)
+        margins, failed, _, _ = run_checks(env, cand, res, with_texts=False)
         for k, v in margins.items():
             table[k] = v
         for k in ("winding_temperature", "rms_current", "peak_current", "energy_per_cycle"):
@@ -176,18 +223,23 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
                                axis=0)
         segs = np.vstack([res["voltage_seg"], res["peak_current_seg"], res["speed_seg"]])
         table["worst_segment"] = np.asarray(env.names, dtype=object)[segs[seg_choice, np.arange(n)]]
-        table["notes"] = notes.to_numpy()
+        table["notes"] = None            # text columns: built by the Selection when asked for
         for k in CHECKS:
             table["fails_" + k] = failed[k].to_numpy()
         table["passed"] = ~failed.any(axis=1).to_numpy()
-        table["failed"] = _join_columns({k: np.where(failed[k].to_numpy(), k, "") for k in failed}, ", ")
-        table["reasons"] = _join_columns({k: texts[k].to_numpy(dtype=object) for k in texts}, "; ")
+        table["failed"] = None
+        table["reasons"] = None
     else:
         for k in CHECKS:
             table["fails_" + k] = np.zeros(0, bool)
         table["passed"] = np.zeros(0, bool)
-    table = _rank(table, env)
-    return Selection(env, cand, table, env.top if top is None else int(top))
+    table, pos = _rank(table, env)
+    lazy = None
+    if n:
+        def lazy(rows):
+            keys, reasons, notes = reason_texts(env, cand, res, pos[rows])
+            return {"notes": notes, "failed": keys, "reasons": reasons}
+    return Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy)
 
 
 def _join_columns(columns: dict, sep: str) -> np.ndarray:
@@ -210,7 +262,7 @@ def _rank(table: pd.DataFrame, env) -> pd.DataFrame:
     table["rank"] = np.nan
     table["pareto"] = False
     if "winding_temperature" not in table:
-        return table
+        return table, np.arange(len(table))
     passing = table[table["passed"]]
     cols = [k.lstrip("-") for k in env.rank_keys]
     ascending = [not k.startswith("-") for k in env.rank_keys]
@@ -223,4 +275,5 @@ def _rank(table: pd.DataFrame, env) -> pd.DataFrame:
         table.loc[passing.index, "pareto"] = _pareto(vals)
     ranked = table.loc[order]
     rest = table.drop(index=order)
-    return pd.concat([ranked, rest]).reset_index(drop=True)
+    out = pd.concat([ranked, rest])
+    return out.reset_index(drop=True), out.index.to_numpy()

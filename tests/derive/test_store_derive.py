@@ -148,8 +148,8 @@ def test_cli_check_exit_codes_and_flag_line(tmp_path, write):
     r = run("--db", bad, "check")
     assert r.exit_code == 1, r.output
     assert r.output.splitlines() == [
-        "flag: testwerk-ta-2: stall current = V/R: stall_current given 20, the other values imply 12 (+66.7%); "
-        "given stall_current=20, nominal_voltage=12, terminal_resistance=1"]
+        "flag: testwerk-ta-2: stall current = V/R: stall_current given 20 A, the other values imply 12 A "
+        "(+66.7%); given stall_current 20 A, nominal_voltage 12 V, terminal_resistance 1 Ω"]
     r = run("--db", bad, "check", "--tolerance", "0.7")  # 66.7 % is below 70 %
     assert r.exit_code == 0 and r.output.strip() == "no flags above 70%"
 

@@ -28,7 +28,8 @@ def test_a_reimport_keeps_old_values_with_time_and_batch(cat, write):
     assert st["old_files"].endswith("v1.csv") and st["replaced_by_files"].endswith("v2.csv")
     assert st["replaced_by_kind"] == "import" and st["replaced_at"] is not None
     mass = changed.loc["mass"]  # same SI value, written differently: still a change of the record
-    assert mass["old_value"] == pytest.approx(mass["new_value"]) and (mass["old_raw"], mass["new_raw"]) == ("180", "0.18")
+    assert mass["old_value"] == pytest.approx(mass["new_value"])
+    assert (mass["old_raw"], mass["new_raw"]) == ("180", "0.18")
     assert changed.loc["commutation", ["old_text", "new_text"]].tolist() == ["brushed", "brushless"]
     assert not h.set_index("field").loc["nominal_voltage", "changed"]  # written again unchanged
     assert h.attrs["record"]["created_batch"] == first.batch_id

@@ -43,7 +43,7 @@ def test_every_movement_kind_and_the_quantity_is_the_sum_of_the_ledger(shelf):
     assert lst.loc[lst["condition"] == "new", "serial_numbers"].item() == "S2"
 
 
-def test_a_movement_below_zero_is_refused_and_nothing_changes(shelf, db=None):
+def test_a_movement_below_zero_is_refused_and_nothing_changes(shelf):
     shelf.stock_receive(LIGHT, 2, A)
     before = table_snapshot(shelf.path)
     with pytest.raises(InputError, match=r"cannot take 3 x shelf-light from 'Lab 2 / cabinet A' \(new\): "
