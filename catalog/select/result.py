@@ -256,24 +256,35 @@ def _join_columns(columns: dict, sep: str) -> np.ndarray:
     return (out if out is not None else pd.Series([""] * n)).to_numpy(dtype=object)
 
 
-def _rank(table: pd.DataFrame, env) -> pd.DataFrame:
-    """Add ``rank`` (passing candidates in ranking order) and ``pareto`` columns."""
-    table = table.copy()
+def _rank(table: pd.DataFrame, env) -> tuple:
+    """Add ``rank`` (passing candidates in ranking order) and ``pareto`` columns.
+
+    Returns the table in ranking order (passing first, then the rest in
+    candidate order) and the candidate position of each of its rows.  Only
+    the passing rows are sorted, and the table is reordered by one ``take``.
+    ``table`` is changed in place (``select`` owns it).
+    """
+    n = len(table)
     table["rank"] = np.nan
     table["pareto"] = False
     if "winding_temperature" not in table:
-        return table, np.arange(len(table))
-    passing = table[table["passed"]]
+        return table, np.arange(n)
+    passed = table["passed"].to_numpy(dtype=bool)
+    ix = np.flatnonzero(passed)
     cols = [k.lstrip("-") for k in env.rank_keys]
     ascending = [not k.startswith("-") for k in env.rank_keys]
-    order = passing.sort_values(cols + ["candidate"], ascending=ascending + [True], na_position="last",
-                                kind="mergesort").index
-    table.loc[order, "rank"] = np.arange(1, len(order) + 1)
-    if env.pareto and len(passing):
+    keys = table[cols + ["candidate"]].iloc[ix]
+    keys.index = ix
+    order = keys.sort_values(cols + ["candidate"], ascending=ascending + [True], na_position="last",
+                             kind="mergesort").index.to_numpy()
+    rank = np.full(n, np.nan)
+    rank[order] = np.arange(1, len(order) + 1)
+    table["rank"] = rank
+    if env.pareto and len(ix):
         sign = np.array([-1.0 if k.startswith("-") else 1.0 for k in env.pareto])
-        vals = passing[[k.lstrip("-") for k in env.pareto]].to_numpy(dtype=float) * sign
-        table.loc[passing.index, "pareto"] = _pareto(vals)
-    ranked = table.loc[order]
-    rest = table.drop(index=order)
-    out = pd.concat([ranked, rest])
-    return out.reset_index(drop=True), out.index.to_numpy()
+        vals = table[[k.lstrip("-") for k in env.pareto]].to_numpy(dtype=float)[ix] * sign
+        pareto = np.zeros(n, bool)
+        pareto[ix] = _pareto(vals)
+        table["pareto"] = pareto
+    pos = np.concatenate([order, np.flatnonzero(~passed)])
+    return table.take(pos).reset_index(drop=True), pos
