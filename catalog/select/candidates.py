@@ -147,9 +147,13 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> dict
         g["efficiency"] = np.tile(env.stage_efficiency ** stages, n_motor)
         g["inertia"] = env.gear_inertia
         g["gear"] = np.tile(labels, n_motor)
-        g["kind"], g["suffix"] = GEAR_ASSUMED, "@" + g["gear"]
+        g["kind"] = GEAR_ASSUMED
+        g["suffix"] = np.tile(np.array(["@" + x for x in labels], dtype=object), n_motor)  # 200 strings shared
         parts.append(g)
-    g = pd.concat(parts, ignore_index=True) if parts else pd.DataFrame(columns=_GEAR + ["motor_ix"])
+    if len(parts) == 1:
+        g = parts[0]          # no concatenated copy of a 2M-row frame
+    else:
+        g = pd.concat(parts, ignore_index=True) if parts else pd.DataFrame(columns=_GEAR + ["motor_ix"])
     ix = g["motor_ix"].to_numpy(dtype=int)
     kind = g["kind"].to_numpy(dtype=int)
     geared = kind == GEAR_CATALOGUE

@@ -54,6 +54,7 @@ from ..physics import (energy_per_cycle, periodic_winding_temperature, required_
                        torque_constant_at_temperature, transient_winding_temperature)
 
 CHUNK = 16384            #: candidates per chunk [-]
+BLOCK = 4096             #: candidates per call of the periodic transient kernel (cache-sized) [-]
 SHORT_PERIOD = 0.02      #: period/τ_w below which the steady state at RMS current is used [1]
 TOLERANCE_K = 0.01       #: fixed-point convergence of the winding temperature [K]
 MAX_ITERATIONS = 100     #: fixed-point iterations before declaring runaway [-]
@@ -83,8 +84,9 @@ def _thermal(env, c, current):
     i_rms = rms(i, dur)
     out = steady_winding_temperature(i_rms, *args, ta, c["Tref"])
     long = ~(env.period < SHORT_PERIOD * c["tau_w"])  # the transient only where the cycle is long
-    if long.any():
-        ix = np.flatnonzero(long)
+    ix_all = np.flatnonzero(long)
+    for s in range(0, len(ix_all), BLOCK):  # blocks that stay in cache: the kernel is memory bound
+        ix = ix_all[s:s + BLOCK]
         out[ix] = periodic_winding_temperature(dur, i[ix], c["R"][ix], c["Rth1"][ix], c["Rth2"][ix],
                                                c["tau_w"][ix], c["tau_m"][ix], ta, c["Tref"][ix])
     return out

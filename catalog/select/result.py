@@ -207,32 +207,30 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
         cand["motor_note"] = pd.Series(cand["motor"]).map(motor_notes).fillna("").to_numpy(dtype=object)
     res = evaluate_all(env, cand) if len(cand["id"]) else {}
     n = len(cand["id"])
-    table = pd.DataFrame({"candidate": cand["id"], "motor": cand["motor"], "gear": cand["gear"],
-                          "ratio": cand["ratio"]})
+    cols = {"candidate": cand["id"], "motor": cand["motor"], "gear": cand["gear"], "ratio": cand["ratio"]}
     if n:
         margins, failed, _, _ = run_checks(env, cand, res, with_texts=False)
-        for k, v in margins.items():
-            table[k] = v
+        cols.update(margins)
         for k in ("winding_temperature", "rms_current", "peak_current", "energy_per_cycle"):
-            table[k] = res[k]
+            cols[k] = res[k]
         for k in ("mass", "price", "length", "diameter"):
-            table[k] = cand[k]
-        table["currency"] = cand["currency"]
-        seg_choice = np.argmin(np.vstack([np.nan_to_num(table[c].to_numpy(), nan=np.inf) for c in
+            cols[k] = cand[k]
+        cols["currency"] = cand["currency"]
+        seg_choice = np.argmin(np.vstack([np.nan_to_num(cols[c], nan=np.inf) for c in
                                           ("voltage_margin", "peak_current_margin", "motor_speed_margin")]),
                                axis=0)
         segs = np.vstack([res["voltage_seg"], res["peak_current_seg"], res["speed_seg"]])
-        table["worst_segment"] = np.asarray(env.names, dtype=object)[segs[seg_choice, np.arange(n)]]
-        table["notes"] = None            # text columns: built by the Selection when asked for
-        for k in CHECKS:
-            table["fails_" + k] = failed[k].to_numpy()
-        table["passed"] = ~failed.any(axis=1).to_numpy()
-        table["failed"] = None
-        table["reasons"] = None
+        cols["worst_segment"] = np.asarray(env.names, dtype=object)[segs[seg_choice, np.arange(n)]]
+        cols["notes"] = np.full(n, None, dtype=object)   # text columns: built by the Selection when asked for
+        fails = {"fails_" + k: failed[k].to_numpy() for k in CHECKS}
+        cols.update(fails)
+        cols["passed"] = ~np.logical_or.reduce(list(fails.values()))
+        cols["failed"] = cols["reasons"] = np.full(n, None, dtype=object)
     else:
         for k in CHECKS:
-            table["fails_" + k] = np.zeros(0, bool)
-        table["passed"] = np.zeros(0, bool)
+            cols["fails_" + k] = np.zeros(0, bool)
+        cols["passed"] = np.zeros(0, bool)
+    table = pd.DataFrame(cols, copy=False)   # the arrays are not copied once more
     table, pos = _rank(table, env)
     lazy = None
     if n:
