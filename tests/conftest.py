@@ -7,6 +7,15 @@ from pathlib import Path
 import pytest
 
 
+@pytest.fixture(scope="session", autouse=True)
+def _private_unit_memo(tmp_path_factory):
+    """Each test session gets its own unit-conversion memo (catalog/units/diskcache.py)."""
+    import os
+
+    os.environ["MOTORSHELF_CACHE_DIR"] = str(tmp_path_factory.mktemp("unit-memo"))
+    yield
+
+
 @pytest.fixture
 def db(tmp_path) -> Path:
     return tmp_path / "cat.duckdb"

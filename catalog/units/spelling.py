@@ -387,10 +387,17 @@ def _interpret(spelling: str, dim: Dimension) -> Conversion:
 
 @lru_cache(maxsize=4096)
 def _cached(spelling: str, dimension: str):
+    from . import diskcache
+
+    hit = diskcache.lookup(spelling, dimension)
+    if hit is not None:
+        return Conversion(float(hit[0]), float(hit[1]), hit[2], hit[3], tuple(hit[4]))
     try:
-        return _interpret(spelling, DIMENSIONS[dimension])
+        conv = _interpret(spelling, DIMENSIONS[dimension])
     except UnitError as e:
         return e
+    diskcache.store(spelling, dimension, conv.factor, conv.offset, conv.si_unit, conv.canonical, conv.warnings)
+    return conv
 
 
 def parse_unit(spelling: str, dimension) -> Conversion:
