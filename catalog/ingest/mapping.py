@@ -46,7 +46,8 @@ def load_mapping(path) -> MappingProfile:
     try:
         doc = load_profile(path.read_text(encoding="utf-8-sig"))
     except UnicodeDecodeError as exc:
-        msg = f"byte 0x{exc.object[exc.start]:02x} is not UTF-8, expected UTF-8 text (save the file as UTF-8)"
+        msg = (f"byte 0x{exc.object[exc.start]:02x} is not UTF-8, expected UTF-8 text "
+               "(a Latin-1 or Windows-1252 file? save it as UTF-8)")
         line = exc.object[: exc.start].count(b"\n") + 1
         raise InputError(f"{source}: {msg}", [Problem(source, line, None, msg)]) from None
     except yaml.YAMLError as exc:

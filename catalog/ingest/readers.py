@@ -8,7 +8,7 @@ number of every record in its source, so every later problem can be reported as
 from __future__ import annotations
 
 __all__ = ["RawTable", "read_file", "SUPPORTED_SUFFIXES", "MAX_FILE_BYTES", "MAX_YAML_BYTES",
-           "MAX_XLSX_UNPACKED_BYTES"]
+           "MAX_XLSX_UNPACKED_BYTES", "MAX_CELLS"]
 
 import csv
 import datetime as _dt
@@ -21,9 +21,13 @@ from ..errors import InputError, Problem
 
 SUPPORTED_SUFFIXES = (".csv", ".xlsx", ".json", ".yaml", ".yml")
 #: Files larger than this are refused before reading.  An import holds the whole file,
-#: its SI columns and the rows it writes in memory (one transaction, every row checked
-#: before anything is written): a 20 MB CSV of 100k motors peaks near 1.5 GB.
+#: its SI columns and what it writes in memory (one transaction, every row checked
+#: before anything is written; DuckDB keeps a transaction's rows until COMMIT):
+#: measured peaks are 0.6 GB for 20k motors (4 MB CSV, 17 columns) and 1.8 GB for
+#: 100k motors (20 MB), about 1 kB per cell.  Files bigger than that are split.
 MAX_FILE_BYTES = 24 * 1024 * 1024
+#: Cells (rows x columns) one file may hold, so a file of tiny cells is bounded too.
+MAX_CELLS = 2_000_000
 #: YAML is parsed in pure Python, node by node: about 20x the memory of CSV per byte.
 MAX_YAML_BYTES = 4 * 1024 * 1024
 #: An .xlsx is a zip archive: its unpacked size is what the reader has to parse.
@@ -50,20 +54,27 @@ def _fail(source: str, message: str, row: int | None = None, field: str | None =
     return InputError(f"{source}: {message}", [Problem(source, row, field, message)])
 
 
+def _too_many_cells(source: str, row: int | None) -> InputError:
+    return _fail(source, f"more than {MAX_CELLS} cells, expected at most {MAX_CELLS} "
+                         "(rows x columns) in one file; split it", row=row)
+
+
 def _header_missing(source: str, header_row: int) -> InputError:
     where = "the first row" if header_row == 1 else f"row {header_row}"
     return _fail(source, f"no header row, expected column names in {where}")
 
 
 def _decode(data: bytes, source: str) -> str:
-    if b"\x00" in data[:8192]:
-        raise _fail(source, "binary data (NUL bytes), expected a UTF-8 text file")
+    nul = data.find(b"\x00")
+    if nul >= 0:
+        raise _fail(source, "binary data (a NUL byte), expected a UTF-8 text file",
+                    row=data[:nul].count(b"\n") + 1)
     try:
         return data.decode("utf-8-sig")
     except UnicodeDecodeError as exc:
         line = data[: exc.start].count(b"\n") + 1
         raise _fail(source, f"byte 0x{data[exc.start]:02x} is not UTF-8, expected UTF-8 text "
-                            "(save the file as UTF-8)", row=line) from None
+                            "(a Latin-1 or Windows-1252 file? save it as UTF-8)", row=line) from None
 
 
 def _read_csv(path: Path, source: str, header_row: int = 1) -> list[RawTable]:
@@ -80,9 +91,13 @@ def _read_csv(path: Path, source: str, header_row: int = 1) -> list[RawTable]:
     headers: list[str] | None = None
     rows, numbers, extra = [], [], []
     start = 1  # first line of the current record (a quoted cell may span lines)
+    ncells = 0
     try:
         for lineno, cells in enumerate(reader, start=1):
             row, start = start, reader.line_num + 1
+            ncells += len(cells)
+            if ncells > MAX_CELLS:
+                raise _too_many_cells(source, row)
             if lineno < header_row:
                 continue
             if headers is None:
@@ -116,8 +131,7 @@ def _xlsx_has_formulas(path: Path, source: str) -> bool:
             members = zf.infolist()
             unpacked = sum(m.file_size for m in members)
             if unpacked > MAX_XLSX_UNPACKED_BYTES:
-                raise _fail(source, f"workbook unpacks to {unpacked / 1e6:.0f} MB, expected at most "
-                                    f"{MAX_XLSX_UNPACKED_BYTES / 1e6:.0f} MB; split it")
+                members = []
             for m in members:
                 if not (m.filename.startswith("xl/worksheets/") and m.filename.endswith(".xml")):
                     continue
@@ -129,6 +143,9 @@ def _xlsx_has_formulas(path: Path, source: str) -> bool:
                         tail = chunk[-8:]
     except (zipfile.BadZipFile, zipfile.LargeZipFile, OSError, EOFError, ValueError) as exc:
         raise _fail(source, f"not a readable .xlsx workbook ({type(exc).__name__}: {exc})") from None
+    if unpacked > MAX_XLSX_UNPACKED_BYTES:
+        raise _fail(source, f"workbook unpacks to {unpacked / 1e6:.0f} MB, expected at most "
+                            f"{MAX_XLSX_UNPACKED_BYTES / 1e6:.0f} MB; split it")
     return False
 
 
@@ -181,12 +198,16 @@ def _read_xlsx(path: Path, source: str, sheet: str | None, header_row: int = 1) 
             ws = wb[name]
             headers = None
             rows, numbers = [], []
+            ncells = 0
             for lineno, values in enumerate(ws.iter_rows(values_only=True), start=1):
                 if lineno < header_row:
                     continue
                 if headers is None:
                     headers = ["" if v is None else str(v).strip() for v in values]
                     continue
+                ncells += len(headers)
+                if ncells > MAX_CELLS:
+                    raise _too_many_cells(f"{source}[{name}]", lineno)
                 if all(v is None or (isinstance(v, str) and not v.strip()) for v in values):
                     continue
                 rows.append(list(values))
@@ -273,6 +294,8 @@ def _records_to_tables(doc, source: str) -> list[RawTable]:
             raise _fail(source, "no records, expected a list under 'motors' or 'gearheads'")
     else:
         raise _fail(source, "expected a list of records or a mapping with 'motors'/'gearheads'")
+    if sum(len(rec) if isinstance(rec, dict) else 1 for _, records, _ in groups for rec in records) > MAX_CELLS:
+        raise _too_many_cells(source, None)
     tables = []
     for rtype, records, units in groups:
         label = source if len(groups) == 1 else f"{source}[{'motors' if rtype == 'motor' else 'gearheads'}]"
@@ -281,7 +304,9 @@ def _records_to_tables(doc, source: str) -> list[RawTable]:
         problems = []
         for i, rec in enumerate(records, start=1):
             if not isinstance(rec, dict):
-                raise _fail(source, f"record {i} is a {type(rec).__name__}, expected a mapping of field: value", row=i)
+                kind = {str: "text", int: "number", float: "number", bool: "yes/no value", list: "list"}.get(
+                    type(rec), type(rec).__name__)
+                raise _fail(source, f"record {i} is a {kind}, expected a mapping of field: value", row=i)
             for k in getattr(rec, "duplicates", ()):
                 problems.append(Problem(label, i, str(k), f"key {k!r} appears twice in record {i}, expected once"))
             for k in rec:

@@ -125,26 +125,36 @@ class Store:
             try:
                 self._migrate(con)
                 con.execute("BEGIN TRANSACTION")
-            except faults as exc:
+            except (*faults, duckdb.TransactionException) as exc:  # a migration's COMMIT included
                 raise self._write_error(exc) from None
             try:
                 yield con
-                con.execute("COMMIT")
-                committed = True
             except BaseException as exc:
-                try:
-                    con.execute("ROLLBACK")
-                except duckdb.Error:
-                    pass  # already rolled back (a failed COMMIT) or the connection is gone
+                self._rollback(con)
                 if isinstance(exc, faults):
                     raise self._write_error(exc) from None
                 raise
+            try:
+                con.execute("COMMIT")
+            except duckdb.Error as exc:  # any failed COMMIT (WAL or checkpoint not written) rolls back
+                self._rollback(con)
+                raise self._write_error(exc) from None
+            committed = True
         finally:
             try:
                 con.close()
             except duckdb.Error as exc:
                 if committed:
                     raise self._write_error(exc, committed=True) from None
+
+    @staticmethod
+    def _rollback(con) -> None:
+        import duckdb
+
+        try:
+            con.execute("ROLLBACK")
+        except duckdb.Error:
+            pass  # already rolled back (a failed COMMIT) or the connection is gone
 
     @contextlib.contextmanager
     def read(self):
