@@ -75,6 +75,7 @@ class Catalog(StockMethods):
 
         with self.store.read() as con:
             try:
+                con.execute("SET enable_external_access = false")  # no COPY TO, no read_csv of other files
                 rel = con.sql(query, params=params) if params else con.sql(query)
                 if rel is None:
                     import pandas as pd

@@ -252,3 +252,14 @@ def test_motors_view_has_one_column_per_field(cat, write):
     cat.import_files([write("a.csv", CANONICAL)])
     assert list(cat.motors().columns) == field_names("motor")
     assert np.isnan(cat.motors()["terminal_inductance"]).all()
+
+
+def test_sql_cannot_touch_other_files(cat, write, tmp_path):
+    cat.import_files([write("a.csv", CANONICAL)])
+    target = tmp_path / "leak.csv"
+    with pytest.raises(InputError):
+        cat.sql(f"COPY (SELECT * FROM motors) TO '{target}'")
+    assert not target.exists()
+    other = write("other.csv", "a,b\n1,2\n")
+    with pytest.raises(InputError):
+        cat.sql(f"SELECT * FROM read_csv('{other}')")

@@ -1,7 +1,8 @@
 """Run ``motorshelf ARGS`` and say on stdout when the write transaction begins.
 
-Used by test_kill.py: the parent waits for ``WRITE-OPEN`` and then kills this process
-at a random moment of the write.  Not a test module (no ``test_`` prefix).
+Used by test_kill.py: the parent waits for ``WRITE-OPEN`` (the transaction opens) or
+``WRITE-BODY`` (everything is written, COMMIT comes next) and then kills this process
+after a random delay.  Not a test module (no ``test_`` prefix).
 """
 from __future__ import annotations
 
@@ -22,6 +23,7 @@ def main(argv: list[str]) -> None:
         print(f"WRITE-OPEN {time.monotonic() - start:.3f}", flush=True)
         with original(self) as con:
             yield con
+            print(f"WRITE-BODY {time.monotonic() - start:.3f}", flush=True)  # COMMIT comes next
         print(f"WRITE-DONE {time.monotonic() - start:.3f}", flush=True)
 
     Store.write = write

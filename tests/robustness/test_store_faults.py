@@ -43,9 +43,9 @@ def big_file(path, rows: int):
     return path
 
 
-# 5k rows go to the write-ahead log, which cannot grow past the limit (the COMMIT fails);
+# 2k rows go to the write-ahead log, which cannot grow past the limit (the COMMIT fails);
 # 20k rows are written to the file itself, which cannot grow (the checkpoint fails)
-@pytest.mark.parametrize("rows, limit", [(5_000, 64 * 1024), (20_000, None)], ids=["log", "file"])
+@pytest.mark.parametrize("rows, limit", [(2_000, 16 * 1024), (20_000, None)], ids=["log", "file"])
 def test_disk_full_during_an_import(prefilled, template_snapshot, tmp_path, rows, limit):
     data = big_file(tmp_path / "big.csv", rows)
     limit = limit or prefilled.stat().st_size
