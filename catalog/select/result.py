@@ -240,20 +240,6 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     return Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy)
 
 
-def _join_columns(columns: dict, sep: str) -> np.ndarray:
-    """Row-wise join of the non-empty strings of several columns, column by column (no row loop)."""
-    out = None
-    for values in columns.values():
-        v = pd.Series(values, dtype=object).fillna("").astype(str)
-        if out is None:
-            out = v
-            continue
-        both = (out != "") & (v != "")
-        out = out + np.where(both, sep, "") + v
-    n = len(next(iter(columns.values()))) if columns else 0
-    return (out if out is not None else pd.Series([""] * n)).to_numpy(dtype=object)
-
-
 def _rank(table: pd.DataFrame, env) -> tuple:
     """Add ``rank`` (passing candidates in ranking order) and ``pareto`` columns.
 
