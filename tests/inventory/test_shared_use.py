@@ -32,9 +32,6 @@ def processes():
         yield manager, pool
 
 
-@pytest.mark.xfail(strict=False, reason=(
-    "seen once in a fresh-clone CI run (round 3 of 3): one receive of 3 pieces missing from the "
-    "final quantity although every writer reported success; under investigation, see the open shelf issue"))
 @pytest.mark.parametrize("round_", range(ROUNDS))
 def test_concurrent_writers_lose_no_movement(_base, tmp_path, processes, round_):
     import catalog
@@ -68,6 +65,42 @@ def test_concurrent_writers_lose_no_movement(_base, tmp_path, processes, round_)
     sums = cat.sql("SELECT record_id, location, sum(quantity_change)::INT AS q FROM stock_movements "
                    "GROUP BY ALL ORDER BY ALL")
     assert {(r.record_id, r.location): r.q for r in sums.itertuples()} == {k: v[0] for k, v in _expected().items()}
+
+
+STORE_WRITES = 150  # per writer process
+
+
+@pytest.mark.parametrize("round_", range(2))
+def test_many_short_transactions_at_once_lose_no_row(_base, tmp_path, processes, round_):
+    """The store alone under heavy contention: every committed row is there, no reader sees one vanish.
+
+    Without the catalogue's lock file, DuckDB 2.0 lost a few of every 800 such rows here
+    (a process opening the file while another checkpointed started from a stale header),
+    so this test fails on that race within a round or two.
+    """
+    import catalog
+    from catalog.store import Store
+
+    db = tmp_path / "busy.duckdb"
+    shutil.copy(_base, db)
+    with Store(db).read() as con:
+        before = con.execute("SELECT count(*) FROM batches").fetchall()[0][0]
+    manager, pool = processes
+    start, stop = manager.Event(), manager.Event()
+    reader = pool.submit(workers.batch_reader, str(db), start, stop)
+    writers = [pool.submit(workers.batch_writer, str(db), i, STORE_WRITES, start)
+               for i in range(PROCESSES)]
+    start.set()
+    try:
+        ids = [i for job in writers for i in job.result()]
+    finally:
+        stop.set()
+    reads, bad = reader.result()
+    assert bad == [] and reads > 0
+    assert len(ids) == len(set(ids)) == PROCESSES * STORE_WRITES
+    stored = set(catalog.open(db).sql("SELECT batch_id FROM batches")["batch_id"].tolist())
+    assert len(stored) == before + len(ids)
+    assert set(ids) <= stored, f"committed but missing: {sorted(set(ids) - stored)[:10]}"
 
 
 def test_a_writer_that_finds_the_file_busy_waits_then_fails_clearly(_base, tmp_path):

@@ -54,3 +54,30 @@ def hold_lock(db: str, ready, release) -> None:
     ready.set()
     release.wait(120)
     con.close()
+
+
+def batch_writer(db: str, index: int, n: int, start) -> list[int]:
+    """``n`` one-row transactions straight through the store (no shelf logic); returns the batch ids."""
+    from catalog.store import Store
+
+    start.wait()
+    ids = []
+    for _ in range(n):
+        with Store(db, wait=600).write() as con:
+            ids.append(Store.new_batch(con, "stock", note=f"writer {index}"))
+    return ids
+
+
+def batch_reader(db: str, start, stop) -> tuple[int, list]:
+    """Count batches until ``stop``; returns (reads, counts that went down)."""
+    from catalog.store import Store
+
+    start.wait()
+    reads, last, bad = 0, 0, []
+    while not stop.is_set():
+        with Store(db, wait=600).read() as con:
+            n = con.execute("SELECT count(*) FROM batches").fetchall()[0][0]
+        if n < last:  # a committed row vanished from a later reader's view
+            bad.append((last, n))
+        last, reads = n, reads + 1
+    return reads, bad

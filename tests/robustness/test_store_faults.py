@@ -89,8 +89,8 @@ class FaultyConnection:
 def inject(monkeypatch, fail_on: str, message: str):
     real = Store._connect
 
-    def connect(self, read_only: bool):
-        con = real(self, read_only)
+    def connect(self, read_only: bool, **kw):
+        con = real(self, read_only, **kw)
         return con if read_only else FaultyConnection(con, fail_on, duckdb.IOException(message))
 
     monkeypatch.setattr(Store, "_connect", connect)

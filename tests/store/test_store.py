@@ -336,3 +336,86 @@ def test_reimport_keeps_the_id_and_moves_old_values_to_history(cat, write):
     old = cat.sql("SELECT value_num FROM value_history WHERE field = 'stall_current'").value_num.tolist()
     assert old == [12.0]
     assert cat.motors().set_index("id").loc["testwerk-m-1", "stall_current"] == 8.0
+
+
+# -- the lock file beside the catalogue (catalog/store: FileLock) ------------------------------
+def _other_opening_can_lock(db, exclusive=True) -> bool:
+    """True if a second opening of the lock file gets the lock at once (flock: per opening)."""
+    import time
+
+    from catalog.errors import StoreBusy
+    from catalog.store import FileLock
+
+    lock = FileLock(db)
+    try:
+        lock.acquire(exclusive=exclusive, deadline=time.monotonic(), busy=lambda: StoreBusy("busy"))
+    except StoreBusy:
+        return False
+    lock.release()
+    return True
+
+
+def test_a_writer_holds_the_lock_file_from_open_to_after_close(tmp_path):
+    from catalog.store import Store
+
+    db = tmp_path / "cat.duckdb"
+    store = Store(db)
+    with store.write() as con:
+        Store.new_batch(con, "test")
+        assert (tmp_path / "cat.duckdb.lock").exists()
+        assert not _other_opening_can_lock(db, exclusive=False)  # no reader may open the file now
+    assert _other_opening_can_lock(db)  # closed (and checkpointed): free again
+
+
+def test_a_reader_holds_the_lock_file_only_while_opening(tmp_path):
+    from catalog.store import Store
+
+    db = tmp_path / "cat.duckdb"
+    with Store(db).write() as con:
+        Store.new_batch(con, "test")
+    with Store(db).read() as con:
+        # DuckDB's read lock now keeps writers out; the lock file is free for them to queue on
+        assert _other_opening_can_lock(db)
+        assert con.execute("SELECT count(*) FROM batches").fetchall() == [(1,)]
+
+
+@pytest.mark.parametrize("action", ["read", "write"])
+def test_a_held_lock_file_makes_readers_and_writers_wait_then_fail_clearly(tmp_path, action):
+    import time
+
+    from catalog.errors import StoreBusy
+    from catalog.store import FileLock, Store
+
+    db = tmp_path / "cat.duckdb"
+    with Store(db).write() as con:
+        Store.new_batch(con, "test")
+    held = FileLock(db)
+    held.acquire(exclusive=True, deadline=time.monotonic(), busy=lambda: StoreBusy("busy"))
+    try:
+        t0 = time.monotonic()
+        with pytest.raises(StoreBusy, match=r"cat.duckdb: the catalogue is busy \(another motorshelf process "
+                                            r"is using it\); gave up after 0.3 s, try again when it has finished"):
+            with getattr(Store(db, wait=0.3), action)():
+                pass
+        assert time.monotonic() - t0 >= 0.3
+    finally:
+        held.release()
+    with Store(db).read() as con:  # nothing was changed
+        assert con.execute("SELECT count(*) FROM batches").fetchall() == [(1,)]
+
+
+def test_a_lock_file_that_cannot_be_made_refuses_writes_but_not_reads(tmp_path):
+    from catalog.errors import StoreError
+    from catalog.store import Store
+
+    db = tmp_path / "cat.duckdb"
+    with Store(db).write() as con:
+        Store.new_batch(con, "test")
+    (tmp_path / "cat.duckdb.lock").unlink()
+    (tmp_path / "cat.duckdb.lock").mkdir()  # as a folder without write permission would: no lock file
+    with pytest.raises(StoreError, match=r"cat.duckdb: cannot write the catalogue \(cannot create its lock "
+                                         r"file cat.duckdb.lock: Is a directory\); nothing was changed"):
+        with Store(db).write():
+            pass
+    with Store(db).read() as con:
+        assert con.execute("SELECT count(*) FROM batches").fetchall() == [(1,)]
