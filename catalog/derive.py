@@ -386,11 +386,23 @@ def _ids_frame(record_ids):
     return pd.DataFrame({"record_id": list(record_ids)})
 
 
+def _keep_replaced_derived(con, batch_id: int) -> None:
+    """Move previous derived values that changed or vanished to ``value_history``; drop the copy."""
+    con.execute(
+        "INSERT INTO value_history SELECT p.*, ?, now() FROM previous_derived p WHERE NOT EXISTS ("
+        "SELECT 1 FROM record_values v WHERE v.origin = 'derived' AND v.record_id = p.record_id "
+        "AND v.field = p.field AND v.value_num IS NOT DISTINCT FROM p.value_num "
+        "AND v.relation IS NOT DISTINCT FROM p.relation AND v.inputs IS NOT DISTINCT FROM p.inputs)", [batch_id])
+    con.execute("DROP TABLE previous_derived")
+
+
 def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFAULT_TOLERANCE) -> StoreOutcome:
     """Recompute the derived values and residuals of motors (all, or ``record_ids``).
 
     Runs inside the caller's transaction ``con``.  Previous derived values of those
-    records are replaced; given values are never touched.
+    records are replaced; one that changes or disappears is kept in ``value_history``
+    (replaced by ``batch_id``), so ``motorshelf history`` shows it.  Given values are
+    never touched.
     """
     import pandas as pd
 
@@ -398,8 +410,7 @@ def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFA
     outcome = StoreOutcome()
     n = len(ids)
     # an unchanged derived value keeps the batch that computed it, so deriving twice changes nothing
-    keep = ("CREATE OR REPLACE TEMP TABLE previous_derived AS SELECT record_id, field, value_num, relation, "
-            "inputs, batch_id FROM record_values WHERE origin = 'derived'")
+    keep = "CREATE OR REPLACE TEMP TABLE previous_derived AS SELECT * FROM record_values WHERE origin = 'derived'"
     if record_ids is None:
         con.execute(keep)
         con.execute("DELETE FROM record_values WHERE origin = 'derived'")
@@ -411,7 +422,8 @@ def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFA
         con.execute("DELETE FROM flags WHERE record_id IN (SELECT record_id FROM derive_ids)")
         con.unregister("derive_ids")
     if n == 0:
-        con.execute("DROP TABLE IF EXISTS previous_derived")
+        if record_ids is None:
+            _keep_replaced_derived(con, batch_id)
         return outcome
     result = derive_columns(columns, texts, n)
     frames = []
@@ -446,7 +458,7 @@ def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFA
                     "AND record_values.relation IS NOT DISTINCT FROM p.relation "
                     "AND record_values.inputs IS NOT DISTINCT FROM p.inputs")
         outcome.derived = len(derived)
-    con.execute("DROP TABLE previous_derived")
+    _keep_replaced_derived(con, batch_id)
     frames = []
     for eq, idx, given, implied, res in residuals(columns, texts, n):
         primary = eq.solvers[0].output

@@ -50,3 +50,26 @@ def test_history_of_an_unknown_record(cat, write):
     with pytest.raises(NotFound, match="did you mean hist-h-1"):
         cat.history("hist-h-2")
     assert cat.history("hist-h-1").empty
+
+
+DERIVABLE = """\
+manufacturer,part_number,nominal_voltage [V],terminal_resistance [Ohm],torque_constant [mNm/A]
+Hist Test,H-9,24,2.0,30
+"""
+
+
+def test_a_derived_value_that_changes_is_kept_in_history(cat, write):
+    cat.import_files(write("d.csv", DERIVABLE))
+    cat.derive()
+    assert cat.history("hist-h-9").empty  # deriving again unchanged moves nothing aside
+    # a value derived by an older relation table (simulated): the next derive replaces it
+    with cat.store.write() as con:
+        con.execute("UPDATE record_values SET value_num = 0.031 WHERE record_id = 'hist-h-9' "
+                    "AND field = 'back_emf_constant'")
+    outcome = cat.derive()
+    h = cat.history("hist-h-9").set_index("field")
+    assert list(h.index) == ["back_emf_constant"]
+    row = h.loc["back_emf_constant"]
+    assert row["old_value"] == pytest.approx(0.031) and row["new_value"] == pytest.approx(0.030)
+    assert row["replaced_by_kind"] == "derive" and bool(row["changed"])
+    assert outcome.derived > 0
