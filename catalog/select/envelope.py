@@ -19,6 +19,7 @@ __all__ = ["Envelope", "load_envelope", "envelope_schema", "RANK_KEYS"]
 
 import json
 import math
+import re
 import tomllib
 from dataclasses import dataclass, field
 from functools import lru_cache
@@ -28,6 +29,7 @@ import numpy as np
 
 from ..errors import InputError, Problem
 from ..units import UnitError, dimension_noun, parse_quantity
+from ..units.dimensions import get_dimension
 
 SCHEMA_PATH = Path(__file__).resolve().parents[2] / "schemas" / "envelope.schema.json"
 
@@ -145,6 +147,11 @@ def _schema_problem(err, source) -> Problem:
     if v == "maxItems":
         return Problem(source, None, _path(where), f"has {len(err.instance)} entries, expected at most {val}")
     if v == "type":
+        if "x-dimension" in sch and isinstance(err.instance, (int, float)) and not isinstance(err.instance, bool):
+            dim = get_dimension(sch["x-dimension"])
+            return Problem(source, None, _path(where),
+                           f"{err.instance!r} has no unit, expected {dim.noun} as text with its unit, "
+                           f"such as \"{err.instance} {dim.si_unit}\"")
         want = {"string": "a quantity string with a unit" if "x-dimension" in sch else "a string",
                 "boolean": "true or false", "integer": "a whole number", "number": "a number",
                 "array": "a list", "object": "a table"}
@@ -189,6 +196,10 @@ def _quantities(node, sch, where, source, problems):
         return math.nan
     text = repr(node) if isinstance(node, str) else str(node)
     noun = dimension_noun(dim).split(" ", 1)[1]
+    if dim == "temperature" and value <= 0:
+        problems.append(Problem(source, None, _path(where), f"{text} is {value:.6g} K, at or below absolute "
+                                                            "zero, expected a temperature above 0 K"))
+        return value
     sign = sch.get("x-sign")
     if sign == "positive" and value <= 0:
         word = "zero" if value == 0 else "negative"
@@ -238,6 +249,86 @@ def _contradictions(d, source, problems):
     if not (gear.get("direct", True) or gear.get("catalogue", True) or gear.get("ratios")
             or gear.get("ratio_range")):
         bad("gearing", "no gear option left, expected direct, catalogue, ratios or ratio_range")
+
+
+def _unique_names(d, source, problems):
+    """Segment (or point) names name the segment in every reason: each must be used once."""
+    for key, items in (("points", d.get("points")), ("cycle.segments", d.get("cycle", {}).get("segments"))):
+        first = {}
+        for i, item in enumerate(items or []):
+            name = item.get("name")
+            if name in first:
+                problems.append(Problem(source, None, f"{key}[{i}].name",
+                                        f"{name!r} is already the name of {key}[{first[name]}], "
+                                        "expected a name of its own (reasons name the segment)"))
+            else:
+                first[name] = i
+
+
+def _non_finite(node, where, source) -> list:
+    """A TOML ``nan`` or ``inf`` where a number goes: one problem each."""
+    if isinstance(node, dict):
+        return [p for k, v in node.items() for p in _non_finite(v, where + [k], source)]
+    if isinstance(node, list):
+        return [p for i, v in enumerate(node) for p in _non_finite(v, where + [i], source)]
+    if isinstance(node, float) and not math.isfinite(node):
+        return [Problem(source, None, _path(where), f"{node} is not a finite number, expected a number "
+                                                    "(or leave the key out for its default)")]
+    return []
+
+
+#: Envelopes are a few kilobytes; anything much larger is not one.
+MAX_ENVELOPE_BYTES = 1 << 20
+
+
+def _read_toml(path: Path, source: str) -> dict:
+    """The parsed TOML of an envelope file, or :class:`InputError` with one clear line.
+
+    A UTF-8 byte-order mark is accepted; other encodings, binary data and files
+    too large to be an envelope are refused, as are TOML syntax errors (with the
+    line the parser names).
+    """
+    def refuse(message, line=None):
+        return InputError(f"{source}: {message}", [Problem(source, line, None, message)])
+
+    try:
+        if path.is_dir():
+            raise refuse("is a folder, expected an envelope file (TOML)")
+        size = path.stat().st_size
+        if size > MAX_ENVELOPE_BYTES:
+            raise refuse(f"{size / 2**20:.1f} MiB, expected an envelope of at most {MAX_ENVELOPE_BYTES / 2**20:g} MiB")
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise InputError(f"{source}: no such envelope file",
+                         [Problem(source, None, None, "no such file")]) from None
+    except OSError as exc:
+        raise refuse(f"cannot read the file ({exc.strerror or exc})") from None
+    if raw.startswith(b"\xef\xbb\xbf"):
+        raw = raw[3:]
+    if b"\0" in raw:
+        line = raw[:raw.index(b"\0")].count(b"\n") + 1
+        raise refuse("binary data (a NUL byte), expected a TOML text file", line)
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = raw[:exc.start].count(b"\n") + 1
+        raise refuse(f"byte 0x{raw[exc.start]:02x} is not UTF-8, expected a UTF-8 text file "
+                     "(save the envelope as UTF-8)", line) from None
+    if not text.strip():
+        raise refuse("empty, expected a load envelope (see the examples in queries/)")
+    try:
+        return tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        message = str(exc)
+        match = re.search(r"\s*\(at line (\d+), column (\d+)\)$", message)
+        line = None
+        if match:
+            line = int(match.group(1))
+            message = message[:match.start()] + f" (column {match.group(2)})"
+        elif message.endswith("(at end of document)"):
+            line = text.count("\n") + 1
+            message = message[:-len("(at end of document)")].rstrip() + " (at the end of the file)"
+        raise refuse(f"not valid TOML: {message[:1].lower() + message[1:]}", line) from None
 
 
 def _stage_count(ratio: float) -> int:
@@ -301,26 +392,24 @@ def load_envelope(envelope, source: str | None = None) -> Envelope:
     if isinstance(envelope, (str, Path)):
         path = Path(envelope)
         source = source or str(envelope)
-        try:
-            data = tomllib.loads(path.read_text(encoding="utf-8"))
-        except FileNotFoundError:
-            raise InputError(f"{source}: no such envelope file",
-                             [Problem(source, None, None, "no such file")]) from None
-        except tomllib.TOMLDecodeError as exc:
-            raise InputError(f"{source}: not valid TOML",
-                             [Problem(source, None, None, f"not valid TOML: {exc}")]) from None
+        data = _read_toml(path, source)
     elif isinstance(envelope, dict):
         source, data = source or "envelope", envelope
     else:
         raise TypeError("envelope must be a path, a dict or an Envelope")
     schema = envelope_schema()
+    problems = _non_finite(data, [], source)
     errors = sorted(Draft202012Validator(schema).iter_errors(data), key=lambda e: list(map(str, e.absolute_path)))
-    problems = [_schema_problem(e, source) for e in errors]
+    for err in errors:
+        problem = _schema_problem(err, source)
+        if problem not in problems:  # two rules can say the same thing of one key
+            problems.append(problem)
     if problems:
         raise InputError(f"{source}: {len(problems)} problem(s) in the envelope", problems)
     d = _quantities(copy.deepcopy(data), schema, [], source, problems)
     d["_raw"] = data
     _contradictions(d, source, problems)
+    _unique_names(d, source, problems)
     if problems:
         raise InputError(f"{source}: {len(problems)} problem(s) in the envelope", problems)
     return _build(d, data, source)

@@ -25,9 +25,23 @@ def _validate_args(folder: Path, spec: dict, db: Path) -> list:
     return args
 
 
-#: runner name (``runner:`` of an expected.yaml) -> (command, matching validate command or None).
-#: The selection and stock engineers add "select" and "stock" here with their corpora.
-RUNNERS = {"import": (_import_args, _validate_args)}
+def _select_args(folder: Path, spec: dict, db: Path) -> list:
+    return ["--db", db, "select", folder / spec["file"]]
+
+
+def _stock_import_args(folder: Path, spec: dict, db: Path) -> list:
+    return ["--db", db, "stock", "import", folder / spec["file"]]
+
+
+def _stock_count_args(folder: Path, spec: dict, db: Path) -> list:
+    """A count without --apply reads the file as an import does and must find the same problems."""
+    return ["--db", db, "stock", "count", folder / spec["file"]]
+
+
+#: runner name (``runner:`` of an expected.yaml) -> (command, matching check command or None).
+RUNNERS = {"import": (_import_args, _validate_args),
+           "select": (_select_args, None),
+           "stock": (_stock_import_args, _stock_count_args)}
 
 
 def _areas():

@@ -261,3 +261,32 @@ def test_keep_valid_keeps_good_rows_of_a_file_with_reader_problems(prefilled, tm
         rows = [(r["source_row"], r["part_number"], r["reasons"]) for r in csv.DictReader(fh)]
     assert rows == [("3", "K-2", "4 cells, expected at most 3 (one per column); quote a cell that contains "
                                  "the delimiter ','")]
+
+
+# -- envelopes too large or not files (the committed ones are in tests/bad_inputs/envelope) -----
+def test_an_envelope_of_megabytes_is_refused_before_parsing(prefilled, template_snapshot, tmp_path):
+    big = tmp_path / "huge.toml"
+    with big.open("w", encoding="utf-8") as fh:  # a valid start, then 2 MB of comments
+        fh.write('name = "huge"\n[supply]\nnominal_voltage = "24 V"\n')
+        for _ in range(40_000):
+            fh.write("# " + "x" * 48 + "\n")
+    result = run_cli("--db", prefilled, "select", big)
+    assert_clean_failure(result)
+    size = big.stat().st_size / 2**20
+    assert error_lines(result) == [f"{big}: {size:.1f} MiB, expected an envelope of at most 1 MiB"]
+    assert table_snapshot(prefilled) == template_snapshot
+
+
+def test_an_envelope_that_is_a_folder(prefilled, template_snapshot, tmp_path):
+    folder = tmp_path / "axis.toml"
+    folder.mkdir()
+    result = run_cli("--db", prefilled, "select", folder)
+    assert_clean_failure(result)  # the command line refuses it before the loader sees it
+    assert f"File '{folder}' is a directory" in result.output
+    assert table_snapshot(prefilled) == template_snapshot
+    from catalog.errors import InputError
+    from catalog.select import load_envelope
+
+    with pytest.raises(InputError) as info:  # and so does the Python API
+        load_envelope(folder)
+    assert [str(p) for p in info.value.problems] == [f"{folder}: is a folder, expected an envelope file (TOML)"]
