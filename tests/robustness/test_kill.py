@@ -1,5 +1,6 @@
-"""Faults: a large import killed (SIGKILL) at random moments leaves a catalogue that opens,
-holds together and holds the whole batch or none of it."""
+"""Faults: a large import, a run of stock movements and a stock import killed (SIGKILL) at
+random moments leave a catalogue that opens, holds together and holds each batch whole or
+not at all."""
 from __future__ import annotations
 
 import os
@@ -136,3 +137,112 @@ def test_sigkill_during_a_large_import_keeps_the_catalogue_whole(prefilled, tmp_
     proc.communicate()
     assert proc.returncode == 0
     assert fingerprint(db)["records"][0] == states[outcomes[-1]]["records"][0] + 1
+
+
+# -- stock movements and a stock import killed --------------------------------------------------
+STOCK_WORKER = Path(__file__).with_name("kill_stock_worker.py")
+STOCK_OPS, STOCK_KILLS, STOCK_IMPORT_KILLS, STOCK_IMPORT_ROWS = 40, 8, 4, 3000
+
+
+def shelf_state(db: Path) -> dict:
+    """Quantities on hand per location of the worker's record, after an integrity check:
+    every movement has its item and batch, every batch its complete movements (a move's
+    two rows sum to zero), nothing on hand is negative."""
+    import catalog
+
+    from tests.robustness.kill_stock_worker import RECORD
+
+    cat = catalog.open(db, wait=5)
+    checks = cat.sql(
+        "SELECT (SELECT count(*) FROM stock_movements m LEFT JOIN stock_items i USING (item_id) "
+        "WHERE i.item_id IS NULL) AS without_item, "
+        "(SELECT count(*) FROM stock_movements m LEFT JOIN batches b USING (batch_id) "
+        "WHERE b.batch_id IS NULL) AS without_batch, "
+        "(SELECT count(*) FROM (SELECT batch_id FROM stock_movements WHERE kind LIKE 'move-%' "
+        "GROUP BY batch_id HAVING sum(quantity_change) <> 0 OR count(*) <> 2)) AS broken_moves, "
+        "(SELECT count(*) FROM stock WHERE on_hand < 0 OR reserved > on_hand) AS negative")
+    assert checks.iloc[0].tolist() == [0, 0, 0, 0], checks.iloc[0].to_dict()
+    df = cat.stock_list(include_empty=True)
+    df = df[df["id"] == RECORD]
+    return {loc: int(q) for loc, q in zip(df["location"], df["on_hand"])}
+
+
+def test_sigkill_during_stock_movements_keeps_every_movement_whole(prefilled, tmp_path):
+    from tests.robustness.kill_stock_worker import replay
+
+    rng = random.Random(SEED + 1)
+    t0 = time.monotonic()
+    ref = tmp_path / "reference.duckdb"
+    shutil.copyfile(prefilled, ref)
+    subprocess.run([PYTHON, str(STOCK_WORKER), str(ref), "12"], check=True, capture_output=True)
+    per_op = (time.monotonic() - t0) / 12  # includes the start of the process: a generous span
+    assert {"A": 0, "B": 0, **shelf_state(ref)} == replay(12)
+
+    def one_kill(k: int) -> tuple[int, int]:
+        db = tmp_path / f"shelf{k}.duckdb"
+        shutil.copyfile(prefilled, db)
+        proc = subprocess.Popen([PYTHON, str(STOCK_WORKER), str(db), str(STOCK_OPS)],
+                                stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, text=True)
+        first = proc.stdout.readline()  # the first operation is done: the process is up
+        assert first.startswith("DONE 0"), first
+        time.sleep(rng.uniform(0.0, 8 * per_op))
+        proc.send_signal(signal.SIGKILL)
+        proc.wait()
+        done = 1 + sum(1 for line in proc.stdout if line.startswith("DONE"))
+        proc.stdout.close()
+        got = {"A": 0, "B": 0, **shelf_state(db)}
+        whole = [n for n in (done, done + 1) if got == replay(n)]
+        assert whole, (f"seed {SEED + 1}: kill after {done} reported operations left {got}, expected "
+                       f"{replay(done)} or {replay(done + 1)}")
+        # the killed shelf takes the next movement
+        catalog_ok = subprocess.run([PYTHON, str(STOCK_WORKER), str(db), "1"], capture_output=True)
+        assert catalog_ok.returncode == 0, catalog_ok.stderr[-500:]
+        return done, whole[0]
+
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        outcomes = list(pool.map(one_kill, range(STOCK_KILLS)))
+    in_flight = sum(1 for done, n in outcomes if n == done + 1)
+    print(f"\n{STOCK_KILLS} kills during movements (seed {SEED + 1}): operations done {[d for d, _ in outcomes]}, "
+          f"{in_flight} with the one in flight committed")
+
+
+def test_sigkill_during_a_stock_import_keeps_all_or_nothing(prefilled, tmp_path):
+    data = tmp_path / "shelf.csv"
+    rows = ["id,quantity,location,condition,notes"]
+    rows += [f"shelf-g-{100 * (1 + i % 3)},{1 + i % 5},Store {i // 30} / bin {i % 30},new,row {i}"
+             for i in range(STOCK_IMPORT_ROWS)]
+    data.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    before = fingerprint(prefilled)
+    ref = tmp_path / "reference.duckdb"
+    shutil.copyfile(prefilled, ref)
+    t0 = time.monotonic()
+    proc = subprocess.run([PYTHON, str(STOCK_WORKER), str(ref), "--import", str(data)],
+                          capture_output=True, text=True, check=True)
+    span = time.monotonic() - t0
+    after = fingerprint(ref)
+    assert after["stock_movements"][0] == before["stock_movements"][0] + STOCK_IMPORT_ROWS
+    states = {"before": before, "after": after}
+    rng = random.Random(SEED + 2)
+
+    def one_kill(k: int) -> str:
+        db = tmp_path / f"imported{k}.duckdb"
+        shutil.copyfile(prefilled, db)
+        p = subprocess.Popen([PYTHON, str(STOCK_WORKER), str(db), "--import", str(data)],
+                             stdout=subprocess.PIPE, stderr=subprocess.DEVNULL, text=True)
+        for line in p.stdout:
+            if line.startswith("WRITE-OPEN"):
+                break
+        time.sleep(rng.uniform(0.0, span / 2))
+        p.send_signal(signal.SIGKILL)
+        p.wait()
+        p.stdout.close()
+        shelf_state(db)  # integrity
+        found = fingerprint(db)
+        matches = [name for name, fp in states.items() if fp == found]
+        assert matches, f"seed {SEED + 2}: content is neither before nor after the stock import"
+        return matches[0]
+
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        outcomes = list(pool.map(one_kill, range(STOCK_IMPORT_KILLS)))
+    print(f"\n{STOCK_IMPORT_KILLS} kills during a {STOCK_IMPORT_ROWS}-row stock import: {outcomes}; "
+          f"uninterrupted {span:.1f} s")
