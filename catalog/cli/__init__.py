@@ -32,15 +32,16 @@ def handle_errors(func):
     @functools.wraps(func)
     def wrapper(*args, **kwargs):
         from ..errors import MotorshelfError
+        from .output import echo
 
         try:
             return func(*args, **kwargs)
         except MotorshelfError as exc:
             problems = getattr(exc, "problems", None) or []
             for p in problems:
-                click.echo(f"error: {p}", err=True)
+                echo(f"error: {p}", err=True)
             if not problems or len(problems) > 1:
-                click.echo(f"error: {exc.message}", err=True)
+                echo(f"error: {exc.message}", err=True)
             sys.exit(exc.exit_code)
 
     return wrapper
@@ -68,5 +69,7 @@ def main(argv=None):
     try:
         cli.main(args=argv, prog_name="motorshelf", standalone_mode=True)
     except KeyboardInterrupt:  # pragma: no cover
-        click.echo("error: interrupted", err=True)
+        from .output import echo
+
+        echo("error: interrupted", err=True)
         sys.exit(130)

@@ -6,18 +6,18 @@ import sys
 import click
 
 from . import Context, cli, handle_errors
-from .output import FORMAT_OPTION, UNITS_OPTION, format_number, print_frame
+from .output import FORMAT_OPTION, UNITS_OPTION, format_number, print_frame, echo
 
 
 def _echo_problems(problems, prefix="error"):
     for p in problems:
-        click.echo(f"{prefix}: {p}", err=True)
+        echo(f"{prefix}: {p}", err=True)
 
 
 def _print_report(report, verb: str) -> None:
     for f in report.files:
         state = "ok" if not f.problems else ("rejected" if f.accepted == 0 else f"{len(f.problems)} problem(s)")
-        click.echo(f"{f.source}: {f.record_type or '?'}s, {f.rows} row(s), {f.accepted} {verb}, "
+        echo(f"{f.source}: {f.record_type or '?'}s, {f.rows} row(s), {f.accepted} {verb}, "
                    f"{f.converted} value(s) converted to SI [{state}]")
     _echo_problems(report.warnings, "warning")
 
@@ -41,18 +41,18 @@ def import_cmd(obj: Context, files, mapping, keep_valid, rejects):
     except ImportRejected as exc:
         _print_report(exc.report, "importable")
         _echo_problems(exc.problems)
-        click.echo(f"error: {len(exc.problems)} problem(s); nothing was imported, {cat.path} is unchanged", err=True)
+        echo(f"error: {len(exc.problems)} problem(s); nothing was imported, {cat.path} is unchanged", err=True)
         sys.exit(2)
     _print_report(report, "imported")
     if report.problems:
         _echo_problems(report.problems)
-    click.echo(f"{cat.path}: {report.created} record(s) created, {report.updated} updated, "
+    echo(f"{cat.path}: {report.created} record(s) created, {report.updated} updated, "
                f"{report.values} value(s) stored, {report.converted} converted to SI"
                + (f", {report.derived} derived" if report.derived else ""))
     for flag in report.flags:
-        click.echo(f"flag: {flag}")
+        echo(f"flag: {flag}")
     if report.rejects_file:
-        click.echo(f"{len(report.problems)} problem(s); rejected rows written to {report.rejects_file}")
+        echo(f"{len(report.problems)} problem(s); rejected rows written to {report.rejects_file}")
         sys.exit(2)
 
 
@@ -68,9 +68,9 @@ def validate_cmd(obj: Context, files, mapping):
     _print_report(report, "valid")
     if report.problems:
         _echo_problems(report.problems)
-        click.echo(f"error: {len(report.problems)} problem(s)", err=True)
+        echo(f"error: {len(report.problems)} problem(s)", err=True)
         sys.exit(2)
-    click.echo("all files valid")
+    echo("all files valid")
 
 
 @cli.command("list")
@@ -102,13 +102,13 @@ def show_cmd(obj: Context, record_id, units):
 
     rtype, manufacturer, part_number, values = obj.catalog().record(record_id)
     by_field = {row.field: row for row in values.itertuples(index=False)}
-    click.echo(f"{record_id}  ({rtype}: {manufacturer} {part_number})")
+    echo(f"{record_id}  ({rtype}: {manufacturer} {part_number})")
     for name, f in fields_for(rtype).items():
         if name in ("id", "manufacturer", "part_number"):
             continue
         row = by_field.get(name)
         if row is None:
-            click.echo(f"  {name:<36} -")
+            echo(f"  {name:<36} -")
             continue
         if f.is_numeric:
             v, label = display_value(row.value_num, f.dimension, units, field=f)
@@ -123,10 +123,10 @@ def show_cmd(obj: Context, record_id, units):
             unit = row.raw_unit if isinstance(row.raw_unit, str) and row.raw_unit and row.raw_unit not in raw else ""
             written = f"{raw!r}" + (f" [{unit}]" if unit else "")
             origin = f"given: {written} ({where})"
-        click.echo(f"  {name:<36} {text:<22} {origin}")
+        echo(f"  {name:<36} {text:<22} {origin}")
     flags = obj.catalog().flags(record_id=record_id)
     for flag in flags:
-        click.echo(f"flag: {flag}")
+        echo(f"flag: {flag}")
 
 
 @cli.command("sql")
@@ -149,10 +149,10 @@ def derive_cmd(obj: Context, tolerance):
     """Fill in every motor constant that follows from the given ones, marking it derived."""
     cat = obj.catalog()
     outcome = cat.derive(tolerance=tolerance)
-    click.echo(f"{cat.path}: {outcome.derived} value(s) derived, {len(outcome.flags)} flag(s) "
+    echo(f"{cat.path}: {outcome.derived} value(s) derived, {len(outcome.flags)} flag(s) "
                f"above {tolerance:.0%}")
     for flag in outcome.flags:
-        click.echo(f"flag: {flag}")
+        echo(f"flag: {flag}")
 
 
 @cli.command("check")
@@ -172,9 +172,9 @@ def check_cmd(obj: Context, tolerance, fmt):
     } for f in flags], columns=["id", "relation", "field", "given_si", "implied_si", "residual", "given_values_si"])
     if fmt == "table":
         if not flags:
-            click.echo(f"no flags above {tolerance:.0%}")
+            echo(f"no flags above {tolerance:.0%}")
         for f in flags:
-            click.echo(f"flag: {f}")
+            echo(f"flag: {f}")
     else:
         print_frame(df, fmt)
     sys.exit(1 if flags else 0)

@@ -9,6 +9,7 @@ from pathlib import Path
 import click
 
 from . import Context, cli, handle_errors
+from .output import echo
 
 OUT_UNITS_OPTION = click.option(
     "--units", "units", type=click.Choice(["si", "datasheet", "imperial"]), default="datasheet",
@@ -79,7 +80,7 @@ def export_cmd(obj: Context, kind, out, where, params, units):
     cat = obj.catalog()
     written, count = export_catalogue(cat, kind, path, where=where, params=values, units=units)
     shown = "si (Parquet keeps SI)" if path.suffix.lower() == ".parquet" else units
-    click.echo(f"{written}: {count} {kind} written ({shown} units)")
+    echo(f"{written}: {count} {kind} written ({shown} units)")
 
 
 @cli.command("report")
@@ -108,7 +109,7 @@ def report_cmd(obj: Context, envelope, out, top, plots, units, side):
     sel = cat.select(envelope, top=top)
     write_report(sel, path, units=units, catalog=cat, side=side, plots=plots)
     n_pass = len(sel.passing)
-    click.echo(f"{path}: report of {sel.envelope.name}: {n_pass + len(sel.rejected)} candidate(s), "
+    echo(f"{path}: report of {sel.envelope.name}: {n_pass + len(sel.rejected)} candidate(s), "
                f"{n_pass} pass, {len(sel.shortlist)} on the shortlist")
     sys.exit(0 if n_pass else 1)
 
@@ -136,7 +137,7 @@ def plot_cmd(obj: Context, envelope, out, candidates, top, fmt, units, side):
     paths = write_plots(sel, out, catalog=cat, units=units, side=side, fmt=fmt,
                         candidates=list(candidates) or None)
     for p in paths:
-        click.echo(str(p))
+        echo(str(p))
     if not paths:
-        click.echo("no candidate meets the envelope: nothing to draw")
+        echo("no candidate meets the envelope: nothing to draw")
     sys.exit(0 if paths else 1)

@@ -1,9 +1,10 @@
 """Shared output helpers of the CLI: tables in the terminal, CSV and JSON."""
 from __future__ import annotations
 
-__all__ = ["FORMAT_OPTION", "UNITS_OPTION", "print_frame", "format_number"]
+__all__ = ["FORMAT_OPTION", "UNITS_OPTION", "print_frame", "format_number", "safe_text", "echo"]
 
 import math
+import re
 
 import click
 
@@ -11,6 +12,28 @@ FORMAT_OPTION = click.option("--format", "fmt", type=click.Choice(["table", "csv
                              show_default=True, help="Output format.")
 UNITS_OPTION = click.option("--units", "units", type=click.Choice(["si", "datasheet", "imperial"]),
                             default="datasheet", show_default=True, help="Units to display values in.")
+
+
+#: Characters a terminal acts on rather than shows: C0 controls but tab and newline, DEL, C1
+#: controls (escape sequences start with ESC or CSI), bidirectional overrides and isolates
+#: (they reorder what is shown), line and paragraph separators.
+_TERMINAL_ACTIVE = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\u061c\u200e\u200f\u202a-\u202e"
+                              "\u2066-\u2069\u2028\u2029]")
+
+
+def safe_text(text) -> str:
+    """``text`` with every terminal-active character written as its escape (ESC as ``\\x1b``).
+
+    Supplier text (part numbers, notes) is shown in the terminal through this, so
+    a file can never move the cursor, recolour, clear the screen or reorder what
+    the user reads.  Machine formats (CSV, JSON, exports) keep the text exactly.
+    """
+    return _TERMINAL_ACTIVE.sub(lambda m: m.group().encode("unicode_escape").decode("ascii"), str(text))
+
+
+def echo(message="", **kwargs) -> None:
+    """``click.echo`` of text meant for people, through :func:`safe_text`."""
+    click.echo(safe_text(message), **kwargs)
 
 
 def format_number(value, digits: int = 4) -> str:
@@ -41,11 +64,11 @@ def print_frame(df, fmt: str = "table", title: str | None = None) -> None:
     from rich.table import Table
     from rich.text import Text
 
-    table = Table(title=title, show_lines=False, header_style="bold")
+    table = Table(title=Text(safe_text(title)) if title else None, show_lines=False, header_style="bold")
     for col in df.columns:
         numeric = df[col].dtype.kind in "fiu"
-        table.add_column(Text(str(col).replace(" [", "\n[")), justify="right" if numeric else "left",
+        table.add_column(Text(safe_text(col).replace(" [", "\n[")), justify="right" if numeric else "left",
                          overflow="fold")
     for row in df.itertuples(index=False):
-        table.add_row(*[Text(format_number(v)) for v in row])
+        table.add_row(*[Text(safe_text(format_number(v))) for v in row])
     Console(width=max(100, min(200, 16 * len(df.columns)))).print(table)

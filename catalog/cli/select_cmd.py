@@ -8,7 +8,7 @@ import sys
 import click
 
 from . import Context, cli, handle_errors
-from .output import FORMAT_OPTION, print_frame
+from .output import FORMAT_OPTION, print_frame, echo
 
 
 def display_shortlist(shortlist):
@@ -73,19 +73,19 @@ def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
     cat = obj.catalog()
     sel = cat.select(envelope, top=top, stock=stock)
     if explain:
-        click.echo(sel.explain(explain))
+        echo(sel.explain(explain))
         return
     if out:
         from ..export.selection import write_selection
 
         written = write_selection(sel, out, units=units, catalog=cat)
-        click.echo(f"{written}: shortlist of {len(sel.shortlist)} written ({units} units)", err=fmt != "table")
+        echo(f"{written}: shortlist of {len(sel.shortlist)} written ({units} units)", err=fmt != "table")
     env = sel.envelope
     n_pass, n_rej = len(sel.passing), len(sel.rejected)
     if fmt != "table":
         print_frame(sel.shortlist, fmt)
         sys.exit(0 if n_pass else 1)
-    click.echo(f"envelope {env.name} ({env.source}): {n_pass + n_rej} candidate(s), "
+    echo(f"envelope {env.name} ({env.source}): {n_pass + n_rej} candidate(s), "
                f"{n_pass} pass, {n_rej} rejected")
     if n_pass:
         print_frame(display_shortlist(sel.shortlist), "table",
@@ -93,14 +93,14 @@ def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
                     + {"only": ", stocked parts only", "prefer": ", stocked first"}.get(getattr(sel, "stock_mode", ""), ""))
         for row in sel.shortlist.itertuples(index=False):
             if row.notes:
-                click.echo(f"  note {int(row.rank)}: {row.notes}")
+                echo(f"  note {int(row.rank)}: {row.notes}")
     else:
-        click.echo("no candidate meets the envelope")
+        echo("no candidate meets the envelope")
     counts = sel.reason_counts()
     if len(counts):
         from ..select import CHECKS
 
-        click.echo("rejections per check (a candidate can fail several):")
+        echo("rejections per check (a candidate can fail several):")
         for key, count in counts.items():
-            click.echo(f"  {count:>5}  {key}: {CHECKS[key]}")
+            echo(f"  {count:>5}  {key}: {CHECKS[key]}")
     sys.exit(0 if n_pass else 1)

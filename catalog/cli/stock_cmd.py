@@ -13,7 +13,7 @@ import sys
 import click
 
 from . import Context, cli, handle_errors
-from .output import FORMAT_OPTION, print_frame
+from .output import FORMAT_OPTION, print_frame, echo
 
 _CONDITIONS = click.Choice(["new", "used", "needs-testing", "faulty"])
 _BY = click.option("--by", "person", default=None, metavar="PERSON", help="Who does it (free text).")
@@ -35,7 +35,7 @@ def _where(required: bool = False, default_condition=None):
 
 
 def _done(change) -> None:
-    click.echo(change.message)
+    echo(change.message)
 
 
 @cli.group("stock")
@@ -186,7 +186,7 @@ def reservations_cmd(obj: Context, show_all, project, fmt):
     """List the open reservations (number, record, location, pieces left, project)."""
     df = obj.catalog().stock_reservations(open_only=not show_all, project=project)
     if fmt == "table" and df.empty:
-        click.echo("no open reservations" if not show_all else "no reservations")
+        echo("no open reservations" if not show_all else "no reservations")
         return
     if fmt == "table":
         df = df.assign(reserved_at=df["reserved_at"].dt.strftime("%Y-%m-%d %H:%M"),
@@ -213,7 +213,7 @@ def list_cmd(obj: Context, location, low, show_all, fmt):
             df = df.drop(columns=["record_type", "manufacturer", "part_number", "last_movement"])
         title = f"{len(df)} stock item(s), {int(df['on_hand'].sum()) if len(df) else 0} piece(s)"
     if fmt == "table" and df.empty:
-        click.echo("nothing below its reorder level" if low else "no stock" + (f" at {location!r}" if location else ""))
+        echo("nothing below its reorder level" if low else "no stock" + (f" at {location!r}" if location else ""))
         return
     print_frame(df, fmt, title=title)
 
@@ -228,7 +228,7 @@ def stock_history_cmd(obj: Context, record_id, fmt):
     df = obj.catalog().stock_history(record_id)
     if fmt == "table":
         if df.empty:
-            click.echo(f"no stock movements of {record_id}")
+            echo(f"no stock movements of {record_id}")
             return
         df = df.assign(moved_at=df["moved_at"].dt.strftime("%Y-%m-%d %H:%M")).drop(columns=["batch_id"])
         df = df.drop(columns=[c for c in ("reserved_after", "reservation_id", "serial_numbers")
@@ -250,10 +250,10 @@ def import_cmd(obj: Context, files, person):
         rows, pieces, batch = cat.stock_import(list(files), person=person)
     except ImportRejected as exc:
         for p in exc.problems:
-            click.echo(f"error: {p}", err=True)
-        click.echo(f"error: {exc.message}", err=True)
+            echo(f"error: {p}", err=True)
+        echo(f"error: {exc.message}", err=True)
         sys.exit(2)
-    click.echo(f"{cat.path}: received {pieces} piece(s) in {rows} row(s) of {', '.join(files)} (batch {batch})")
+    echo(f"{cat.path}: received {pieces} piece(s) in {rows} row(s) of {', '.join(files)} (batch {batch})")
 
 
 @stock.command("count")
@@ -274,21 +274,21 @@ def count_cmd(obj: Context, file, apply_, keep_unlisted, person, fmt):
         diff, applied, batch = cat.stock_count(file, apply=apply_, keep_unlisted=keep_unlisted, person=person)
     except ImportRejected as exc:
         for p in exc.problems:
-            click.echo(f"error: {p}", err=True)
-        click.echo(f"error: {exc.message}", err=True)
+            echo(f"error: {p}", err=True)
+        echo(f"error: {exc.message}", err=True)
         sys.exit(2)
     shown = diff.drop(columns=["item_id", "source", "row"])
     if fmt != "table":
         print_frame(shown, fmt)
         return
     if diff.empty:
-        click.echo(f"{file}: the count matches the records")
+        echo(f"{file}: the count matches the records")
         return
     print_frame(shown, "table", title=f"{len(diff)} difference(s) between {file} and the records")
     if applied:
-        click.echo(f"{cat.path}: {len(diff)} adjust movement(s) written (batch {batch})")
+        echo(f"{cat.path}: {len(diff)} adjust movement(s) written (batch {batch})")
     else:
-        click.echo(f"nothing written; `motorshelf stock count {file} --apply` writes these as adjust movements")
+        echo(f"nothing written; `motorshelf stock count {file} --apply` writes these as adjust movements")
 
 
 @cli.command("history")
@@ -307,13 +307,13 @@ def history_cmd(obj: Context, record_id, show_all, fmt):
         print_frame(df, fmt)
         return
     when = lambda t: t.strftime("%Y-%m-%d %H:%M") if t is not None and t == t else "?"  # noqa: E731
-    click.echo(f"{record_id}  ({rec['record_type']}: {rec['manufacturer']} {rec['part_number']})")
-    click.echo(f"  created {when(rec['created_at'])} by batch {rec['created_batch']} ({rec['created_files'] or '-'}); "
+    echo(f"{record_id}  ({rec['record_type']}: {rec['manufacturer']} {rec['part_number']})")
+    echo(f"  created {when(rec['created_at'])} by batch {rec['created_batch']} ({rec['created_files'] or '-'}); "
                f"last changed {when(rec['updated_at'])} by batch {rec['updated_batch']} ({rec['updated_kind']}"
                + (f": {rec['updated_files']}" if rec["updated_files"] else "") + ")")
     if df.empty:
         hint = "" if show_all else " (--all also shows values written again unchanged)"
-        click.echo("  no value was changed since" + hint)
+        echo("  no value was changed since" + hint)
         return
 
     def shown(num, text, raw, unit, origin):
@@ -325,5 +325,5 @@ def history_cmd(obj: Context, record_id, show_all, fmt):
         old = shown(r.old_value, r.old_text, r.old_raw, r.old_unit, r.old_origin)
         new = shown(r.new_value, r.new_text, r.new_raw, r.new_unit, r.new_origin)
         by = f"{r.replaced_by_kind} {r.replaced_by_files or ''}".strip()
-        click.echo(f"  {when(r.replaced_at)}  {r.field:<34} {old} -> {new}  "
+        echo(f"  {when(r.replaced_at)}  {r.field:<34} {old} -> {new}  "
                    f"[batch {r.old_batch} -> {r.replaced_by_batch}: {by}]")

@@ -20,11 +20,12 @@ The format follows the file extension (:func:`format_for`).
 Text that a spreadsheet would read as a formula (starting with ``=``, ``+``,
 ``-``, ``@``, a tab or a carriage return) is neutralised in the spreadsheet
 formats: a leading apostrophe in CSV, a string cell with the quote-prefix
-flag in XLSX (the text itself unchanged).
+flag in XLSX (the text itself unchanged).  XLSX cannot hold most control
+characters at all: they are written as their escapes (:func:`xlsx_text`).
 """
 from __future__ import annotations
 
-__all__ = ["FORMATS", "format_for", "write_tables", "neutralise", "number_format",
+__all__ = ["FORMATS", "format_for", "write_tables", "neutralise", "xlsx_text", "number_format",
            "FORMULA_PREFIXES"]
 
 import json
@@ -50,6 +51,20 @@ def format_for(path) -> str:
         msg = f"unknown file extension {ext or '(none)'!r}, expected one of {', '.join(FORMATS)}"
         raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
     return FORMATS[ext]
+
+
+def xlsx_text(value) -> str:
+    """``value`` as XLSX cell text: control characters XML 1.0 cannot hold written as escapes.
+
+    A workbook cannot store C0 controls other than tab, newline and carriage
+    return; rather than refuse the whole export, such a character is written
+    as its escape (``\\x1d``), as the terminal shows it.  Line breaks are written
+    as newlines (a reader of the XML would turn a carriage return into one anyway).
+    """
+    from openpyxl.cell.cell import ILLEGAL_CHARACTERS_RE
+
+    text = str(value).replace("\r\n", "\n").replace("\r", "\n")
+    return ILLEGAL_CHARACTERS_RE.sub(lambda m: m.group().encode("unicode_escape").decode("ascii"), text)
 
 
 def neutralise(text: str) -> str:
@@ -222,7 +237,7 @@ def _xlsx_sheet(wb, table, used: set) -> None:
                 c.value = bool(v)
                 style_of("bool", c, "General")
             else:
-                text = str(v)
+                text = xlsx_text(v)
                 c.value = text
                 c.data_type = "s"          # never a formula, whatever it starts with
                 quote = text.startswith(FORMULA_PREFIXES)

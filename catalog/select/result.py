@@ -19,6 +19,8 @@ from .checks import CHECKS, reason_texts, run_checks
 from .envelope import load_envelope
 from .evaluate import evaluate, evaluate_all
 
+#: Who makes the parts and their part numbers (to order them); gear columns empty without a catalogue gearhead.
+PART_COLUMNS = ["manufacturer", "part_number", "gear_manufacturer", "gear_part_number"]
 #: Margin columns of the shortlist (fractions; temperature_margin in K).
 MARGIN_COLUMNS = ["voltage_margin", "peak_current_margin", "rms_current_margin", "temperature_margin",
                   "motor_speed_margin", "gear_speed_margin", "gear_peak_torque_margin",
@@ -64,7 +66,7 @@ class Selection:
         passed = table["passed"].to_numpy(dtype=bool)
         self._passed = passed
         head = np.flatnonzero(passed)[:top]
-        cols = ["rank", "candidate", "motor", "gear", "ratio", "worst_segment", *MARGIN_COLUMNS,
+        cols = ["rank", "candidate", "motor", "gear", *PART_COLUMNS, "ratio", "worst_segment", *MARGIN_COLUMNS,
                 "winding_temperature", "rms_current", "peak_current", "energy_per_cycle", "mass",
                 "price", "currency", "pareto", "notes"]
         self.shortlist = self._rows(head)[cols].reset_index(drop=True)
@@ -107,7 +109,7 @@ class Selection:
         """Every failing candidate with its failed checks and their numbers (texts built on first access)."""
         if self._rejected is None:
             self._rejected = self._rows(np.flatnonzero(~self._passed))[
-                ["candidate", "motor", "gear", "ratio", "failed", "reasons"]].reset_index(drop=True)
+                ["candidate", "motor", "gear", *PART_COLUMNS, "ratio", "failed", "reasons"]].reset_index(drop=True)
         return self._rejected
 
     def __repr__(self) -> str:
@@ -230,14 +232,34 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
         for k in CHECKS:
             cols["fails_" + k] = np.zeros(0, bool)
         cols["passed"] = np.zeros(0, bool)
+        for k in PART_COLUMNS:
+            cols[k] = np.zeros(0, dtype=object)
     table = pd.DataFrame(cols, copy=False)   # the arrays are not copied once more
     table, pos = _rank(table, env)
     lazy = None
     if n:
+        parts = _part_names(motors, gearheads)
+
         def lazy(rows):
-            keys, reasons, notes = reason_texts(env, cand, res, pos[rows])
-            return {"notes": notes, "failed": keys, "reasons": reasons}
+            at = pos[rows]
+            keys, reasons, notes = reason_texts(env, cand, res, at)
+            out = {"notes": notes, "failed": keys, "reasons": reasons}
+            for (column, source), names in parts.items():
+                out[column] = pd.Series(cand[source][at]).map(names).to_numpy(dtype=object)
+            return out
     return Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy)
+
+
+def _part_names(motors, gearheads) -> dict:
+    """(column, candidate key) -> {record id: text}: makers and part numbers to order by."""
+    out = {}
+    for frame, key, prefix in ((motors, "motor", ""), (gearheads, "gear", "gear_")):
+        if frame is None or not len(frame):
+            frame = pd.DataFrame(columns=["id", "manufacturer", "part_number"])
+        ids = frame["id"].astype(str)
+        for field in ("manufacturer", "part_number"):
+            out[(prefix + field, key)] = dict(zip(ids, frame[field]))
+    return out
 
 
 def _rank(table: pd.DataFrame, env) -> tuple:

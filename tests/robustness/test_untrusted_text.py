@@ -15,6 +15,8 @@ from hypothesis import HealthCheck, Phase, given, settings
 from hypothesis import strategies as st
 
 import catalog
+from catalog.cli.output import _TERMINAL_ACTIVE as TERMINAL_ACTIVE
+from catalog.cli.output import safe_text
 from tests.robustness.conftest import run_cli
 
 SQLISH = ["'", '"', "''", "';", "; DROP TABLE records; --", "' OR '1'='1", "\\", "$1", "?", "%s", "{0}",
@@ -130,17 +132,43 @@ def test_text_is_stored_and_returned_exactly(tmp_path, empty_db, records, fmt):
     assert queried.exit_code == 0, queried.output
     assert sorted(tuple(r[c] for c in cols) for r in json.loads(queried.stdout)) == sorted(
         tuple(w[c] for c in cols) for w in want)
-    # show prints the record as stored (colour on: click strips nothing)
+    # show prints the record for people: as stored, but every character a terminal would act on
+    # (escape sequences, carriage returns, bidi overrides) written as its escape (colour on: click
+    # strips nothing itself)
     shown = CliRunner().invoke(cli, ["--db", str(db), "show", first], color=True)
     assert shown.exit_code == 0, shown.output
-    assert shown.stdout_bytes.decode().startswith(f"{first}  (motor: {man} {pn})\n")  # .stdout folds \r\n
-    # list prints ids and mounts as stored
+    out = shown.stdout_bytes.decode()
+    assert out.startswith(f"{safe_text(first)}  (motor: {safe_text(man)} {safe_text(pn)})\n")
+    assert not TERMINAL_ACTIVE.search(out)
+    table = CliRunner().invoke(cli, ["--db", str(db), "list", "motors"], color=True)
+    assert table.exit_code == 0 and not TERMINAL_ACTIVE.search(table.stdout_bytes.decode())
+    # list --format json prints ids and mounts exactly as stored
     listed = json.loads(run_cli("--db", db, "list", "motors", "--format", "json").stdout)
     assert sorted(m["mount"] for m in listed) == sorted(w["mount"] for w in want)
     # derive rewrites derived values only: every text stays
     assert run_cli("--db", db, "derive").exit_code == 0
     again = run_cli("--db", db, "sql", f"SELECT {', '.join(cols)} FROM motors ORDER BY id", "--format", "json")
     assert again.stdout == queried.stdout
+
+
+@pytest.mark.parametrize("text, shown", [
+    ("M\x1b[2J-1", "M\\x1b[2J-1"),          # clear screen
+    ("abc\rXYZ", "abc\\rXYZ"),              # overwrite the line
+    ("\u202eevil", "\\u202eevil"),          # right-to-left override
+    ("\x9b31m", "\\x9b31m"),                # C1 control sequence introducer
+    ("a\tb\nc é 中 🙂", "a\tb\nc é 中 🙂"),  # tab, newline and any script stay
+])
+def test_text_for_the_terminal_shows_control_characters_as_escapes(text, shown):
+    assert safe_text(text) == shown
+
+
+@settings(max_examples=200, **_SETTINGS)
+@given(value=st.text(_chars))
+def test_safe_text_leaves_nothing_a_terminal_acts_on(value):
+    out = safe_text(value)
+    assert not TERMINAL_ACTIVE.search(out)
+    if not TERMINAL_ACTIVE.search(value):  # text without them is shown exactly
+        assert out == value
 
 
 @settings(max_examples=40, **_SETTINGS)
@@ -202,3 +230,83 @@ def test_no_sql_is_built_from_text_in_the_import_path(folder):
                 if dynamic and (rel, func.name) not in allowed:
                     bad.append(f"{rel}:{call.lineno} in {func.name}()")
     assert bad == []
+
+
+# -- out again: select and the spreadsheet exports ---------------------------------------------
+_PHYSICS = {"nominal_voltage": "24 V", "terminal_resistance": "2 Ohm", "torque_constant": "30 mNm/A",
+            "no_load_current": "0.05 A", "rotor_inertia": "20 g*cm^2",
+            "thermal_resistance_winding_housing": "3 K/W", "thermal_resistance_housing_ambient": "9 K/W",
+            "thermal_time_constant_winding": "10 s", "thermal_time_constant_motor": "600 s",
+            "max_winding_temperature": "125 degC", "max_speed": "8000 rpm"}
+_POINT_ENVELOPE = """
+name = "untrusted"
+[supply]
+nominal_voltage = "24 V"
+[[points]]
+name = "run"
+kind = "continuous"
+torque = "10 mN*m"
+speed = "1000 rpm"
+[gearing]
+direct = true
+catalogue = false
+"""
+# spreadsheet-safe text must be exact text; XLSX cannot hold C0 controls at all (XML 1.0)
+_FORMULAISH = st.sampled_from(["=1+2", "+A1", "-2+3", "@SUM(A1:A2)", "=HYPERLINK(\"http://x\",\"y\")",
+                               "\t=1", "=cmd|' /C calc'!A0"])
+_CELL = st.one_of(_FORMULAISH, _text(60), st.tuples(_FORMULAISH, _text(20)).map("".join))
+
+
+@settings(max_examples=12, phases=[Phase.explicit, Phase.reuse, Phase.generate], **_SETTINGS)
+@given(texts=st.lists(st.fixed_dictionaries({"manufacturer": _CELL, "part_number": _CELL, "notes": _CELL}),
+                      min_size=1, max_size=3, unique_by=_key))
+def test_selection_and_exports_keep_text_and_never_a_formula(tmp_path, empty_db, texts):
+    """Text that a spreadsheet would run (=, +, -, @ first) goes through import, select and every
+    export: JSON keeps it exactly, CSV puts an apostrophe in front, XLSX writes a text cell with
+    the quote-prefix flag (the text itself unchanged); nothing is ever a formula cell."""
+    import openpyxl
+
+    from catalog.export.writers import FORMULA_PREFIXES, neutralise, xlsx_text
+
+    folder = tmp_path / uuid.uuid4().hex
+    folder.mkdir()
+    db = folder / "text.duckdb"
+    shutil.copyfile(empty_db, db)
+    path = folder / "records.json"
+    path.write_text(json.dumps({"motors": [{**t, **_PHYSICS} for t in texts]}, ensure_ascii=False),
+                    encoding="utf-8")
+    assert run_cli("--db", db, "import", path).exit_code == 0
+    want = {(t["manufacturer"].strip(), t["part_number"].strip()): t["notes"].strip() for t in texts}
+    env = folder / "env.toml"
+    env.write_text(_POINT_ENVELOPE, encoding="utf-8")
+    for name in ("short.xlsx", "short.json"):
+        result = run_cli("--db", db, "select", env, "--out", folder / name)
+        assert result.exit_code in (0, 1), result.output
+    for name in ("motors.xlsx", "motors.csv", "motors.json"):
+        assert run_cli("--db", db, "export", "motors", "--out", folder / name).exit_code == 0
+
+    doc = json.loads((folder / "motors.json").read_text(encoding="utf-8"))
+    assert {(r["manufacturer"], r["part_number"]): r["notes"] for r in doc["records"]} == want
+    with (folder / "motors.csv").open(encoding="utf-8", newline="") as fh:
+        rows = list(csv.DictReader(fh))
+    assert {(r["manufacturer"], r["part_number"]): r["notes"] for r in rows} == {
+        (neutralise(m), neutralise(p)): neutralise(n) for (m, p), n in want.items()}
+
+    def cells(book):
+        for ws in openpyxl.load_workbook(book).worksheets:
+            for row in ws.iter_rows():
+                for c in row:
+                    if isinstance(c.value, str):
+                        assert c.data_type == "s", f"{ws.title}!{c.coordinate} is a {c.data_type} cell"
+                        assert c.quotePrefix == c.value.startswith(FORMULA_PREFIXES) or not \
+                            c.value.startswith(FORMULA_PREFIXES), f"{ws.title}!{c.coordinate} {c.value!r}"
+                        yield c.value
+
+    seen = set(cells(folder / "motors.xlsx"))   # controls XLSX cannot hold are shown as escapes
+    for (m, p), n in want.items():
+        assert {xlsx_text(m), xlsx_text(p), xlsx_text(n)} <= seen
+    seen = set(cells(folder / "short.xlsx"))   # shortlist or rejected sheet: makers and part numbers
+    assert {xlsx_text(t) for pair in want for t in pair} <= seen
+    short = json.loads((folder / "short.json").read_text(encoding="utf-8"))
+    rows = short["records"] + short["tables"]["rejected"]["records"]
+    assert {(r["manufacturer"], r["part_number"]) for r in rows} == set(want)  # JSON: exactly as stored
