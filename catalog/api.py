@@ -54,12 +54,9 @@ class Catalog(StockMethods):
         return validate_files(paths, mapping=mapping)
 
     # -- reading ---------------------------------------------------------------
-    def _view(self, name: str, where: str | None = None):
-        with self.store.read() as con:
-            sql = f"SELECT * FROM {_VIEWS[name]}"
-            if where:
-                sql += f" WHERE {where}"
-            return con.sql(sql + " ORDER BY id").to_arrow_table().to_pandas()
+    def _view(self, name: str):
+        with self.store.read() as con:  # the view name comes from _VIEWS, never from a caller's text
+            return con.sql(f"SELECT * FROM {_VIEWS[name]} ORDER BY id").to_arrow_table().to_pandas()
 
     def motors(self):
         """Every motor as a pandas DataFrame, one SI column per canonical field."""
