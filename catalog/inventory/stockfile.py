@@ -44,21 +44,41 @@ def _key(header: str) -> str:
 
 def _cell(value, kind: str):
     """(value, error) of one cell for a field of JSON type ``kind``; value None = missing."""
-    if value is None or (isinstance(value, float) and value != value) or (isinstance(value, str) and not value.strip()):
+    from ..units import NumberError, parse_number
+
+    if value is None or (isinstance(value, str) and not value.strip()):
         return None, None
+    if isinstance(value, dict):  # a JSON/YAML {value, unit} mapping: stock fields take one plain value
+        keys = ", ".join(repr(str(k)) for k in list(value)[:5])
+        return None, f"a mapping with keys {keys}, expected a single value"
     if kind == "integer":
         if isinstance(value, bool):
-            return None, f"{value!r} is not a whole number, expected a count of pieces"
+            return None, f"{str(value).lower()!r} is not a whole number, expected a count of pieces"
+        text = repr(value) if isinstance(value, float) else str(value).strip()
         try:
-            num = float(str(value).strip()) if isinstance(value, str) else float(value)
-        except ValueError:
-            return None, f"{str(value)!r} is not a whole number, expected a count of pieces"
-        if num != int(num):
-            return None, f"{str(value)!r} is not a whole number, expected a count of pieces"
+            num = parse_number(text)  # strict: thousands separators, decimal commas, nan and inf say so
+        except NumberError as exc:
+            if exc.found != "no number":
+                return None, str(exc)
+            num = None
+        if num is None or num != int(num):
+            return None, f"{text!r} is not a whole number, expected a count of pieces"
         return int(num), None
-    if isinstance(value, float) and value == int(value):
+    if isinstance(value, float) and value.is_integer():
         value = int(value)  # a part number a spreadsheet stored as a number
     return " ".join(str(value).split()), None
+
+
+def _same(a, b) -> bool:
+    """Names equal as the catalogue matches them: case and runs of spaces aside."""
+    return " ".join(str(a).split()).lower() == " ".join(str(b).split()).lower()
+
+
+def _named(part_number, manufacturer) -> str:
+    """How a row names a record, for messages."""
+    if part_number is not None and manufacturer is not None:
+        return f"{part_number!r} of {manufacturer!r}"
+    return f"part number {part_number!r}" if part_number is not None else f"manufacturer {manufacturer!r}"
 
 
 def _check(name, value, spec):
@@ -93,9 +113,19 @@ def _read_one(path, out: list, problems: list) -> None:
                 hint = f"; did you mean {close[0]}?" if close else f"; expected one of {', '.join(STOCK_FIELDS)}"
                 problems.append(Problem(raw.source, raw.header_row, str(h), f"unknown column{hint}"))
             elif key in cols:
-                problems.append(Problem(raw.source, raw.header_row, str(h), f"column {key} appears twice"))
+                first = raw.headers[cols[key]]
+                if raw.header_row is None:  # JSON/YAML: keys, whose order means nothing
+                    what = f"field {key!r} given by two keys ({first!r} and {str(h)!r}), expected one"
+                elif first == h:
+                    what = f"column {str(h)!r} appears twice (columns {cols[key] + 1} and {i + 1}), expected once"
+                else:
+                    what = (f"field {key!r} given by two columns ({cols[key] + 1} {first!r} and {i + 1} "
+                            f"{str(h)!r}), expected one")
+                problems.append(Problem(raw.source, raw.header_row, str(h), what))
             else:
                 cols[key] = i
+        problems.extend(raw.problems)  # cells beyond the header, keys twice in a record, lists as cells
+        read_badly = {(p.row, _key(p.field)) for p in raw.problems if p.field}
         if not raw.rows:
             problems.append(Problem(raw.source, None, None, "no records, expected at least one row"))
         for cells, rowno in zip(raw.rows, raw.row_numbers):
@@ -112,7 +142,8 @@ def _read_one(path, out: list, problems: list) -> None:
                     value = None
                 rec[name] = value
             for name in _SCHEMA.get("required", []):
-                if rec[name] is None and not any(p.row == rowno and p.field == name for p in problems):
+                if rec[name] is None and (rowno, name) not in read_badly and not any(
+                        p.file == raw.source and p.row == rowno and p.field == name for p in problems):
                     problems.append(Problem(raw.source, rowno, name, "missing, expected a value"))
             if rec["id"] is None and (rec["manufacturer"] is None or rec["part_number"] is None):
                 problems.append(Problem(raw.source, rowno, "part_number",
@@ -144,17 +175,33 @@ def read_stock_files(con, paths) -> StockFile:
         con.unregister("stock_keys")
         found = dict(hits)
         frame["record_id"] = [found.get(i) for i in range(len(frame))]
-        named = [r[0] for r in con.execute("SELECT part_number FROM records").fetchall()]
+        catalogue = {rid: (man, pn) for rid, man, pn in
+                     con.execute("SELECT record_id, manufacturer, part_number FROM records").fetchall()}
+        named: dict = {}  # part number -> manufacturers
+        for man, pn in catalogue.values():
+            named.setdefault(pn, []).append(man)
         for r in frame[frame["record_id"].isna()].itertuples(index=False):
             if r.id is None and (r.manufacturer is None or r.part_number is None):
                 continue  # already reported
             if r.id is not None:
-                what, field_ = f"no catalogue record with id {r.id!r}", "id"
+                close = difflib.get_close_matches(r.id, list(catalogue), n=2, cutoff=0.7)
+                hint = f" (close: {', '.join(close)})" if close else ""
+                what, field_ = f"no catalogue record with id {r.id!r}{hint}", "id"
             else:
-                close = difflib.get_close_matches(r.part_number, named, n=2, cutoff=0.7)
+                close = [pn if _same(man, r.manufacturer) else f"{pn} of {man!r}"
+                         for pn in difflib.get_close_matches(r.part_number, list(named), n=2, cutoff=0.7)
+                         for man in named[pn]][:2]
                 hint = f" (close: {', '.join(close)})" if close else ""
                 what, field_ = f"no catalogue record {r.part_number!r} of {r.manufacturer!r}{hint}", "part_number"
             problems.append(Problem(r.source, r.row, field_, what + "; import its datasheet first"))
+        for r in frame[frame["record_id"].notna() & frame["id"].notna()].itertuples(index=False):
+            man, pn = catalogue[r.record_id]  # named by id: a manufacturer or part number beside it must agree
+            if (r.manufacturer is not None and not _same(r.manufacturer, man)) or (
+                    r.part_number is not None and not _same(r.part_number, pn)):
+                problems.append(Problem(r.source, r.row, "id",
+                                        f"id {r.id!r} is {pn!r} of {man!r} but the row names "
+                                        f"{_named(r.part_number, r.manufacturer)}, expected both to name "
+                                        "the same record"))
         frame["location"] = pd.Series([s if not isinstance(s, str) else " ".join(s.split()) for s in frame["location"]],
                                       index=frame.index, dtype=object)
         seen: dict = {}
