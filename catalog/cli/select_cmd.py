@@ -94,6 +94,8 @@ def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
         for row in sel.shortlist.itertuples(index=False):
             if row.notes:
                 echo(f"  note {int(row.rank)}: {row.notes}")
+    elif n_rej == 0:
+        echo(f"no candidate: {cat.path} holds no motors (`motorshelf import FILE` adds datasheets)")
     else:
         echo("no candidate meets the envelope")
     counts = sel.reason_counts()

@@ -94,7 +94,9 @@ def caution_lines(selection, catalog=None) -> list[tuple[str, str]]:
                                 "(envelope housing_cooling_factor)"))
     rows.append(("thermal model", "winding temperature from the two-node thermal network at the envelope's "
                                   "ambient, copper loss only (friction, iron and brush losses not included); "
-                                  "magnet taken at the winding temperature"))
+                                  "resistance and magnet taken at the peak winding temperature all cycle "
+                                  "(conservative: a cycle whose winding cools much between its loads reads "
+                                  "a few per cent of the rise hot)"))
     rows.append(("values", "catalogue values as given or derived (see the provenance sheet); typical values, "
                            "not guaranteed minimums"))
     notes = sorted({n for text in selection.shortlist.get("notes", []) if isinstance(text, str)

@@ -17,17 +17,19 @@ relations        table of derivation relations walked by a derivation engine
 temperature      copper R(T), magnet Kt(T), insulation classes
 thermal          two-node thermal network: steady state, closed forms
 transient        two-node network: exact transient and periodic duty
+network          two-node network under a loss profile; the hot fixed point
 gearing          speed, torque and inertia through a gearhead
 cycle            RMS, mean and energy over duty-cycle segments
 """
 
-from . import (cycle, gearing, inverse_constants, inverse_line, motor,
+from . import (cycle, gearing, inverse_constants, inverse_line, motor, network,
                operating_point, relations, temperature, thermal, transient)
 from .cycle import *  # noqa: F401,F403
 from .gearing import *  # noqa: F401,F403
 from .inverse_constants import *  # noqa: F401,F403
 from .inverse_line import *  # noqa: F401,F403
 from .motor import *  # noqa: F401,F403
+from .network import *  # noqa: F401,F403
 from .operating_point import *  # noqa: F401,F403
 from .relations import *  # noqa: F401,F403
 from .temperature import *  # noqa: F401,F403
@@ -43,6 +45,7 @@ __all__ = [
     *temperature.__all__,
     *thermal.__all__,
     *transient.__all__,
+    *network.__all__,
     *gearing.__all__,
     *cycle.__all__,
 ]

@@ -207,7 +207,9 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     cand = build_candidates(motors, gearheads, env)
     if motor_notes:
         cand["motor_note"] = pd.Series(cand["motor"]).map(motor_notes).fillna("").to_numpy(dtype=object)
-    res = evaluate_all(env, cand) if len(cand["id"]) else {}
+    keys = [k.lstrip("-") for k in list(env.rank_keys) + list(env.pareto or [])]
+    with_energy = "energy_per_cycle" in keys   # otherwise computed for the rows shown only
+    res = evaluate_all(env, cand, energy=with_energy) if len(cand["id"]) else {}
     n = len(cand["id"])
     cols = {"candidate": cand["id"], "motor": cand["motor"], "gear": cand["gear"], "ratio": cand["ratio"]}
     if n:
@@ -232,8 +234,11 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
         for k in CHECKS:
             cols["fails_" + k] = np.zeros(0, bool)
         cols["passed"] = np.zeros(0, bool)
-        for k in PART_COLUMNS:
-            cols[k] = np.zeros(0, dtype=object)
+        for k in PART_COLUMNS + ["worst_segment", "currency", "notes", "failed", "reasons"]:
+            cols[k] = np.zeros(0, dtype=object)   # an empty catalogue: the same columns, no rows
+        for k in MARGIN_COLUMNS + ["winding_temperature", "rms_current", "peak_current", "energy_per_cycle",
+                                   "mass", "price", "length", "diameter"]:
+            cols[k] = np.zeros(0)
     table = pd.DataFrame(cols, copy=False)   # the arrays are not copied once more
     table, pos = _rank(table, env)
     lazy = None
@@ -244,6 +249,10 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
             at = pos[rows]
             keys, reasons, notes = reason_texts(env, cand, res, at)
             out = {"notes": notes, "failed": keys, "reasons": reasons}
+            if not with_energy and len(at):
+                sub = {k: (v[at] if isinstance(v, np.ndarray) and v.shape[:1] == (n,) else v)
+                       for k, v in cand.items()}
+                out["energy_per_cycle"] = evaluate(env, sub)["energy_per_cycle"]
             for (column, source), names in parts.items():
                 out[column] = pd.Series(cand[source][at]).map(names).to_numpy(dtype=object)
             return out
@@ -254,11 +263,11 @@ def _part_names(motors, gearheads) -> dict:
     """(column, candidate key) -> {record id: text}: makers and part numbers to order by."""
     out = {}
     for frame, key, prefix in ((motors, "motor", ""), (gearheads, "gear", "gear_")):
-        if frame is None or not len(frame):
-            frame = pd.DataFrame(columns=["id", "manufacturer", "part_number"])
+        if frame is None or not len(frame) or "id" not in frame:
+            frame = pd.DataFrame(columns=["id"])
         ids = frame["id"].astype(str)
         for field in ("manufacturer", "part_number"):
-            out[(prefix + field, key)] = dict(zip(ids, frame[field]))
+            out[(prefix + field, key)] = dict(zip(ids, frame[field])) if field in frame else {}
     return out
 
 

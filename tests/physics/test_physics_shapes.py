@@ -34,12 +34,14 @@ VALUES = {
     "ratio": 15.0, "efficiency": 0.8, "back_driving_efficiency": 0.7,
     "motor_inertia": 1e-5, "gear_inertia": 2e-6, "load_inertia": 4e-3,
     "load_acceleration": 50.0,
+    "cold_rise": 40.0, "resistance_rise_coefficient": 0.0037, "torque_constant_rise_coefficient": -0.001,
 }
 
 SPECIAL = {  # checked in dedicated tests below
     "magnet_coefficient", "insulation_class_temperature", "relations_for",
     "rms", "time_average", "energy_per_cycle",
     "periodic_winding_temperature", "transient_winding_temperature",
+    "network_segment_maps", "network_peak_rise",
 }
 
 FUNCTIONS = sorted(name for name in ph.__all__

@@ -56,3 +56,13 @@ def test_select_errors_exit_2(demo_catalog, envelope_file):
                                  "--explain", "no-such-motor"])
     assert r.exit_code == 2
     assert r.output.startswith("error: no candidate 'no-such-motor' for this envelope")
+
+
+def test_select_on_an_empty_catalogue_says_so(tmp_path):
+    db = tmp_path / "empty.duckdb"
+    r = run("--db", db, "select", QUERIES / "lift_axis.toml", "--out", tmp_path / "short.xlsx")
+    assert r.exit_code == 1
+    assert r.output.splitlines()[-1] == (f"no candidate: {db} holds no motors "
+                                         "(`motorshelf import FILE` adds datasheets)")
+    r = run("--db", db, "select", QUERIES / "lift_axis.toml", "--format", "json")
+    assert r.exit_code == 1 and json.loads(r.output) == []

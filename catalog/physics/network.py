@@ -1,0 +1,262 @@
+"""The two-node thermal network driven by a loss profile, and the hot fixed point.
+
+With the winding resistance and the torque constant held at one temperature,
+the copper loss of a segment is a constant P_k and the network (see
+:mod:`catalog.physics.thermal`) is linear and time-invariant ::
+
+    dθ/dt = M·θ + (P/Cw, 0),  M = [[−1/(Rth1·Cw),  1/(Rth1·Cw)],
+                                   [1/(Rth1·Ch),  −(1/Rth1 + 1/Rth2)/Ch]],
+
+θ = (θw, θh) the rises of winding and housing above ambient.  Over a segment
+of duration d the state moves by the affine map θ → E(d)·θ + h(d)·P with
+E(d) = exp(M·d) (Putzer's formula: M has real, distinct, negative
+eigenvalues) and h(d) = ∫ E dτ·(1/Cw, 0), which depend on the motor and the
+segment durations only, never on the loss.  So the periodic cycle-start
+state is a fixed linear combination of the segment losses,
+θ0 = (I − E(period))⁻¹·Σ_k E(period − t_k)·h_k·P_k, and one sweep over the
+segments gives every segment-end rise.  The peak of θw is always at a
+segment boundary: at an interior stationary point θw = θh + P·Rth1 while
+the housing cools (dθw/dt = 0 and d²θw/dt² ≤ 0 give dθh/dt ≤ 0, so P ≤
+θh/Rth2), hence θw ≤ θh·(1 + Rth1/Rth2); at the housing's last maximum
+before it, θh was at least as high and θw equalled θh·(1 + Rth1/Rth2)
+exactly.  So the segment-end values give the exact peak of the model.
+
+:func:`hot_winding_rise` closes the loop with the temperature dependence:
+holding R and Kt at the peak winding temperature all cycle scales every loss
+by s(y) = (1 + a·y)/(1 + b·y)² (y the peak rise), so the peak rise is the
+smallest root of y = s(y)·θ_cold, where θ_cold is the peak rise with both at
+ambient.  This is the conservative reading (the losses of the cooler part of
+the cycle are overestimated; by well under 1 % of the rise for cycles shorter
+than the motor's thermal time constant), and exact for a steady state.
+
+Sources: textbook chapter on heating and cooling of machines (two-node
+network); linear ODE theory (matrix exponential, Putzer); IEC 60034-1 duty
+types (periodic duty); IEC 60028 (copper law).
+"""
+
+from __future__ import annotations
+
+from typing import NamedTuple
+
+import numpy as np
+
+from ._broadcast import vectorised
+
+__all__ = ["NetworkMaps", "network_segment_maps", "network_peak_rise", "hot_winding_rise"]
+
+_NEWTON_STEPS = 60       # enough for the linear convergence at a double root
+_NEWTON_TOLERANCE = 1e-6  # [K]
+
+
+class NetworkMaps(NamedTuple):
+    """Per-watt affine maps of the network over each segment, arrays of shape batch + (S,).
+
+    ``e11, e12, e21, e22`` [1]: E(d_k); ``hw, hh`` [K/W]: rise at the segment
+    end per watt lost in it, from zero; ``qw, qh`` [K/W]: cycle-start rise per
+    watt lost in segment k (zero for a single pass from cold); ``durations``
+    (S,) [s].
+    """
+
+    e11: np.ndarray
+    e12: np.ndarray
+    e21: np.ndarray
+    e22: np.ndarray
+    hw: np.ndarray
+    hh: np.ndarray
+    qw: np.ndarray
+    qh: np.ndarray
+    durations: np.ndarray
+
+
+def _expm1_over(z, t):
+    """t·expm1(z)/z with its series near z = 0 (z = λ·t) [s]."""
+    small = np.abs(z) < 1e-6
+    safe = np.where(small, 1.0, z)
+    return t * np.where(small, 1.0 + z * (0.5 + z / 6.0), np.expm1(safe) / safe)
+
+
+def _flow(lam1, lam2, delta, t):
+    """(e^{λ2 t}, (e^{λ1 t} − e^{λ2 t})/Δ, ∫e^{λ2}, ∫(e^{λ1} − e^{λ2})/Δ) over [0, t]."""
+    em2 = np.expm1(lam2 * t)
+    e2 = em2 + 1.0
+    dd = delta * t
+    p = np.where(dd < 1.0, e2 * np.expm1(np.minimum(dd, 1.0)), np.exp(lam1 * t) - e2) / delta
+    h2 = _expm1_over(lam2 * t, t)
+    h1 = _expm1_over(lam1 * t, t)
+    return e2, p, h2, (h1 - h2) / delta
+
+
+def network_segment_maps(durations, thermal_resistance_winding_housing,
+                         thermal_resistance_housing_ambient, winding_thermal_time_constant,
+                         motor_thermal_time_constant, periodic=True):
+    """Per-watt maps of the two-node network over each segment of a profile.
+
+    Parameters
+    ----------
+    durations : ndarray
+        Segment durations, shape (S,) [s].
+    thermal_resistance_winding_housing : float or ndarray
+        Thermal resistance winding to housing Rth1, shape batch [K/W].
+    thermal_resistance_housing_ambient : float or ndarray
+        Thermal resistance housing to ambient Rth2, shape batch [K/W].
+    winding_thermal_time_constant : float or ndarray
+        Winding thermal time constant τw (Cw = τw/Rth1), shape batch [s].
+    motor_thermal_time_constant : float or ndarray
+        Motor thermal time constant τ_motor (Ch = τ_motor/Rth2), shape batch [s].
+    periodic : bool
+        True: the profile repeats and the cycle starts in its periodic state;
+        False: one pass from ambient [-].
+
+    Returns
+    -------
+    NetworkMaps
+        Arrays of shape batch + (S,) (see :class:`NetworkMaps`) [K/W].
+
+    Notes
+    -----
+    Relation: E(d) = e^{λ2 d}·I + (e^{λ1 d} − e^{λ2 d})/Δ·(M − λ2·I), h =
+    ∫E dτ·(1/Cw, 0); periodic start (I − E(period))⁻¹·Σ E(period − t_k)·h_k.
+    Validity: two-node lumped model, loss constant within a segment.
+
+    References
+    ----------
+    Textbook chapter on heating and cooling of machines; IEC 60034-1.
+    """
+    d = np.asarray(durations, dtype=float)
+    if d.ndim != 1 or np.any(d < 0.0):
+        raise ValueError("durations must be a 1-d array of non-negative segment durations")
+    rth1, rth2, tau_w, tau_m = (np.asarray(p, dtype=float)[..., None] for p in (
+        thermal_resistance_winding_housing, thermal_resistance_housing_ambient,
+        winding_thermal_time_constant, motor_thermal_time_constant))
+    cw, ch = tau_w / rth1, tau_m / rth2
+    m11, m12 = -1.0 / (rth1 * cw), 1.0 / (rth1 * cw)
+    m21, m22 = 1.0 / (rth1 * ch), -(1.0 / rth1 + 1.0 / rth2) / ch
+    half = (m11 - m22) * 0.5
+    s = np.sqrt(half * half + m12 * m21)
+    lam2 = (m11 + m22) * 0.5 - s
+    lam1 = (1.0 / (rth1 * rth2 * cw * ch)) / lam2       # det(M)/λ2: accurate near 0
+    delta = 2.0 * s
+    k11, k22 = m11 - lam2, m22 - lam2
+
+    def transition(t):
+        e2, p, h2, phi = _flow(lam1, lam2, delta, t)
+        return (e2 + p * k11, p * m12, p * m21, e2 + p * k22,
+                (h2 + phi * k11) / cw, phi * m21 / cw)
+
+    e11, e12, e21, e22, hw, hh = transition(d)
+    if periodic:
+        ends = np.cumsum(d)
+        period = ends[-1]
+        if period <= 0.0:
+            raise ValueError("a periodic profile needs a positive cycle duration")
+        f11, f12, f21, f22, _, _ = transition(np.asarray(period))
+        g11, g12, g21, g22, _, _ = transition(period - ends)   # segment end -> cycle end
+        vw, vh = g11 * hw + g12 * hh, g21 * hw + g22 * hh
+        det = (1.0 - f11) * (1.0 - f22) - f12 * f21
+        qw = ((1.0 - f22) * vw + f12 * vh) / det
+        qh = (f21 * vw + (1.0 - f11) * vh) / det
+    else:
+        qw = qh = np.zeros_like(hw)
+    return NetworkMaps(e11, e12, e21, e22, hw, hh, qw, qh, d)
+
+
+def network_peak_rise(losses, maps):
+    """Peak winding rise of the two-node network under a profile of constant segment losses.
+
+    Parameters
+    ----------
+    losses : ndarray
+        Loss in the winding per segment, shape batch + (S,) [W].
+    maps : NetworkMaps
+        From :func:`network_segment_maps`, batch broadcastable to ``losses``
+        without its last axis [K/W].
+
+    Returns
+    -------
+    ndarray
+        Highest θw over the cycle (periodic maps) or the pass from ambient,
+        shape batch [K].
+
+    Notes
+    -----
+    Relation: θ_{k+1} = E_k·θ_k + h_k·P_k from θ_0 = Σ q_k·P_k; the peak is the
+    largest segment-end value (never inside a segment, see the module notes).  Validity: as
+    :func:`network_segment_maps`; the network is linear, so the result scales
+    with the losses.
+
+    References
+    ----------
+    Textbook chapter on heating and cooling of machines; IEC 60034-1.
+    """
+    loss = np.asarray(losses, dtype=float)
+    batch = loss.shape[:-1]
+    xw = np.broadcast_to(np.einsum("...k,...k->...", loss, maps.qw), batch)
+    xh = np.broadcast_to(np.einsum("...k,...k->...", loss, maps.qh), batch)
+    peak = xw.copy()
+    for k in range(loss.shape[-1]):
+        p = loss[..., k]
+        xw, xh = (maps.e11[..., k] * xw + maps.e12[..., k] * xh + maps.hw[..., k] * p,
+                  maps.e21[..., k] * xw + maps.e22[..., k] * xh + maps.hh[..., k] * p)
+        np.maximum(peak, xw, out=peak)
+    return peak
+
+
+@vectorised
+def hot_winding_rise(cold_rise, resistance_rise_coefficient, torque_constant_rise_coefficient):
+    """Peak winding rise with resistance and torque constant held at the peak temperature.
+
+    Parameters
+    ----------
+    cold_rise : float or ndarray
+        Peak rise θ_cold with R and Kt at ambient (losses at ambient) [K].
+    resistance_rise_coefficient : float or ndarray
+        a = (dR/dT)/R(Ta): relative growth of the resistance per kelvin [1/K].
+    torque_constant_rise_coefficient : float or ndarray
+        b = (dKt/dT)/Kt(Ta): relative change of the torque constant per kelvin,
+        negative for every magnet [1/K].
+
+    Returns
+    -------
+    float or ndarray
+        Smallest y ≥ 0 with y = θ_cold·(1 + a·y)/(1 + b·y)², ``inf`` where there
+        is none (thermal runaway: the losses grow faster than the network sheds
+        them) [K].
+
+    Notes
+    -----
+    Relation: the losses scale with R(T)/Kt(T)² at fixed torque, so the rise
+    at the peak temperature is s(y)·θ_cold.  G(y) = s(y)·θ_cold − y is convex
+    for b ≤ 0 with G(0) ≥ 0: Newton steps from y = 0 rise monotonically to
+    the smallest root, and a step where G > 0 no longer falls proves there is
+    none.  Validity: linear R(T) and Kt(T), 1 + b·y > 0.
+
+    References
+    ----------
+    IEC 60028 (copper law); IEC 60404-8-1 (reversible coefficient of Br);
+    textbook chapter on heating and cooling of machines.
+    """
+    phi, a, b = np.broadcast_arrays(*(np.asarray(x, dtype=float) for x in (
+        cold_rise, resistance_rise_coefficient, torque_constant_rise_coefficient)))
+    out = np.full(phi.shape, np.nan)
+    flat = out.reshape(-1)
+    ph, aa, bb = phi.reshape(-1), a.reshape(-1), b.reshape(-1)
+    known = np.isfinite(ph) & np.isfinite(aa) & np.isfinite(bb)
+    flat[known & (ph <= 0.0)] = 0.0
+    idx = np.flatnonzero(known & (ph > 0.0))
+    ph, aa, bb = ph[idx], aa[idx], bb[idx]
+    y = np.zeros(idx.size)
+    for _ in range(_NEWTON_STEPS):
+        if not idx.size:
+            break
+        k = 1.0 + bb * y
+        g = ph * (1.0 + aa * y) / (k * k) - y
+        slope = ph * (aa / (k * k) - 2.0 * bb * (1.0 + aa * y) / (k * k * k)) - 1.0
+        done = np.abs(g) <= _NEWTON_TOLERANCE
+        hopeless = ~done & ((k <= 0.0) | (slope >= 0.0) | ~np.isfinite(g))
+        flat[idx[done]] = y[done]
+        flat[idx[hopeless]] = np.inf
+        keep = ~(done | hopeless)
+        y = (y - g / np.where(slope < 0.0, slope, -1.0))[keep]
+        idx, ph, aa, bb = idx[keep], ph[keep], aa[keep], bb[keep]
+    flat[idx] = np.inf          # not converged: no consistent temperature
+    return out

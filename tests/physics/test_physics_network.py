@@ -1,0 +1,120 @@
+"""The two-node network under a loss profile (catalog/physics/network.py).
+
+Sources of the references: the exact closed-form network of
+catalog/physics/transient.py with a zero temperature coefficient (an
+independent implementation: per-segment Putzer maps composed per candidate);
+direct numerical integration of the network ODE with
+scipy.integrate.solve_ivp (textbook chapter on heating and cooling of
+machines: Cw·dθw/dt = P − (θw − θh)/Rth1, Ch·dθh/dt = (θw − θh)/Rth1 − θh/Rth2);
+the steady state of the copper law solved in closed form
+(catalog/physics/thermal.py, IEC 60028).
+"""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy.integrate import solve_ivp
+
+from catalog import physics as ph
+
+TA = 300.0
+
+
+def random_case(seed, n=400, s=9):
+    rng = np.random.default_rng(seed)
+    d = rng.uniform(0.1, 40.0, s)
+    params = (rng.uniform(0.3, 12, n), rng.uniform(1, 40, n), rng.uniform(1, 80, n), rng.uniform(60, 3000, n))
+    loss = rng.uniform(0, 60, (n, s)) * (rng.random((n, s)) > 0.3)
+    return d, params, loss
+
+
+@pytest.mark.parametrize("periodic", [True, False])
+@pytest.mark.parametrize("seed", [1, 2, 3])
+def test_peak_rise_equals_the_exact_network_without_temperature_coefficient(periodic, seed):
+    # Source: catalog/physics/transient.py (independent closed form) with α = 0 and the loss
+    # written as I²·R with R = 1 Ω.
+    d, (r1, r2, tw, tm), loss = random_case(seed)
+    mine = ph.network_peak_rise(loss, ph.network_segment_maps(d, r1, r2, tw, tm, periodic))
+    exact = ph.periodic_winding_temperature if periodic else ph.transient_winding_temperature
+    ref = exact(d, np.sqrt(loss), 1.0, r1, r2, tw, tm, TA, TA, temperature_coefficient=0.0) - TA
+    np.testing.assert_allclose(mine, ref, rtol=1e-9, atol=1e-9)
+
+
+def test_the_peak_matches_a_simulation_even_with_a_maximum_inside_a_segment():
+    # Source: solve_ivp of the network ODE, sampled densely.  A long heavy load heats the housing,
+    # a short pause cools the winding, a medium load then lifts the winding quickly while the
+    # housing cools: the winding has a maximum inside that segment, which (as the module notes
+    # prove) stays below the peak at a segment end.
+    d = np.array([400.0, 8.0, 60.0, 300.0])
+    loss = np.array([40.0, 0.0, 14.0, 0.0])
+    r1, r2, tw, tm = 4.0, 3.0, 5.0, 400.0
+    cw, ch = tw / r1, tm / r2
+
+    def rhs(_, y, p):
+        return [(p - (y[0] - y[1]) / r1) / cw, ((y[0] - y[1]) / r1 - y[1] / r2) / ch]
+
+    y = np.zeros(2)
+    for _cycle in range(60):  # repeated until periodic
+        top, inside = 0.0, []
+        for dk, p in zip(d, loss):
+            sol = solve_ivp(rhs, (0, dk), y, args=(p,), rtol=1e-11, atol=1e-11, dense_output=True)
+            w = sol.sol(np.linspace(0, dk, 4001))[0]
+            top = max(top, float(w.max()))
+            inside.append(w.max() - max(w[0], w[-1]))
+            y = sol.y[:, -1]
+    assert inside[2] > 0.05                # a real maximum inside the third segment
+    maps = ph.network_segment_maps(d, r1, r2, tw, tm)
+    assert ph.network_peak_rise(loss[None, :], maps)[0] == pytest.approx(top, abs=2e-4)
+
+
+def test_a_grid_of_ratios_broadcasts_against_per_motor_maps():
+    # Source: numpy broadcasting; per-motor maps (M, 1, S) against losses (M, R, S) equal
+    # per-candidate maps.
+    d, (r1, r2, tw, tm), loss = random_case(4, n=60)
+    grid = ph.network_peak_rise(loss.reshape(6, 10, -1),
+                                ph.NetworkMaps(*(a[:, None] if a.ndim > 1 else a for a in
+                                                 ph.network_segment_maps(d, r1[::10], r2[::10], tw[::10],
+                                                                         tm[::10]))))
+    flat = ph.network_peak_rise(loss, ph.network_segment_maps(d, np.repeat(r1[::10], 10), np.repeat(r2[::10], 10),
+                                                              np.repeat(tw[::10], 10), np.repeat(tm[::10], 10)))
+    np.testing.assert_array_equal(grid.reshape(-1), flat)
+
+
+def test_the_peak_scales_with_the_losses():
+    # Source: linearity of the network ODE.
+    d, (r1, r2, tw, tm), loss = random_case(5, n=50)
+    maps = ph.network_segment_maps(d, r1, r2, tw, tm)
+    np.testing.assert_allclose(ph.network_peak_rise(2.5 * loss, maps), 2.5 * ph.network_peak_rise(loss, maps),
+                               rtol=1e-12)
+
+
+def test_hot_rise_of_a_steady_load_equals_the_copper_law_steady_state():
+    # Source: steady state of the copper law (catalog/physics/thermal.py, IEC 60028): with Kt
+    # constant (b = 0) and a steady load, holding R at the peak temperature is exact.
+    current, r_ref, rth, tref = 3.0, 2.0, 9.0, 298.15
+    expected = ph.steady_winding_temperature(current, r_ref, 3.0, 6.0, TA, tref) - TA
+    r_amb = ph.resistance_at_temperature(r_ref, TA, tref)
+    slope = ph.resistance_at_temperature(r_ref, TA + 1.0, tref) - r_amb
+    got = ph.hot_winding_rise(current ** 2 * r_amb * rth, slope / r_amb, 0.0)
+    assert got == pytest.approx(expected, rel=1e-9)
+
+
+def test_hot_rise_solves_its_equation_and_finds_runaway():
+    # Source: the defining equation y = θ·(1 + a·y)/(1 + b·y)², checked directly; runaway where
+    # a dense scan of G(y) = s(y)·θ − y over 0 < y < −1/b finds no sign change.
+    cold = np.linspace(1.0, 140.0, 300)
+    a, b = 0.0037, -0.0011
+    y = ph.hot_winding_rise(cold, a, b)
+    finite = np.isfinite(y)
+    s = (1 + a * y[finite]) / (1 + b * y[finite]) ** 2
+    np.testing.assert_allclose(y[finite], s * cold[finite], rtol=1e-7)
+    scan = np.linspace(0, -1 / b * 0.999, 200_001)
+    for theta, got in zip(cold, y):
+        g = theta * (1 + a * scan) / (1 + b * scan) ** 2 - scan
+        root = scan[np.argmax(g <= 0)] if (g <= 0).any() else np.inf
+        if np.isinf(root):
+            assert np.isinf(got)
+        else:
+            assert got == pytest.approx(root, abs=2 * (scan[1] - scan[0]))
+    assert finite.any() and not finite.all()
+    assert ph.hot_winding_rise(0.0, a, b) == 0.0 and np.isnan(ph.hot_winding_rise(np.nan, a, b))
