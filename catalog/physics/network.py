@@ -160,16 +160,20 @@ def network_segment_maps(durations, thermal_resistance_winding_housing,
     return NetworkMaps(e11, e12, e21, e22, hw, hh, qw, qh, d)
 
 
-def network_peak_rise(losses, maps):
+def network_peak_rise(losses, maps, segments_first=False):
     """Peak winding rise of the two-node network under a profile of constant segment losses.
 
     Parameters
     ----------
     losses : ndarray
-        Loss in the winding per segment, shape batch + (S,) [W].
+        Loss in the winding per segment, shape batch + (S,), or (S,) + batch
+        with ``segments_first`` [W].
     maps : NetworkMaps
-        From :func:`network_segment_maps`, batch broadcastable to ``losses``
-        without its last axis [K/W].
+        From :func:`network_segment_maps`, batch broadcastable to the batch of
+        ``losses`` [K/W].
+    segments_first : bool
+        The segment axis of ``losses`` comes first (each segment's losses then
+        lie together in memory: the faster layout for large batches) [-].
 
     Returns
     -------
@@ -180,23 +184,36 @@ def network_peak_rise(losses, maps):
     Notes
     -----
     Relation: θ_{k+1} = E_k·θ_k + h_k·P_k from θ_0 = Σ q_k·P_k; the peak is the
-    largest segment-end value (never inside a segment, see the module notes).  Validity: as
-    :func:`network_segment_maps`; the network is linear, so the result scales
-    with the losses.
+    largest segment-end value (never inside a segment, see the module notes).
+    Validity: as :func:`network_segment_maps`; the network is linear, so the
+    result scales with the losses.
 
     References
     ----------
     Textbook chapter on heating and cooling of machines; IEC 60034-1.
     """
     loss = np.asarray(losses, dtype=float)
-    batch = loss.shape[:-1]
-    xw = np.broadcast_to(np.einsum("...k,...k->...", loss, maps.qw), batch)
-    xh = np.broadcast_to(np.einsum("...k,...k->...", loss, maps.qh), batch)
+    if not segments_first:
+        loss = np.moveaxis(loss, -1, 0)
+    batch = loss.shape[1:]
+    def start(q):
+        if loss.ndim == 3 and q.ndim == 3 and q.shape[1] == 1:   # per-motor maps over a grid: batched product
+            return np.matmul(q, np.moveaxis(loss, 0, 1))[:, 0, :].copy()
+        return np.broadcast_to(np.einsum("k...,...k->...", loss, q), batch).copy()
+
+    xw, xh = start(maps.qw), start(maps.qh)
     peak = xw.copy()
-    for k in range(loss.shape[-1]):
-        p = loss[..., k]
-        xw, xh = (maps.e11[..., k] * xw + maps.e12[..., k] * xh + maps.hw[..., k] * p,
-                  maps.e21[..., k] * xw + maps.e22[..., k] * xh + maps.hh[..., k] * p)
+    nw, nh, tmp = np.empty(batch), np.empty(batch), np.empty(batch)
+    for k in range(loss.shape[0]):
+        p = loss[k]
+        e11, e12, e21, e22 = maps.e11[..., k], maps.e12[..., k], maps.e21[..., k], maps.e22[..., k]
+        np.multiply(e11, xw, out=nw)
+        nw += np.multiply(e12, xh, out=tmp)
+        nw += np.multiply(maps.hw[..., k], p, out=tmp)
+        np.multiply(e21, xw, out=nh)
+        nh += np.multiply(e22, xh, out=tmp)
+        nh += np.multiply(maps.hh[..., k], p, out=tmp)
+        xw, nw, xh, nh = nw, xw, nh, xh
         np.maximum(peak, xw, out=peak)
     return peak
 
@@ -244,7 +261,8 @@ def hot_winding_rise(cold_rise, resistance_rise_coefficient, torque_constant_ris
     flat[known & (ph <= 0.0)] = 0.0
     idx = np.flatnonzero(known & (ph > 0.0))
     ph, aa, bb = ph[idx], aa[idx], bb[idx]
-    y = np.zeros(idx.size)
+    k = 1.0 + bb * ph
+    y = np.where(k > 0.0, ph * (1.0 + aa * ph) / (k * k), 0.0)   # one plain step: still ≤ the root
     for _ in range(_NEWTON_STEPS):
         if not idx.size:
             break

@@ -3,8 +3,14 @@
 A candidate is one motor with one gear option: direct drive (ratio 1, no
 gear), a catalogue gearhead whose ``mount`` equals the motor's, or an assumed
 gear of the envelope's ratio search (efficiency ``stage_efficiency**stages``,
-inertia ``gearing.inertia``, no ratings, mass, size or price).  The candidate
-table is built with pandas joins and numpy repeats, never a loop per motor.
+inertia ``gearing.inertia``, no ratings, mass, size or price).
+
+:class:`Candidates` keeps a motor table, a gear-option table and, per
+candidate, only the two row numbers into them; a per-candidate column (``R``,
+``ratio``, ``mass`` ...) is gathered when it is first asked for, and a chunk
+of candidates gathers just its rows (:meth:`Candidates.take`).  Ten thousand
+motors times two hundred ratios so never hold forty columns of two million
+rows, and no candidate id is written as text until somebody reads it.
 
 Motor values get the envelope's tolerance corner here (Kt and Ke scaled by
 ``1 + tolerance.torque_constant``, R by ``1 + tolerance.terminal_resistance``)
@@ -14,7 +20,9 @@ values.
 """
 from __future__ import annotations
 
-__all__ = ["build_candidates", "GEAR_DIRECT", "GEAR_CATALOGUE", "GEAR_ASSUMED"]
+__all__ = ["build_candidates", "Candidates", "GEAR_DIRECT", "GEAR_CATALOGUE", "GEAR_ASSUMED"]
+
+from collections.abc import Mapping
 
 import numpy as np
 import pandas as pd
@@ -31,6 +39,25 @@ _MOTOR = ["terminal_resistance", "torque_constant", "back_emf_constant", "fricti
           "diameter", "price"]
 _GEAR = ["ratio", "efficiency", "inertia", "max_continuous_torque", "max_intermittent_torque",
          "max_input_speed", "mass", "length", "diameter", "price"]
+
+#: candidate key -> motor-table column (gathered by the motor row)
+_BY_MOTOR = {"R": "terminal_resistance", "Kt": "torque_constant", "Ke": "back_emf_constant",
+             "Tf": "friction_torque", "J": "rotor_inertia", "Rth1": "thermal_resistance_winding_housing",
+             "Rth2": "thermal_resistance_housing_ambient", "tau_w": "thermal_time_constant_winding",
+             "tau_m": "thermal_time_constant_motor", "Tmax": "max_winding_temperature",
+             "Tref": "resistance_reference_temperature", "beta": "beta", "max_speed": "max_speed",
+             "speed_from_no_load": "speed_from_no_load", "motor": "id", "mount": "mount",
+             "commutation": "commutation", "motor_note": "note"}
+#: candidate key -> gear-option column (gathered by the option row)
+_BY_OPTION = {"ratio": "ratio", "eta": "efficiency", "Jg": "inertia", "gear": "label", "kind": "kind",
+              "gear_cont_torque": "max_continuous_torque", "gear_peak_torque": "max_intermittent_torque",
+              "gear_max_speed": "max_input_speed"}
+#: keys computed from both tables
+_COMBINED = ("id", "mass", "length", "diameter", "price", "currency", "price_note")
+#: every per-candidate key, in a stable order
+KEYS = ("id", "motor", "gear", "kind", "motor_ix", *[k for k in _BY_MOTOR if k not in ("motor",)],
+        *[k for k in _BY_OPTION if k not in ("gear", "kind")], "mass", "length", "diameter", "price",
+        "currency", "price_note")
 
 
 def _prices(frame, env):
@@ -56,7 +83,7 @@ def _prices(frame, env):
 def _col(frame, name, dtype=float):
     if name in frame.columns:
         return frame[name].to_numpy(dtype=dtype, na_value=np.nan) if dtype is float else frame[name]
-    return np.full(len(frame), np.nan) if dtype is float else pd.Series([None] * len(frame))
+    return np.full(len(frame), np.nan) if dtype is float else pd.Series([None] * len(frame), dtype=object)
 
 
 def _magnet_coefficients(materials: pd.Series) -> np.ndarray:
@@ -76,8 +103,119 @@ def _stages(ratio: np.ndarray) -> np.ndarray:
     return np.maximum(1, np.ceil(np.log(ratio) / np.log(7.0) - 1e-9))
 
 
-def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> dict:
-    """Every candidate of the envelope as flat arrays.
+def _text(frame, name) -> np.ndarray:
+    return _col(frame, name, object).fillna("").astype(str).to_numpy(dtype=object)
+
+
+class Candidates(Mapping):
+    """Every candidate of an envelope: (motor row, gear-option row) pairs over two small tables.
+
+    A mapping from the per-candidate keys (:data:`KEYS`: ``R`` [Ω], ``Kt``/``Ke``
+    [N·m/A], ``Tf`` [N·m], ``J`` [kg·m²], ``Rth1``/``Rth2`` [K/W], ``tau_w``/
+    ``tau_m`` [s], ``Tmax``/``Tref`` [K], ``beta`` [1/K], ``max_speed`` [rad/s],
+    ``ratio`` [1], ``eta`` [1], ``Jg`` [kg·m²], gear ratings, totals ``mass``
+    [kg], ``length``/``diameter`` [m], ``price``, and the texts ``id``,
+    ``motor``, ``gear``, ``currency``, ``price_note``, ``mount``,
+    ``commutation``) to arrays over all candidates, each gathered on first use
+    and kept.  ``size`` is the number of candidates.
+    """
+
+    def __init__(self, motor_ix, option_ix, motors: dict, options: dict):
+        self.motor_ix = np.asarray(motor_ix, dtype=np.intp)
+        self.option_ix = np.asarray(option_ix, dtype=np.intp)
+        self.motors = motors        # column -> (M,) array
+        self.options = options      # column -> (G,) array
+        self._cache: dict = {}
+
+    @property
+    def size(self) -> int:
+        return len(self.motor_ix)
+
+    def __len__(self) -> int:
+        return len(KEYS)
+
+    def __iter__(self):
+        return iter(KEYS)
+
+    def __getitem__(self, key):
+        if key not in self._cache:
+            self._cache[key] = self._gather(key, slice(None))
+        return self._cache[key]
+
+    def take(self, rows, keys=KEYS) -> dict:
+        """The columns ``keys`` for the candidate rows ``rows`` (a slice or positions), as a dict."""
+        return {k: (self._cache[k][rows] if k in self._cache else self._gather(k, rows)) for k in keys}
+
+    def _gather(self, key, rows):
+        mix, oix = self.motor_ix[rows], self.option_ix[rows]
+        if key == "motor_ix":
+            return mix
+        if key in _BY_MOTOR:
+            return self.motors[_BY_MOTOR[key]][mix]
+        if key in _BY_OPTION:
+            return self.options[_BY_OPTION[key]][oix]
+        geared = self.options["kind"][oix] == GEAR_CATALOGUE
+        if key == "id":
+            return (pd.Series(self.motors["id"][mix], dtype=object)
+                    + pd.Series(self.options["suffix"][oix], dtype=object)).to_numpy(dtype=object)
+        if key in ("mass", "length", "price"):
+            total = self.motors[key][mix] + np.where(geared, self.options[key][oix], 0.0)
+            if key == "price":
+                m_cur, g_cur = self.motors["currency"][mix], self.options["currency"][oix]
+                mixed = geared & (m_cur != "") & (g_cur != "") & (m_cur != g_cur)
+                total = np.where(mixed, np.nan, total)
+            return total
+        if key == "diameter":
+            m = self.motors["diameter"][mix]
+            both = np.fmax(m, np.where(geared, self.options["diameter"][oix], np.nan))
+            return np.where(np.isnan(m), np.nan, both)
+        if key == "currency":
+            m_cur, g_cur = self.motors["currency"][mix], self.options["currency"][oix]
+            return np.where(m_cur != "", m_cur, np.where(geared, g_cur, "")).astype(object)
+        if key == "price_note":
+            m_cur, g_cur = self.motors["currency"][mix], self.options["currency"][oix]
+            mixed = geared & (m_cur != "") & (g_cur != "") & (m_cur != g_cur)
+            note = np.where(mixed, "motor and gearhead priced in different currencies "
+                            "(set ranking.currency and exchange_rates)", self.motors["price_note"][mix])
+            gnote = self.options["price_note"][oix]
+            return np.where((note == "") & geared, gnote, note).astype(object)
+        raise KeyError(key)
+
+    def currency_codes(self):
+        """(code per candidate, labels): the currency of each candidate's price without a text per row."""
+        labels = sorted({"", *map(str, self.motors["currency"]), *map(str, self.options["currency"])})
+        index = {c: i for i, c in enumerate(labels)}
+        m_code = np.array([index[str(c)] for c in self.motors["currency"]], dtype=np.intp)
+        g_code = np.array([index[str(c)] for c in self.options["currency"]], dtype=np.intp)
+        own = m_code[self.motor_ix] if len(m_code) else np.zeros(0, dtype=np.intp)
+        gear = g_code[self.option_ix] if len(g_code) else np.zeros(0, dtype=np.intp)
+        geared = self.options["kind"][self.option_ix] == GEAR_CATALOGUE
+        return np.where(own != index[""], own, np.where(geared, gear, index[""])), labels
+
+    def ids(self, rows=None) -> np.ndarray:
+        """Candidate ids (``motor``, ``motor+gearhead`` or ``motor@ratio-N``) of ``rows`` (all by default)."""
+        if rows is None:
+            return self["id"]
+        return self.take(np.asarray(rows, dtype=np.intp), ("id",))["id"]
+
+    def find(self, candidate_id: str):
+        """Position of the candidate with this id, or None (only the motors it can belong to are read)."""
+        text = str(candidate_id)
+        motors = np.flatnonzero([text.startswith(m) for m in self.motors["id"]])
+        rows = np.flatnonzero(np.isin(self.motor_ix, motors))
+        if not len(rows):
+            return None
+        hit = rows[self.ids(rows) == text]
+        return int(hit[0]) if len(hit) else None
+
+    def set_motor_notes(self, notes: dict) -> None:
+        """Notes per motor id (e.g. a datasheet that contradicts itself), shown with its candidates."""
+        self.motors["note"] = pd.Series(self.motors["id"]).map(notes).fillna("").to_numpy(dtype=object)
+        self._cache.pop("motor_note", None)
+
+
+def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Candidates:
+    """Every candidate of the envelope.
 
     Parameters
     ----------
@@ -88,13 +226,10 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> dict
 
     Returns
     -------
-    dict
-        ``id``, ``motor``, ``gear`` (object arrays), ``kind`` (GEAR_*), and per
-        candidate motor values (``R`` [Ω], ``Kt``/``Ke`` [N·m/A], ``Tf`` [N·m],
-        ``J`` [kg·m²], ``Rth1``/``Rth2`` [K/W], ``tau_w``/``tau_m`` [s], ``Tmax``
-        [K], ``Tref`` [K], ``beta`` [1/K], ``max_speed`` [rad/s], ...), gear
-        values (``ratio`` [1], ``eta`` [1], ``Jg`` [kg·m²], ratings) and totals
-        (``mass`` [kg], ``length`` [m], ``diameter`` [m], ``price``).
+    Candidates
+        The motor table, the gear-option table and one (motor, option) row pair
+        per candidate: every motor direct (if allowed), with every catalogue
+        gearhead of its mount, then with every assumed ratio, motor by motor.
     """
     m = motors.reset_index(drop=True)
     k_scale = 1.0 + env.tolerance.get("torque_constant", 0.0)
@@ -109,93 +244,59 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> dict
     mv["resistance_reference_temperature"] = np.where(
         np.isnan(mv["resistance_reference_temperature"]), DEFAULT_REFERENCE_TEMPERATURE,
         mv["resistance_reference_temperature"])
-    mv["price"], motor_currency, motor_price_note = _prices(m, env)
-    beta = _magnet_coefficients(_col(m, "magnet_material", object))
-    speed_from_no_load = np.isnan(mv["max_speed"]) & ~np.isnan(mv["no_load_speed"])
-    mv["max_speed"] = np.where(speed_from_no_load, mv["no_load_speed"], mv["max_speed"])
-    ids = m["id"].astype(str).to_numpy(dtype=object)
-    mount = _col(m, "mount", object).fillna("").astype(str).to_numpy(dtype=object)
-    commutation = _col(m, "commutation", object).fillna("").astype(str).to_numpy(dtype=object)
+    mv["price"], mv["currency"], mv["price_note"] = _prices(m, env)
+    mv["beta"] = _magnet_coefficients(_col(m, "magnet_material", object))
+    mv["speed_from_no_load"] = np.isnan(mv["max_speed"]) & ~np.isnan(mv["no_load_speed"])
+    mv["max_speed"] = np.where(mv["speed_from_no_load"], mv["no_load_speed"], mv["max_speed"])
+    mv["id"] = m["id"].astype(str).to_numpy(dtype=object) if len(m) else np.zeros(0, dtype=object)
+    mv["mount"], mv["commutation"] = _text(m, "mount"), _text(m, "commutation")
+    mv["note"] = np.full(len(m), "", dtype=object)
     n_motor = len(m)
 
-    parts = []   # (motor index, kind, gear frame rows)
+    # the gear-option table: direct, the catalogue gearheads, the assumed ratios
+    opts, pairs = [], []
     if env.direct:
-        g = pd.DataFrame({c: np.nan for c in _GEAR}, index=range(n_motor))
-        g["ratio"], g["efficiency"], g["inertia"] = 1.0, 1.0, 0.0
-        g["motor_ix"], g["gear"], g["kind"] = np.arange(n_motor), "direct", GEAR_DIRECT
-        g["suffix"] = ""
-        parts.append(g)
+        opts.append(pd.DataFrame({"ratio": [1.0], "efficiency": [1.0], "inertia": [0.0], "label": ["direct"],
+                                  "suffix": [""], "kind": [GEAR_DIRECT], "mount": [""]}))
     if env.catalogue_gears and len(gearheads):
         gh = gearheads.reset_index(drop=True)
-        left = pd.DataFrame({"motor_ix": np.arange(n_motor), "mount": mount})
-        right = pd.DataFrame({c: _col(gh, c) for c in _GEAR})
-        right["gear"] = gh["id"].astype(str).to_numpy(dtype=object)
-        right["price"], right["currency"], right["price_note"] = _prices(gh, env)
-        right["mount"] = _col(gh, "mount", object).fillna("").astype(str).to_numpy(dtype=object)
-        g = left.merge(right[right["mount"] != ""], on="mount").drop(columns="mount")
+        g = pd.DataFrame({c: _col(gh, c) for c in _GEAR})
         g["inertia"] = g["inertia"].fillna(0.0)
-        g["kind"], g["suffix"] = GEAR_CATALOGUE, "+" + g["gear"]
-        parts.append(g)
+        g["label"] = gh["id"].astype(str).to_numpy(dtype=object)
+        g["suffix"] = ("+" + g["label"]).to_numpy(dtype=object)
+        g["kind"] = GEAR_CATALOGUE
+        g["price"], g["currency"], g["price_note"] = _prices(gh, env)
+        g["mount"] = _text(gh, "mount")
+        opts.append(g)
     if env.ratios:
         ratios = np.asarray(env.ratios, dtype=float)
         stages = np.full(len(ratios), env.stages) if env.stages else _stages(ratios)
-        labels = np.array([f"ratio-{r:g}" if r != int(r) else f"ratio-{r:.1f}" for r in ratios],
-                          dtype=object)
-        g = pd.DataFrame({c: np.nan for c in _GEAR}, index=range(n_motor * len(ratios)))
-        g["motor_ix"] = np.repeat(np.arange(n_motor), len(ratios))
-        g["ratio"] = np.tile(ratios, n_motor)
-        g["efficiency"] = np.tile(env.stage_efficiency ** stages, n_motor)
-        g["inertia"] = env.gear_inertia
-        g["gear"] = np.tile(labels, n_motor)
-        g["kind"] = GEAR_ASSUMED
-        g["suffix"] = np.tile(np.array(["@" + x for x in labels], dtype=object), n_motor)  # 200 strings shared
-        parts.append(g)
-    if len(parts) == 1:
-        g = parts[0]          # no concatenated copy of a 2M-row frame
+        labels = [f"ratio-{r:g}" if r != int(r) else f"ratio-{r:.1f}" for r in ratios]
+        opts.append(pd.DataFrame({"ratio": ratios, "efficiency": env.stage_efficiency ** stages,
+                                  "inertia": env.gear_inertia, "label": labels,
+                                  "suffix": ["@" + x for x in labels], "kind": GEAR_ASSUMED, "mount": ""}))
+    table = pd.concat(opts, ignore_index=True) if opts else pd.DataFrame(columns=["kind"])
+    options = {c: _col(table, c) for c in _GEAR}
+    for c in ("label", "suffix", "currency", "price_note", "mount"):
+        options[c] = _text(table, c)
+    options["kind"] = table["kind"].to_numpy(dtype=int) if len(table) else np.zeros(0, dtype=int)
+    kind = options["kind"]
+    motor_rows = np.arange(n_motor)
+    if env.direct:
+        pairs.append((motor_rows, np.zeros(n_motor, dtype=np.intp)))
+    cat_rows = np.flatnonzero(kind == GEAR_CATALOGUE)
+    if len(cat_rows) and n_motor:
+        left = pd.DataFrame({"m": motor_rows, "mount": mv["mount"]})
+        right = pd.DataFrame({"o": cat_rows, "mount": options["mount"][cat_rows]})
+        both = left[left["mount"] != ""].merge(right[right["mount"] != ""], on="mount").sort_values(
+            ["m", "o"], kind="stable")
+        pairs.append((both["m"].to_numpy(dtype=np.intp), both["o"].to_numpy(dtype=np.intp)))
+    ratio_rows = np.flatnonzero(kind == GEAR_ASSUMED)
+    if len(ratio_rows) and n_motor:
+        pairs.append((np.repeat(motor_rows, len(ratio_rows)), np.tile(ratio_rows, n_motor)))
+    if pairs:
+        mix = np.concatenate([p[0] for p in pairs])
+        oix = np.concatenate([p[1] for p in pairs])
     else:
-        g = pd.concat(parts, ignore_index=True) if parts else pd.DataFrame(columns=_GEAR + ["motor_ix"])
-    ix = g["motor_ix"].to_numpy(dtype=int)
-    kind = g["kind"].to_numpy(dtype=int)
-    geared = kind == GEAR_CATALOGUE
-
-    def total(name):
-        gear_part = np.where(geared, g[name].to_numpy(dtype=float), 0.0)
-        return mv[name][ix] + gear_part
-
-    gear_currency = (g["currency"] if "currency" in g else pd.Series([""] * len(g))).fillna("")
-    gear_currency = gear_currency.astype(str).to_numpy(dtype=object)
-    m_cur = motor_currency[ix]
-    mixed = geared & (m_cur != "") & (gear_currency != "") & (m_cur != gear_currency)
-    price_note = np.where(mixed, "motor and gearhead priced in different currencies "
-                          "(set ranking.currency and exchange_rates)", motor_price_note[ix]).astype(object)
-    if "price_note" in g:
-        gnote = g["price_note"].fillna("").to_numpy(dtype=object)
-        price_note = np.where((price_note == "") & geared, gnote, price_note).astype(object)
-
-    cand = {
-        "id": (pd.Series(ids[ix]) + g["suffix"].astype(str).to_numpy()).to_numpy(dtype=object),
-        "motor": ids[ix], "gear": g["gear"].to_numpy(dtype=object), "kind": kind,
-        "motor_ix": ix, "mount": mount[ix], "commutation": commutation[ix],
-        "R": mv["terminal_resistance"][ix], "Kt": mv["torque_constant"][ix],
-        "Ke": mv["back_emf_constant"][ix], "Tf": np.nan_to_num(mv["friction_torque"][ix]),
-        "J": mv["rotor_inertia"][ix],
-        "Rth1": mv["thermal_resistance_winding_housing"][ix],
-        "Rth2": mv["thermal_resistance_housing_ambient"][ix],
-        "tau_w": mv["thermal_time_constant_winding"][ix], "tau_m": mv["thermal_time_constant_motor"][ix],
-        "Tmax": mv["max_winding_temperature"][ix], "Tref": mv["resistance_reference_temperature"][ix],
-        "beta": beta[ix], "max_speed": mv["max_speed"][ix],
-        "speed_from_no_load": speed_from_no_load[ix],
-        "ratio": g["ratio"].to_numpy(dtype=float), "eta": g["efficiency"].to_numpy(dtype=float),
-        "Jg": g["inertia"].to_numpy(dtype=float),
-        "gear_cont_torque": g["max_continuous_torque"].to_numpy(dtype=float),
-        "gear_peak_torque": g["max_intermittent_torque"].to_numpy(dtype=float),
-        "gear_max_speed": g["max_input_speed"].to_numpy(dtype=float),
-        "mass": total("mass"), "length": total("length"),
-        "price": np.where(mixed, np.nan, total("price")),
-        "currency": np.where(m_cur != "", m_cur, np.where(geared, gear_currency, "")).astype(object),
-        "price_note": price_note,
-        "diameter": np.fmax(mv["diameter"][ix], np.where(geared, g["diameter"].to_numpy(dtype=float),
-                                                          np.nan)),
-    }
-    cand["diameter"] = np.where(np.isnan(mv["diameter"][ix]), np.nan, cand["diameter"])
-    return cand
+        mix = oix = np.zeros(0, dtype=np.intp)
+    return Candidates(mix, oix, mv, options)

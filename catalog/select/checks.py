@@ -9,7 +9,7 @@ Reason texts are built column-wise with pandas string operations.
 """
 from __future__ import annotations
 
-__all__ = ["CHECKS", "run_checks", "reason_texts"]
+__all__ = ["CHECKS", "run_checks", "reason_texts", "check_keys"]
 
 import numpy as np
 import pandas as pd
@@ -65,14 +65,14 @@ def run_checks(env, c: dict, r: dict, with_texts: bool = True):
     -------
     margins : dict
         check → margin array (N,) (fractions, temperature in K) for the shortlist.
-    failed : DataFrame
-        One boolean column per check key of :data:`CHECKS`.
+    failed : dict
+        check key of :data:`CHECKS` → boolean array (N,).
     texts : DataFrame
         One text column per check key (empty where the check passed); empty
         without ``with_texts`` (the verdicts never depend on the texts, so
         :func:`reason_texts` builds them later for the rows asked for).
     """
-    n = len(c["id"])
+    n = _size(c)
     req = env.margins
     catalogue = c["kind"] == GEAR_CATALOGUE
     fails, texts, margins = {}, {}, {}
@@ -142,20 +142,21 @@ def run_checks(env, c: dict, r: dict, with_texts: bool = True):
         + " N·m, continuous rating " + _f(c["gear_cont_torque"]) + " N·m" + _margin_note(gc, req["torque"]))
 
     lim_missing = np.zeros(n, bool)
-    missing_names = pd.Series([""] * n)
+    gaps = []   # (name, mask) of the limits without data, for the text
     for key, unit, scale in (("diameter", "mm", 1e3), ("length", "mm", 1e3), ("mass", "g", 1e3),
                              ("price", "", 1.0)):
         limit = env.limits.get(f"max_{key}")
-        value = c[key]
         if limit is None:
             put(key, np.zeros(n, bool), lambda: "")
             continue
+        value = c[key]
         gap = np.isnan(value)
         lim_missing |= gap
-        missing_names = missing_names + np.where(gap, f" {key}", "")
+        gaps.append((key, gap))
         put(key, ~gap & (value > limit), lambda: key + " " + _f(value * scale, "{:.4g}") + f" {unit} > "
             + f"{limit * scale:.4g} {unit}".rstrip())
-    put("size_data", lim_missing, lambda: "no data for a limit:" + missing_names)
+    put("size_data", lim_missing, lambda: "no data for a limit:" + _join(
+        {k: np.where(g, " " + k, "") for k, g in gaps} or {"": np.full(n, "", dtype=object)}, ""))
     for key in ("commutation", "mount"):
         allowed = getattr(env, key)
         if allowed is None:
@@ -164,12 +165,19 @@ def run_checks(env, c: dict, r: dict, with_texts: bool = True):
         bad = ~pd.Series(c[key]).isin(allowed).to_numpy()
         put(key, bad, lambda: key + " " + pd.Series(c[key]).replace("", "unknown") + f" not in {', '.join(allowed)}")
 
-    frac = [vm, pm, rm, sm, gs, gp, gc, tm / (c["Tmax"] - env.ambient_temperature)]
-    stack = np.vstack([np.where(np.isnan(x), np.inf, x) for x in frac])
-    smallest = np.min(stack, axis=0)
-    margins["smallest_margin"] = np.where(np.isinf(smallest), np.nan, smallest)
-    failed = pd.DataFrame(fails)
-    return margins, failed, pd.DataFrame(texts), (_notes(c) if with_texts else None)
+    smallest = tm / (c["Tmax"] - env.ambient_temperature)
+    for x in (vm, pm, rm, sm, gs, gp, gc):
+        smallest = np.fmin(smallest, x)          # NaN (not checked) never wins
+    margins["smallest_margin"] = smallest
+    return margins, fails, (pd.DataFrame(texts) if with_texts else None), (_notes(c) if with_texts else None)
+
+
+def check_keys(env) -> tuple:
+    """The candidate columns :func:`run_checks` reads for ``env`` (limits and allowed lists only if set)."""
+    keys = ["kind", "Tmax", "max_speed", "gear_max_speed", "gear_peak_torque", "gear_cont_torque"]
+    keys += [k for k in ("diameter", "length", "mass", "price") if env.limits.get(f"max_{k}") is not None]
+    keys += [k for k in ("commutation", "mount") if getattr(env, k) is not None]
+    return tuple(keys)
 
 
 def reason_texts(env, c: dict, r: dict, rows) -> tuple:
@@ -179,10 +187,12 @@ def reason_texts(env, c: dict, r: dict, rows) -> tuple:
     same texts as on the whole table, at the cost of those rows only.
     """
     rows = np.asarray(rows, dtype=int)
-    take = (lambda d: {k: (v[rows] if isinstance(v, np.ndarray) and v.ndim and len(v) == len(c["id"]) else v)
+    n = _size(c)
+    take = (lambda d: {k: (v[rows] if isinstance(v, np.ndarray) and v.ndim and len(v) == n else v)
                        for k, v in d.items()})
-    _, failed, texts, notes = run_checks(env, take(c), take(r))
-    keys = _join({k: np.where(failed[k].to_numpy(), k, "") for k in failed}, ", ")
+    sub = c.take(rows) if hasattr(c, "take") else take(c)
+    _, failed, texts, notes = run_checks(env, sub, take(r))
+    keys = _join({k: np.where(failed[k], k, "") for k in failed}, ", ")
     reasons = _join({k: texts[k].to_numpy(dtype=object) for k in texts}, "; ")
     return keys, reasons, notes.to_numpy(dtype=object)
 
@@ -201,8 +211,13 @@ def _join(columns: dict, sep: str) -> np.ndarray:
     return (out if out is not None else pd.Series([""] * n)).to_numpy(dtype=object)
 
 
+def _size(c) -> int:
+    """Number of candidates of a :class:`~catalog.select.candidates.Candidates` or a dict of arrays."""
+    return c.size if hasattr(c, "size") and not isinstance(c, dict) else len(c["ratio"])
+
+
 def _notes(c):
-    n = len(c["id"])
+    n = _size(c)
     notes = pd.Series([""] * n)
     notes = notes.where(~c["speed_from_no_load"], "motor speed limit taken from the no-load speed")
     assumed = c["kind"] == GEAR_ASSUMED

@@ -55,6 +55,9 @@ WORKERS = max(1, min(4, os.cpu_count() or 1))  #: chunks evaluated at once (thre
 FALLBACK_TEMPERATURE = 428.15  #: winding temperature assumed where thermal data is missing [K]
 
 THERMAL_FIELDS = ("Rth1", "Rth2", "Tmax")
+#: the candidate columns :func:`evaluate` reads
+EVAL_KEYS = ("motor_ix", "R", "Kt", "Ke", "Tf", "J", "Jg", "Rth1", "Rth2", "tau_w", "tau_m", "Tmax", "Tref",
+             "beta", "ratio", "eta")
 CYCLE_THERMAL_FIELDS = ("tau_w", "tau_m")
 
 
@@ -73,8 +76,12 @@ def _segments(env) -> dict:
         out_rms = float(np.sqrt(np.sum(out_abs * out_abs * dur) / np.sum(dur)))
     else:
         out_rms = float(np.max(out_abs[env.continuous])) if env.continuous.any() else 0.0
-    return {"dur": dur, "w0": w0, "w1": w1, "alpha": alpha, "friction_sign": np.sign(w_mid),
-            "out_drive": np.where(driving, t_out, 0.0), "out_back": np.where(driving, 0.0, t_out),
+    fs = np.sign(w_mid)
+    basis = np.column_stack([alpha, np.where(driving, t_out, 0.0), np.where(driving, 0.0, t_out), fs])
+    return {"dur": dur, "w0": w0, "w1": w1, "alpha": alpha, "friction_sign": fs,
+            "basis": np.ascontiguousarray(basis),                        # (S, 4): T_em = basis @ coef
+            "voltage_basis": np.ascontiguousarray(np.column_stack([basis, w_mid])),
+            "half_span": np.abs(w1 - w0) / 2.0,
             "t_out_abs": out_abs, "out_rms": out_rms, "speed_seg": int(np.argmax(w_abs)),
             "w_abs_max": float(np.max(w_abs)), "gear_out_seg": int(np.argmax(out_abs))}
 
@@ -85,35 +92,50 @@ def _motor_runs(motor_ix):
     return starts, np.diff(np.r_[starts, len(motor_ix)])
 
 
-def _cold_rise(env, c, loss, usable):
-    """Peak winding rise [K] with the losses at ambient constants, (N,); NaN where unusable."""
-    n = len(loss)
+def _cold_rise(env, c, t_sq, usable):
+    """Peak winding rise per (N·m)² of T_em², (N,), NaN where unusable: the network is linear, so the
+    rise under the losses at ambient is this times R(Ta)/Kt(Ta)².  ``t_sq`` is (S, N)."""
+    n = t_sq.shape[1]
     rth = c["Rth1"] + c["Rth2"]
     out = np.full(n, np.nan)
     if env.mode == "points":
         cont = env.continuous
-        worst = np.max(loss[:, cont], axis=1) if cont.any() else np.zeros(n)
+        worst = np.max(t_sq[cont], axis=0) if cont.any() else np.zeros(n)
         return np.where(usable, worst * rth, np.nan)
     dur = env.duration
     mean_rule = env.repeat & (env.period < SHORT_PERIOD * c["tau_w"])
-    out[usable & mean_rule] = ((loss @ dur) / env.period * rth)[usable & mean_rule]
+    if mean_rule.any():
+        pick = usable & mean_rule
+        out[pick] = ((dur @ t_sq) / env.period * rth)[pick]
     net = usable & ~mean_rule
     if not net.any():
         return out
-    ix = np.flatnonzero(net)
-    sub = loss[ix]
-    starts, runs = _motor_runs(c["motor_ix"][ix])
-    first = ix[starts]
+    whole = bool(net.all())
+    ix = slice(None) if whole else np.flatnonzero(net)
+    sub = t_sq if whole else t_sq[:, ix]
+    mix = c["motor_ix"][ix]
+    starts, runs = _motor_runs(mix)
+    first = np.arange(n)[ix][starts]
     maps = network_segment_maps(dur, c["Rth1"][first], c["Rth2"][first], c["tau_w"][first],
                                 c["tau_m"][first], periodic=bool(env.repeat))
     if np.all(runs == runs[0]):     # a regular block (motor × ratios): the maps broadcast, no gather
         grid = NetworkMaps(*(a[:, None] if a.ndim > 1 else a for a in maps))
-        peak = network_peak_rise(sub.reshape(len(starts), int(runs[0]), -1), grid).reshape(-1)
+        peak = network_peak_rise(sub.reshape(len(dur), len(starts), int(runs[0])), grid,
+                                 segments_first=True).reshape(-1)
     else:
         owner = np.repeat(np.arange(len(starts)), runs)
-        peak = network_peak_rise(sub, NetworkMaps(*(a[owner] if a.ndim > 1 else a for a in maps)))
+        peak = network_peak_rise(sub, NetworkMaps(*(a[owner] if a.ndim > 1 else a for a in maps)),
+                                 segments_first=True)
     out[ix] = peak
     return out
+
+
+def _argmax_rows(a, top):
+    """Index of the first row of ``a`` (S, N) equal to ``top`` (its column maxima), per column."""
+    idx = np.zeros(a.shape[1], dtype=np.intp)
+    for k in range(a.shape[0] - 1, -1, -1):   # ascending order wins: the loop runs backwards
+        idx[a[k] == top] = k
+    return idx
 
 
 def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict | None = None) -> dict:
@@ -124,7 +146,8 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     env : Envelope
         The load envelope (SI).
     c : dict
-        Candidate arrays of one chunk (see :func:`build_candidates`).
+        Candidate arrays of one chunk (keys :data:`EVAL_KEYS`, see
+        :class:`~catalog.select.candidates.Candidates`).
     detail : bool
         Also return the (N, S) segment arrays (for explanations).
     energy : bool
@@ -143,16 +166,26 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         ``motor_speed`` [rad/s], ``gear_out_peak``/``gear_out_rms`` [N·m],
         ``energy_per_cycle`` [J], segment indices ``*_seg`` and, with
         ``detail``, arrays ``seg_*`` of shape (N, S).
+
+    Notes
+    -----
+    Arrays are laid out segments first, (S, N), so that every per-segment
+    step works on contiguous rows; the torque and voltage of every segment
+    are one small matrix product each, since both are linear in a handful of
+    per-candidate coefficients.
     """
     seg = _segments(env) if seg is None else seg
     n = len(c["R"])
     ta = env.ambient_temperature
     ratio, eta = c["ratio"], c["eta"]
     back = eta if env.back_drive else 1.0 / eta
-    t_m = (np.multiply.outer((c["J"] + c["Jg"]) * ratio, seg["alpha"])
-           + np.multiply.outer(1.0 / (ratio * eta), seg["out_drive"])
-           + np.multiply.outer(back / ratio, seg["out_back"]))
-    t_em = t_m + np.multiply.outer(c["Tf"], seg["friction_sign"])
+    # T_em = (J + Jg)·n·α + T_out/(n·η) (driving) or T_out·η/n (back-driven) + Tf·sign(ω): linear in 4 terms
+    coef = np.empty((4, n))
+    np.multiply(c["J"] + c["Jg"], ratio, out=coef[0])
+    np.divide(1.0, ratio * eta, out=coef[1])
+    np.divide(back, ratio, out=coef[2])
+    coef[3] = c["Tf"]
+    t_em = seg["basis"] @ coef                                        # (S, N)
     t_sq = t_em * t_em
 
     # cold constants and the losses at ambient
@@ -164,8 +197,7 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     for name in fields:
         missing |= np.isnan(c[name])
     usable = ~missing & (r_amb > 0) & (kt_amb > 0)
-    loss = t_sq * (r_amb / (kt_amb * kt_amb))[:, None]
-    rise = _cold_rise(env, c, loss, usable)
+    rise = _cold_rise(env, c, t_sq, usable) * (r_amb / (kt_amb * kt_amb))
     # the hot fixed point: R and Kt at the peak winding temperature
     slope_r = resistance_at_temperature(c["R"], ta + 1.0, c["Tref"]) - r_amb
     slope_k = torque_constant_at_temperature(c["Kt"], ta + 1.0, c["beta"], c["Tref"]) - kt_amb
@@ -174,47 +206,60 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     fallback = np.where(np.isnan(c["Tmax"]), FALLBACK_TEMPERATURE, c["Tmax"])
     tw_eval = np.where(usable & ~runaway, ta + hot, fallback)
     reported = np.where(missing, np.nan, np.where(runaway, np.inf, ta + hot))
-
     r_hot = resistance_at_temperature(c["R"], tw_eval, c["Tref"])
     kt_hot = torque_constant_at_temperature(c["Kt"], tw_eval, c["beta"], c["Tref"])
     ke_hot = torque_constant_at_temperature(c["Ke"], tw_eval, c["beta"], c["Tref"])
-    w0, w1 = seg["w0"], seg["w1"]
-    corners = []
-    for r, kt, ke in ((r_amb, kt_amb, ke_amb), (r_hot, kt_hot, ke_hot)):
-        drop = t_em * (r / kt)[:, None]                   # R·I
-        emf = ke * ratio
-        corners.append((drop + np.multiply.outer(emf, w0), drop + np.multiply.outer(emf, w1)))
-    (vc0, vc1), (vh0, vh1) = corners
-    cold_need = np.fmax(np.abs(vc0), np.abs(vc1))
-    hot_need = np.fmax(np.abs(vh0), np.abs(vh1))
-    v_need = np.fmax(cold_need, hot_need)
-    v_seg = np.argmax(np.where(np.isnan(v_need), -np.inf, v_need), axis=1)
-    rows = np.arange(n)
-    need = v_need[rows, v_seg]
-    avail = env.available_voltage
-    hot_worse = hot_need[rows, v_seg] >= cold_need[rows, v_seg]
-    at0 = np.fmax(np.abs(vh0[rows, v_seg]), np.abs(vc0[rows, v_seg]))
-    at1 = np.fmax(np.abs(vh1[rows, v_seg]), np.abs(vc1[rows, v_seg]))
-    end_speed = ratio * np.where(at0 >= at1, np.abs(w0[v_seg]), np.abs(w1[v_seg]))
 
-    t_abs = np.sqrt(t_sq)
-    ipk_seg = np.argmax(np.where(np.isnan(t_abs), -np.inf, t_abs), axis=1)
-    peak_current = t_abs[rows, ipk_seg] / kt_hot
+    # needed voltage: |R/Kt·T_em + Ke·n·ω| at the segment ends = |… at the mid speed| + Ke·n·|Δω|/2
+    need, worse = None, None
+    spread = np.empty_like(t_em)
+    for r, kt, ke in ((r_amb, kt_amb, ke_amb), (r_hot, kt_hot, ke_hot)):
+        emf = ke * ratio
+        v = np.empty((5, n))
+        np.multiply(coef, r / kt, out=v[:4])
+        v[4] = emf
+        v = seg["voltage_basis"] @ v                                   # (S, N) at the mid speed
+        np.abs(v, out=v)
+        v += np.multiply.outer(seg["half_span"], emf, out=spread)
+        if need is None:
+            need = v
+        else:
+            worse = v >= need if detail else None
+            np.fmax(need, v, out=need)
+    top = np.maximum.reduce(np.where(np.isnan(need), -np.inf, need), axis=0)
+    v_seg = _argmax_rows(need, top)
+    rows = np.arange(n)
+    need_w = need[v_seg, rows]
+    avail = env.available_voltage
+    t_w = t_em[v_seg, rows]
+    corners = [(r / kt * t_w, ke * ratio) for r, kt, ke in ((r_amb, kt_amb, ke_amb), (r_hot, kt_hot, ke_hot))]
+    w0, w1 = seg["w0"][v_seg], seg["w1"][v_seg]
+    ends = [[np.abs(drop + emf * w) for w in (w0, w1)] for drop, emf in corners]
+    hot_worse = np.fmax(*ends[1]) >= np.fmax(*ends[0])
+    end_speed = ratio * np.where(np.fmax(ends[0][0], ends[1][0]) >= np.fmax(ends[0][1], ends[1][1]),
+                                 np.abs(w0), np.abs(w1))
+
+    sq_top = np.maximum.reduce(t_sq, axis=0)
+    ipk_seg = _argmax_rows(t_sq, sq_top)
+    peak_current = np.sqrt(sq_top) / kt_hot
     if env.mode == "cycle":
-        i_rms = np.sqrt((t_sq @ env.duration) / env.period) / kt_hot
+        i_rms = np.sqrt((env.duration @ t_sq) / env.period) / kt_hot
     else:
         cont = env.continuous
-        i_rms = (np.max(t_abs[:, cont], axis=1) / kt_hot) if cont.any() else np.zeros(n)
+        i_rms = (np.sqrt(np.max(t_sq[cont], axis=0)) / kt_hot) if cont.any() else np.zeros(n)
     e = np.full(n, np.nan)
     if energy and env.mode == "cycle":
-        i_hot = t_em / kt_hot[:, None]
+        i_hot = (t_em / kt_hot).T
         i_abs = np.abs(i_hot)
+        drop = (t_em * (r_hot / kt_hot)).T
+        emf = (ke_hot * ratio)[:, None]
+        vh0, vh1 = drop + emf * seg["w0"], drop + emf * seg["w1"]
         e = energy_per_cycle(vh0 * i_hot + env.drive_voltage_drop * i_abs, env.duration,
                              vh1 * i_hot + env.drive_voltage_drop * i_abs, regenerative=env.regenerative)
     out = {
         "winding_temperature": reported, "runaway": runaway, "thermal_missing": missing,
         "rms_current": i_rms, "peak_current": peak_current, "peak_current_seg": ipk_seg,
-        "voltage_seg": v_seg, "voltage_margin": (avail - need) / avail, "voltage_need": need,
+        "voltage_seg": v_seg, "voltage_margin": (avail - need_w) / avail, "voltage_need": need_w,
         "voltage_speed": end_speed, "voltage_hot": hot_worse,
         "motor_speed": ratio * seg["w_abs_max"], "speed_seg": np.full(n, seg["speed_seg"]),
         "gear_out_peak": np.full(n, seg["t_out_abs"][seg["gear_out_seg"]]),
@@ -222,10 +267,12 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         "energy_per_cycle": e,
     }
     if detail:
-        out.update(seg_motor_torque=t_m, seg_em_torque=t_em, seg_current=t_em / kt_hot[:, None],
-                   seg_voltage=v_need, seg_speed_start=np.multiply.outer(ratio, w0),
-                   seg_speed_end=np.multiply.outer(ratio, w1),
-                   seg_gear_torque=np.broadcast_to(seg["t_out_abs"], t_m.shape), seg_hot_worse=hot_need >= cold_need)
+        t_m = t_em - np.multiply.outer(seg["friction_sign"], c["Tf"])
+        out.update(seg_motor_torque=t_m.T, seg_em_torque=t_em.T, seg_current=(t_em / kt_hot).T,
+                   seg_voltage=need.T, seg_speed_start=np.multiply.outer(ratio, seg["w0"]),
+                   seg_speed_end=np.multiply.outer(ratio, seg["w1"]),
+                   seg_gear_torque=np.broadcast_to(seg["t_out_abs"], (n, len(seg["w0"]))),
+                   seg_hot_worse=worse.T)
     return out
 
 
@@ -240,19 +287,69 @@ def _chunk_starts(motor_ix, total: int) -> list:
     return [int(s) for s in starts]
 
 
-def evaluate_all(env, cand: dict, energy: bool = True) -> dict:
-    """:func:`evaluate` over every candidate, chunk by chunk; (N,) arrays only."""
-    total = len(cand["id"])
+def evaluate_all(env, cand, energy: bool = True, checks: bool = False, copy=()) -> dict:
+    """:func:`evaluate` over every candidate, chunk by chunk; (N,) arrays only.
+
+    With ``checks`` every chunk also runs the checks
+    (:func:`catalog.select.checks.run_checks`, no texts): the result then
+    holds every margin, a ``fails_<check>`` array per check, ``passed`` and
+    ``worst_seg`` (the segment of the smallest of the voltage, peak-current
+    and speed margins).  ``copy`` names candidate columns to return as well
+    (gathered chunk by chunk).
+    Chunks run side by side on :data:`WORKERS` threads and write into arrays
+    allocated once, so nothing of the size of the whole catalogue is copied.
+    """
+    from threadpoolctl import threadpool_limits
+
+    from .checks import CHECKS, check_keys, run_checks
+
+    is_set = hasattr(cand, "take")
+    total = cand.size if is_set else len(cand["ratio"])
     if not total:
         return {}
     seg = _segments(env)
-    starts = _chunk_starts(np.asarray(cand["motor_ix"]), total)
+    starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total)
     bounds = list(zip(starts, starts[1:] + [total]))
-    run = (lambda b: evaluate(env, {k: v[b[0]:b[1]] for k, v in cand.items()}, energy=energy, seg=seg))
+    keys = tuple(dict.fromkeys(EVAL_KEYS + (check_keys(env) if checks else ()) + tuple(copy)))
+    out: dict = {}
+
+    def run(b):
+        c = cand.take(slice(*b), keys) if is_set else {k: v[b[0]:b[1]] for k, v in cand.items() if k in keys}
+        r = evaluate(env, c, energy=energy, seg=seg)
+        if checks:
+            margins, failed, _, _ = run_checks(env, c, r, with_texts=False)
+            r.update(margins)
+            r.update({"fails_" + k: failed[k] for k in CHECKS})
+            r["passed"] = ~np.logical_or.reduce([failed[k] for k in CHECKS])
+            worst = r["voltage_seg"].copy()
+            low = np.nan_to_num(r["voltage_margin"], nan=np.inf)
+            for margin, at in (("peak_current_margin", "peak_current_seg"), ("motor_speed_margin", "speed_seg")):
+                m = np.nan_to_num(r[margin], nan=np.inf)
+                better = m < low
+                worst[better], low = r[at][better], np.where(better, m, low)
+            r["worst_seg"] = worst
+        for k in copy:
+            r[k] = c[k]
+        return b, r
+
+    def store(b, r):
+        if not out:
+            for k, v in r.items():
+                out[k] = np.empty(total, dtype=np.asarray(v).dtype)
+        for k, v in r.items():
+            out[k][b[0]:b[1]] = v
+
     workers = min(len(bounds), WORKERS)
-    if workers > 1:   # numpy releases the GIL inside its array loops: chunks run side by side
-        with ThreadPoolExecutor(max_workers=workers) as pool:
-            pieces = list(pool.map(run, bounds))
-    else:
-        pieces = [run(b) for b in bounds]
-    return {k: np.concatenate([p[k] for p in pieces]) for k in pieces[0]}
+    # the chunks are the parallel work: a BLAS that also starts threads for each small product only
+    # fights them (20x slower here)
+    with threadpool_limits(1, user_api="blas"):
+        first = run(bounds[0])
+        store(*first)
+        if workers > 1:   # numpy releases the GIL inside its array loops: chunks run side by side
+            with ThreadPoolExecutor(max_workers=workers) as pool:
+                for b, r in pool.map(run, bounds[1:]):
+                    store(b, r)
+        else:
+            for b in bounds[1:]:
+                store(*run(b))
+    return out

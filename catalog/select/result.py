@@ -6,7 +6,7 @@ speeds in rad/s); the CLI converts for display.
 """
 from __future__ import annotations
 
-__all__ = ["Selection", "select", "MARGIN_COLUMNS"]
+__all__ = ["Selection", "select", "MARGIN_COLUMNS", "Coded"]
 
 import difflib
 
@@ -15,9 +15,9 @@ import pandas as pd
 
 from ..errors import NotFound
 from .candidates import GEAR_ASSUMED, GEAR_CATALOGUE, GEAR_DIRECT, build_candidates
-from .checks import CHECKS, reason_texts, run_checks
+from .checks import CHECKS, reason_texts
 from .envelope import load_envelope
-from .evaluate import evaluate, evaluate_all
+from .evaluate import EVAL_KEYS, evaluate, evaluate_all
 
 #: Who makes the parts and their part numbers (to order them); gear columns empty without a catalogue gearhead.
 PART_COLUMNS = ["manufacturer", "part_number", "gear_manufacturer", "gear_part_number"]
@@ -41,6 +41,20 @@ def _pareto(values: np.ndarray) -> np.ndarray:
     return keep
 
 
+class Coded:
+    """A text column held as codes into a few labels (no text per row until rows are read)."""
+
+    def __init__(self, codes, labels):
+        self.codes = np.asarray(codes, dtype=np.intp)
+        self.labels = np.asarray(list(labels) + [None], dtype=object)   # code -1: no value
+
+    def __len__(self) -> int:
+        return len(self.codes)
+
+    def take(self, rows) -> np.ndarray:
+        return self.labels[self.codes[rows]]
+
+
 class Selection:
     """Candidates of a catalogue evaluated against one envelope.
 
@@ -49,100 +63,112 @@ class Selection:
     envelope : Envelope
         The validated envelope (SI).
     table : DataFrame
-        Every candidate with every metric, margin, ``passed`` and ``reasons``.
+        Every candidate with every metric, margin, ``passed`` and ``reasons``,
+        passing candidates first in ranking order (built on first access).
     shortlist : DataFrame
         The passing candidates in ranking order, ``top`` of them.
     rejected : DataFrame
         Every failing candidate with its failed checks and their numbers.
+
+    The candidates are kept as columns (arrays in candidate order, texts as
+    codes) and only the rows somebody reads become a DataFrame, with their
+    texts (ids, reasons, notes) built then.
     """
 
-    def __init__(self, envelope, candidates: dict, table: pd.DataFrame, top: int, *, lazy=None):
+    def __init__(self, envelope, candidates, table, top: int, *, lazy=None, order=None):
         self.envelope = envelope
         self._cand = candidates
         self._top = top
-        self._lazy = lazy          # (rows of the table -> DataFrame of the text columns), or None
-        self._table = table
-        self._passing = self._rejected = None
-        passed = table["passed"].to_numpy(dtype=bool)
-        self._passed = passed
-        head = np.flatnonzero(passed)[:top]
+        self._lazy = lazy          # (candidate positions -> {column: values}) for the text columns, or None
+        if isinstance(table, pd.DataFrame):
+            table = {k: table[k].to_numpy() for k in table.columns}
+        self._cols = table         # column -> array (or Coded), candidate order when ``lazy`` is set
+        n = len(table["passed"])
+        # rows in display order (passing by rank, then the rest); None: the columns' own order
+        self._order = np.arange(n) if order is None else np.asarray(order)
+        self._passing = self._rejected = self._table = None
+        self._passed = np.asarray(table["passed"], dtype=bool)
+        self._n_pass = int(self._passed.sum())
+        shown = self._order[self._passed[self._order]]
         cols = ["rank", "candidate", "motor", "gear", *PART_COLUMNS, "ratio", "worst_segment", *MARGIN_COLUMNS,
                 "winding_temperature", "rms_current", "peak_current", "energy_per_cycle", "mass",
                 "price", "currency", "pareto", "notes"]
-        self.shortlist = self._rows(head)[cols].reset_index(drop=True)
+        self.shortlist = self._rows(shown[:top])[cols].reset_index(drop=True)
 
     def _rows(self, rows) -> pd.DataFrame:
-        """Table rows at positions ``rows``, with the text columns (built only for them)."""
-        part = self._table.iloc[rows]
-        if self._lazy is None:
-            return part
-        part = part.copy()
-        for k, v in self._lazy(np.asarray(rows)).items():
-            part[k] = v
-        return part
+        """The rows at positions ``rows`` as a DataFrame, with the text columns (built only for them)."""
+        rows = np.asarray(rows, dtype=np.intp)
+        data = {k: (v.take(rows) if isinstance(v, Coded) else np.asarray(v)[rows]) for k, v in self._cols.items()}
+        if self._lazy is not None:
+            data.update(self._lazy(rows))
+        return pd.DataFrame(data)
 
     @property
     def table(self) -> pd.DataFrame:
-        """Every candidate with every metric, margin, ``passed``, ``failed``, ``reasons`` and ``notes``.
+        """Every candidate with every metric, margin, ``passed``, ``failed``, ``reasons`` and ``notes``,
+        passing candidates first in ranking order.
 
         The text columns are built on first access (every check is decided
         without them; ``reason_counts`` and the shortlist never need them).
         """
-        if self._lazy is not None:
-            self._table = self._rows(np.arange(len(self._table)))
-            self._lazy = None
+        if self._table is None:
+            self._table = self._rows(self._order)
         return self._table
 
     @table.setter
     def table(self, value):
-        self._table, self._lazy = value, None
+        self.__init__(self.envelope, self._cand, value, self._top)
 
     @property
     def passing(self) -> pd.DataFrame:
         """The passing candidates in ranking order."""
         if self._passing is None:
-            self._passing = self._rows(np.flatnonzero(self._passed))
+            self._passing = self._rows(self._order[:self._n_pass])
         return self._passing
 
     @property
     def rejected(self) -> pd.DataFrame:
         """Every failing candidate with its failed checks and their numbers (texts built on first access)."""
         if self._rejected is None:
-            self._rejected = self._rows(np.flatnonzero(~self._passed))[
+            failing = self._order[~self._passed[self._order]]
+            self._rejected = self._rows(failing)[
                 ["candidate", "motor", "gear", *PART_COLUMNS, "ratio", "failed", "reasons"]].reset_index(drop=True)
         return self._rejected
 
     def __repr__(self) -> str:
-        n_pass = int(self._passed.sum())
-        return (f"Selection({self.envelope.name!r}: {n_pass} passing, "
-                f"{len(self._passed) - n_pass} rejected)")
+        return (f"Selection({self.envelope.name!r}: {self._n_pass} passing, "
+                f"{len(self._passed) - self._n_pass} rejected)")
 
     def reason_counts(self) -> pd.Series:
         """Number of rejected candidates failing each check, most frequent first."""
-        t = self._table
         rej = ~self._passed
-        counts = pd.Series([int(np.count_nonzero(t["fails_" + k].to_numpy(dtype=bool) & rej)) for k in CHECKS],
-                           dtype=int)
+        counts = pd.Series([int(np.count_nonzero(np.asarray(self._cols["fails_" + k], dtype=bool) & rej))
+                            for k in CHECKS], dtype=int)
         counts.index = list(CHECKS)
         return counts[counts > 0].sort_values(ascending=False, kind="stable")
 
     def explain(self, candidate_id: str) -> str:
         """The whole story of one candidate: every segment and every margin, as text."""
-        ids = list(self._cand["id"])
-        if candidate_id not in ids:
+        i = self._cand.find(candidate_id)
+        if i is None:
+            motor_ids = [str(m) for m in self._cand.motors["id"]]
+            near = difflib.get_close_matches(candidate_id, motor_ids, n=3, cutoff=0.5)
+            ids = list(self._cand.ids(np.flatnonzero(np.isin(self._cand.motor_ix, [motor_ids.index(m) for m in near]))))
             close = difflib.get_close_matches(candidate_id, ids, n=5, cutoff=0.5)
             hint = f"; did you mean {', '.join(close)}?" if close else ""
             raise NotFound(f"no candidate {candidate_id!r} for this envelope{hint}", suggestions=close)
-        i = ids.index(candidate_id)
-        one = {k: v[i:i + 1] for k, v in self._cand.items()}
+        one = self._cand.take(slice(i, i + 1))
         d = evaluate(self.envelope, one, detail=True)
-        pos = np.flatnonzero(self._table["candidate"].to_numpy(dtype=object) == candidate_id)[:1]
+        if self._lazy is None and "candidate" in self._cols:   # columns given in their own order
+            pos = np.flatnonzero(np.asarray(self._cols["candidate"], dtype=object) == candidate_id)[:1]
+        else:
+            pos = np.array([i])   # the columns are in candidate order
         row = self._rows(pos).iloc[0]
         env = self.envelope
         lines = [f"candidate {candidate_id}",
                  f"  motor {row['motor']}; gear {row['gear']} ({_GEAR_KIND[int(one['kind'][0])]}), ratio "
                  f"{row['ratio']:g}, efficiency {one['eta'][0]:.3g}"]
-        verdict = (f"passes, rank {int(row['rank'])} of {int(self._passed.sum())}" if row["passed"]
+        verdict = (f"passes, rank {int(row['rank'])} of {self._n_pass}" if row["passed"]
                    else f"rejected: {row['failed']}")
         lines.append(f"  verdict: {verdict}")
         tw = row["winding_temperature"]
@@ -206,57 +232,48 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     env = load_envelope(envelope)
     cand = build_candidates(motors, gearheads, env)
     if motor_notes:
-        cand["motor_note"] = pd.Series(cand["motor"]).map(motor_notes).fillna("").to_numpy(dtype=object)
+        cand.set_motor_notes(motor_notes)
     keys = [k.lstrip("-") for k in list(env.rank_keys) + list(env.pareto or [])]
     with_energy = "energy_per_cycle" in keys   # otherwise computed for the rows shown only
-    res = evaluate_all(env, cand, energy=with_energy) if len(cand["id"]) else {}
-    n = len(cand["id"])
-    cols = {"candidate": cand["id"], "motor": cand["motor"], "gear": cand["gear"], "ratio": cand["ratio"]}
+    n = cand.size
+    copied = ("ratio", "mass", "price", "length", "diameter")
+    res = evaluate_all(env, cand, energy=with_energy, checks=True, copy=copied) if n else {}
+    table = {"motor": Coded(cand.motor_ix, cand.motors["id"]), "gear": Coded(cand.option_ix, cand.options["label"]),
+             "ratio": res["ratio"] if n else np.zeros(0)}
     if n:
-        margins, failed, _, _ = run_checks(env, cand, res, with_texts=False)
-        cols.update(margins)
-        for k in ("winding_temperature", "rms_current", "peak_current", "energy_per_cycle"):
-            cols[k] = res[k]
-        for k in ("mass", "price", "length", "diameter"):
-            cols[k] = cand[k]
-        cols["currency"] = cand["currency"]
-        seg_choice = np.argmin(np.vstack([np.nan_to_num(cols[c], nan=np.inf) for c in
-                                          ("voltage_margin", "peak_current_margin", "motor_speed_margin")]),
-                               axis=0)
-        segs = np.vstack([res["voltage_seg"], res["peak_current_seg"], res["speed_seg"]])
-        cols["worst_segment"] = np.asarray(env.names, dtype=object)[segs[seg_choice, np.arange(n)]]
-        cols["notes"] = np.full(n, None, dtype=object)   # text columns: built by the Selection when asked for
-        fails = {"fails_" + k: failed[k].to_numpy() for k in CHECKS}
-        cols.update(fails)
-        cols["passed"] = ~np.logical_or.reduce(list(fails.values()))
-        cols["failed"] = cols["reasons"] = np.full(n, None, dtype=object)
+        for k in MARGIN_COLUMNS + ["winding_temperature", "rms_current", "peak_current", "energy_per_cycle"]:
+            table[k] = res[k]
+        for k in copied[1:]:
+            table[k] = res[k]
+        table["currency"] = Coded(*cand.currency_codes())
+        table["worst_segment"] = Coded(res["worst_seg"], env.names)
+        for k in CHECKS:
+            table["fails_" + k] = res["fails_" + k]
+        table["passed"] = res["passed"]
     else:
         for k in CHECKS:
-            cols["fails_" + k] = np.zeros(0, bool)
-        cols["passed"] = np.zeros(0, bool)
-        for k in PART_COLUMNS + ["worst_segment", "currency", "notes", "failed", "reasons"]:
-            cols[k] = np.zeros(0, dtype=object)   # an empty catalogue: the same columns, no rows
+            table["fails_" + k] = np.zeros(0, bool)
+        table["passed"] = np.zeros(0, bool)
+        for k in PART_COLUMNS + ["candidate", "worst_segment", "currency", "notes", "failed", "reasons"]:
+            table[k] = np.zeros(0, dtype=object)   # an empty catalogue: the same columns, no rows
         for k in MARGIN_COLUMNS + ["winding_temperature", "rms_current", "peak_current", "energy_per_cycle",
                                    "mass", "price", "length", "diameter"]:
-            cols[k] = np.zeros(0)
-    table = pd.DataFrame(cols, copy=False)   # the arrays are not copied once more
-    table, pos = _rank(table, env)
+            table[k] = np.zeros(0)
+    order = _rank(table, env)
     lazy = None
     if n:
         parts = _part_names(motors, gearheads)
 
-        def lazy(rows):
-            at = pos[rows]
+        def lazy(at):
             keys, reasons, notes = reason_texts(env, cand, res, at)
-            out = {"notes": notes, "failed": keys, "reasons": reasons}
+            out = {"candidate": cand.ids(at), "notes": notes, "failed": keys, "reasons": reasons}
             if not with_energy and len(at):
-                sub = {k: (v[at] if isinstance(v, np.ndarray) and v.shape[:1] == (n,) else v)
-                       for k, v in cand.items()}
-                out["energy_per_cycle"] = evaluate(env, sub)["energy_per_cycle"]
+                out["energy_per_cycle"] = evaluate(env, cand.take(at, EVAL_KEYS))["energy_per_cycle"]
+            sources = cand.take(at, ("motor", "gear"))
             for (column, source), names in parts.items():
-                out[column] = pd.Series(cand[source][at]).map(names).to_numpy(dtype=object)
+                out[column] = pd.Series(sources[source], dtype=object).map(names).to_numpy(dtype=object)
             return out
-    return Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy)
+    return Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy, order=order)
 
 
 def _part_names(motors, gearheads) -> dict:
@@ -271,35 +288,27 @@ def _part_names(motors, gearheads) -> dict:
     return out
 
 
-def _rank(table: pd.DataFrame, env) -> tuple:
-    """Add ``rank`` (passing candidates in ranking order) and ``pareto`` columns.
+def _rank(table: dict, env) -> np.ndarray:
+    """Add ``rank`` (passing candidates in ranking order) and ``pareto`` columns to ``table``.
 
-    Returns the table in ranking order (passing first, then the rest in
-    candidate order) and the candidate position of each of its rows.  Only
-    the passing rows are sorted, and the table is reordered by one ``take``.
-    ``table`` is changed in place (``select`` owns it).
+    Returns the rows in display order: passing first by rank (ties in
+    candidate order), then the rest in candidate order.  Only the passing rows
+    are sorted.
     """
-    n = len(table)
-    table["rank"] = np.nan
-    table["pareto"] = False
+    passed = np.asarray(table["passed"], dtype=bool)
+    n = len(passed)
+    table["rank"] = np.full(n, np.nan)
+    table["pareto"] = np.zeros(n, bool)
     if "winding_temperature" not in table:
-        return table, np.arange(n)
-    passed = table["passed"].to_numpy(dtype=bool)
+        return np.arange(n)
     ix = np.flatnonzero(passed)
     cols = [k.lstrip("-") for k in env.rank_keys]
     ascending = [not k.startswith("-") for k in env.rank_keys]
-    keys = table[cols + ["candidate"]].iloc[ix]
-    keys.index = ix
-    order = keys.sort_values(cols + ["candidate"], ascending=ascending + [True], na_position="last",
-                             kind="mergesort").index.to_numpy()
-    rank = np.full(n, np.nan)
-    rank[order] = np.arange(1, len(order) + 1)
-    table["rank"] = rank
+    keys = pd.DataFrame({c: np.asarray(table[c], dtype=float)[ix] for c in dict.fromkeys(cols)}, index=ix)
+    order = keys.sort_values(cols, ascending=ascending, na_position="last", kind="mergesort").index.to_numpy()
+    table["rank"][order] = np.arange(1, len(order) + 1)
     if env.pareto and len(ix):
         sign = np.array([-1.0 if k.startswith("-") else 1.0 for k in env.pareto])
-        vals = table[[k.lstrip("-") for k in env.pareto]].to_numpy(dtype=float)[ix] * sign
-        pareto = np.zeros(n, bool)
-        pareto[ix] = _pareto(vals)
-        table["pareto"] = pareto
-    pos = np.concatenate([order, np.flatnonzero(~passed)])
-    return table.take(pos).reset_index(drop=True), pos
+        vals = np.column_stack([np.asarray(table[k.lstrip("-")], dtype=float)[ix] for k in env.pareto]) * sign
+        table["pareto"][ix] = _pareto(vals)
+    return np.concatenate([order, np.flatnonzero(~passed)])

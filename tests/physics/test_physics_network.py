@@ -77,7 +77,7 @@ def test_a_grid_of_ratios_broadcasts_against_per_motor_maps():
                                                                          tm[::10]))))
     flat = ph.network_peak_rise(loss, ph.network_segment_maps(d, np.repeat(r1[::10], 10), np.repeat(r2[::10], 10),
                                                               np.repeat(tw[::10], 10), np.repeat(tm[::10], 10)))
-    np.testing.assert_array_equal(grid.reshape(-1), flat)
+    np.testing.assert_allclose(grid.reshape(-1), flat, rtol=1e-12)
 
 
 def test_the_peak_scales_with_the_losses():
