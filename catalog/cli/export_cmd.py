@@ -108,9 +108,9 @@ def report_cmd(obj: Context, envelope, out, top, plots, units, side):
     cat = obj.catalog()
     sel = cat.select(envelope, top=top)
     write_report(sel, path, units=units, catalog=cat, side=side, plots=plots)
-    n_pass = len(sel.passing)
-    echo(f"{path}: report of {sel.envelope.name}: {n_pass + len(sel.rejected)} candidate(s), "
-               f"{n_pass} pass, {len(sel.shortlist)} on the shortlist")
+    n_pass, n_rej = sel.counts
+    echo(f"{path}: report of {sel.envelope.name}: {n_pass + n_rej} candidate(s), "
+         f"{n_pass} pass, {len(sel.shortlist)} on the shortlist")
     sys.exit(0 if n_pass else 1)
 
 

@@ -81,7 +81,7 @@ def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
         written = write_selection(sel, out, units=units, catalog=cat)
         echo(f"{written}: shortlist of {len(sel.shortlist)} written ({units} units)", err=fmt != "table")
     env = sel.envelope
-    n_pass, n_rej = len(sel.passing), len(sel.rejected)
+    n_pass, n_rej = sel.counts
     if fmt != "table":
         print_frame(sel.shortlist, fmt)
         sys.exit(0 if n_pass else 1)

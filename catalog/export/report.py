@@ -82,7 +82,7 @@ def _envelope(selection, units: str) -> str:
 
 
 def _facts(selection) -> str:
-    n_pass, n_rej = len(selection.passing), len(selection.rejected)
+    n_pass, n_rej = selection.counts
     items = [(n_pass + n_rej, "candidates evaluated"), (n_pass, "meet the envelope"),
              (len(selection.shortlist), "on the shortlist"), (n_rej, "rejected")]
     return '<ul class="facts">' + "".join(f"<li><b>{v}</b><span>{esc(t)}</span></li>" for v, t in items) + "</ul>"

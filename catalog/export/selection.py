@@ -159,7 +159,7 @@ def _about(selection, cat, preset) -> dict:
     from .catalogue import about_block
 
     env = selection.envelope
-    n_pass, n_rej = len(selection.passing), len(selection.rejected)
+    n_pass, n_rej = selection.counts
     return about_block(cat, preset, envelope=env.name, envelope_source=str(env.source),
                        candidates=n_pass + n_rej, passing=n_pass, shortlisted=len(selection.shortlist),
                        rejected=n_rej, ranking=", ".join(env.rank_keys), caution=CAUTION)

@@ -80,7 +80,10 @@ def run_checks(env, c: dict, r: dict, with_texts: bool = True):
     def put(key, fail, text):
         fail = np.asarray(fail, bool)
         fails[key] = fail
-        if with_texts:   # the text is a thunk: built only when asked for
+        if with_texts:   # the text is a thunk: built only when asked for, and only if a row failed
+            if not fail.any():
+                texts[key] = pd.Series([""] * n, dtype=object)
+                return
             text = text()
             texts[key] = pd.Series(text if isinstance(text, pd.Series) else [text] * n).where(fail, "")
 

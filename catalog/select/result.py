@@ -135,6 +135,11 @@ class Selection:
                 ["candidate", "motor", "gear", *PART_COLUMNS, "ratio", "failed", "reasons"]].reset_index(drop=True)
         return self._rejected
 
+    @property
+    def counts(self) -> tuple[int, int]:
+        """(passing, rejected) candidates, without building any row."""
+        return self._n_pass, len(self._passed) - self._n_pass
+
     def __repr__(self) -> str:
         return (f"Selection({self.envelope.name!r}: {self._n_pass} passing, "
                 f"{len(self._passed) - self._n_pass} rejected)")
