@@ -183,18 +183,22 @@ def check_keys(env) -> tuple:
     return tuple(keys)
 
 
-def reason_texts(env, c: dict, r: dict, rows) -> tuple:
-    """(failed keys, reasons, notes) as object arrays for the candidate positions ``rows``.
+def reason_texts(env, c: dict, r: dict, rows=None) -> tuple:
+    """(failed keys, reasons, notes) as object arrays, for the candidate positions ``rows`` of ``c``
+    and ``r`` (or for all of them when ``c`` and ``r`` already hold just the rows wanted).
 
     The checks are row-wise, so running them on the rows asked for gives the
     same texts as on the whole table, at the cost of those rows only.
     """
-    rows = np.asarray(rows, dtype=int)
-    n = _size(c)
-    take = (lambda d: {k: (v[rows] if isinstance(v, np.ndarray) and v.ndim and len(v) == n else v)
-                       for k, v in d.items()})
-    sub = c.take(rows) if hasattr(c, "take") else take(c)
-    _, failed, texts, notes = run_checks(env, sub, take(r))
+    if rows is None:
+        sub, res = c, r
+    else:
+        rows = np.asarray(rows, dtype=int)
+        n = _size(c)
+        take = (lambda d: {k: (v[rows] if isinstance(v, np.ndarray) and v.ndim and len(v) == n else v)
+                           for k, v in d.items()})
+        sub, res = (c.take(rows) if hasattr(c, "take") else take(c)), take(r)
+    _, failed, texts, notes = run_checks(env, sub, res)
     keys = _join({k: np.where(failed[k], k, "") for k in failed}, ", ")
     reasons = _join({k: texts[k].to_numpy(dtype=object) for k in texts}, "; ")
     return keys, reasons, notes.to_numpy(dtype=object)

@@ -41,6 +41,7 @@ from __future__ import annotations
 __all__ = ["evaluate", "evaluate_all", "CHUNK", "WORKERS", "SHORT_PERIOD", "FALLBACK_TEMPERATURE"]
 
 import os
+import threading
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
@@ -84,6 +85,25 @@ def _segments(env) -> dict:
             "half_span": np.abs(w1 - w0) / 2.0,
             "t_out_abs": out_abs, "out_rms": out_rms, "speed_seg": int(np.argmax(w_abs)),
             "w_abs_max": float(np.max(w_abs)), "gear_out_seg": int(np.argmax(out_abs))}
+
+
+_LOCAL = threading.local()
+
+
+def _buffer(name: str, shape: tuple) -> np.ndarray:
+    """A scratch array of ``shape`` kept per thread and reused chunk after chunk.
+
+    Fresh megabyte-sized arrays come from the operating system page by page,
+    and touching a page the first time costs microseconds on a virtual
+    machine: on this kind of machine more than the arithmetic on it.  Scratch
+    arrays never leave :func:`evaluate`.
+    """
+    pool = _LOCAL.__dict__.setdefault("buffers", {})
+    size = int(np.prod(shape))
+    buf = pool.get(name)
+    if buf is None or buf.size < size:
+        buf = pool[name] = np.empty(max(size, CHUNK * 32))
+    return buf[:size].reshape(shape)
 
 
 def _motor_runs(motor_ix):
@@ -180,13 +200,14 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     ratio, eta = c["ratio"], c["eta"]
     back = eta if env.back_drive else 1.0 / eta
     # T_em = (J + Jg)·n·α + T_out/(n·η) (driving) or T_out·η/n (back-driven) + Tf·sign(ω): linear in 4 terms
-    coef = np.empty((4, n))
+    n_seg = len(seg["w0"])
+    coef = _buffer("coef", (4, n))
     np.multiply(c["J"] + c["Jg"], ratio, out=coef[0])
     np.divide(1.0, ratio * eta, out=coef[1])
     np.divide(back, ratio, out=coef[2])
     coef[3] = c["Tf"]
-    t_em = seg["basis"] @ coef                                        # (S, N)
-    t_sq = t_em * t_em
+    t_em = np.matmul(seg["basis"], coef, out=_buffer("t_em", (n_seg, n)))   # (S, N)
+    t_sq = np.multiply(t_em, t_em, out=_buffer("t_sq", (n_seg, n)))
 
     # cold constants and the losses at ambient
     r_amb = resistance_at_temperature(c["R"], ta, c["Tref"])
@@ -212,13 +233,13 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
 
     # needed voltage: |R/Kt·T_em + Ke·n·ω| at the segment ends = |… at the mid speed| + Ke·n·|Δω|/2
     need, worse = None, None
-    spread = np.empty_like(t_em)
-    for r, kt, ke in ((r_amb, kt_amb, ke_amb), (r_hot, kt_hot, ke_hot)):
+    spread = _buffer("spread", (n_seg, n))
+    for corner, (r, kt, ke) in enumerate(((r_amb, kt_amb, ke_amb), (r_hot, kt_hot, ke_hot))):
         emf = ke * ratio
-        v = np.empty((5, n))
-        np.multiply(coef, r / kt, out=v[:4])
-        v[4] = emf
-        v = seg["voltage_basis"] @ v                                   # (S, N) at the mid speed
+        terms = _buffer("terms", (5, n))
+        np.multiply(coef, r / kt, out=terms[:4])
+        terms[4] = emf
+        v = np.matmul(seg["voltage_basis"], terms, out=_buffer(("need", "v")[corner], (n_seg, n)))  # at mid speed
         np.abs(v, out=v)
         v += np.multiply.outer(seg["half_span"], emf, out=spread)
         if need is None:
@@ -226,7 +247,7 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         else:
             worse = v >= need if detail else None
             np.fmax(need, v, out=need)
-    top = np.maximum.reduce(np.where(np.isnan(need), -np.inf, need), axis=0)
+    top = np.fmax.reduce(need, axis=0)                                 # NaN (no constants) never wins
     v_seg = _argmax_rows(need, top)
     rows = np.arange(n)
     need_w = need[v_seg, rows]
@@ -266,13 +287,13 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         "gear_out_seg": np.full(n, seg["gear_out_seg"]), "gear_out_rms": np.full(n, seg["out_rms"]),
         "energy_per_cycle": e,
     }
-    if detail:
+    if detail:   # copies: the scratch arrays are used again by the next chunk
         t_m = t_em - np.multiply.outer(seg["friction_sign"], c["Tf"])
-        out.update(seg_motor_torque=t_m.T, seg_em_torque=t_em.T, seg_current=(t_em / kt_hot).T,
-                   seg_voltage=need.T, seg_speed_start=np.multiply.outer(ratio, seg["w0"]),
+        out.update(seg_motor_torque=t_m.T.copy(), seg_em_torque=t_em.T.copy(), seg_current=(t_em / kt_hot).T,
+                   seg_voltage=need.T.copy(), seg_speed_start=np.multiply.outer(ratio, seg["w0"]),
                    seg_speed_end=np.multiply.outer(ratio, seg["w1"]),
                    seg_gear_torque=np.broadcast_to(seg["t_out_abs"], (n, len(seg["w0"]))),
-                   seg_hot_worse=worse.T)
+                   seg_hot_worse=worse.T.copy())
     return out
 
 
@@ -287,21 +308,44 @@ def _chunk_starts(motor_ix, total: int) -> list:
     return [int(s) for s in starts]
 
 
-def evaluate_all(env, cand, energy: bool = True, checks: bool = False, copy=()) -> dict:
-    """:func:`evaluate` over every candidate, chunk by chunk; (N,) arrays only.
+def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: bool = False) -> dict:
+    """:func:`evaluate` plus the checks (no texts) of candidate rows ``c``.
 
-    With ``checks`` every chunk also runs the checks
-    (:func:`catalog.select.checks.run_checks`, no texts): the result then
-    holds every margin, a ``fails_<check>`` array per check, ``passed`` and
+    Adds every margin, ``fails_<check>`` per check, ``passed`` and
     ``worst_seg`` (the segment of the smallest of the voltage, peak-current
-    and speed margins).  ``copy`` names candidate columns to return as well
-    (gathered chunk by chunk).
-    Chunks run side by side on :data:`WORKERS` threads and write into arrays
-    allocated once, so nothing of the size of the whole catalogue is copied.
+    and speed margins) to the evaluation.
+    """
+    from .checks import CHECKS, run_checks
+
+    r = evaluate(env, c, detail=detail, energy=energy, seg=seg)
+    margins, failed, _, _ = run_checks(env, c, r, with_texts=False)
+    r.update(margins)
+    r.update({"fails_" + k: failed[k] for k in CHECKS})
+    r["passed"] = ~np.logical_or.reduce([failed[k] for k in CHECKS])
+    worst = r["voltage_seg"].copy()
+    low = np.nan_to_num(r["voltage_margin"], nan=np.inf)
+    for margin, at in (("peak_current_margin", "peak_current_seg"), ("motor_speed_margin", "speed_seg")):
+        m = np.nan_to_num(r[margin], nan=np.inf)
+        better = m < low
+        worst[better], low = r[at][better], np.where(better, m, low)
+    r["worst_seg"] = worst
+    return r
+
+
+def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
+    """The verdicts of every candidate: :func:`checked` chunk by chunk.
+
+    Returns ``passed`` and ``fails_<check>`` for every candidate and, for
+    the names in ``keep`` (default: everything :func:`checked` returns),
+    their arrays.  Everything else of a candidate is computed again, exactly
+    the same way, for the rows somebody reads (:func:`checked` on those rows):
+    a selection over millions of candidates so writes little more than its
+    verdicts, and first touching memory is not free.  Chunks run side by side
+    on :data:`WORKERS` threads and write into arrays allocated once.
     """
     from threadpoolctl import threadpool_limits
 
-    from .checks import CHECKS, check_keys, run_checks
+    from .checks import CHECKS, check_keys
 
     is_set = hasattr(cand, "take")
     total = cand.size if is_set else len(cand["ratio"])
@@ -310,27 +354,14 @@ def evaluate_all(env, cand, energy: bool = True, checks: bool = False, copy=()) 
     seg = _segments(env)
     starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total)
     bounds = list(zip(starts, starts[1:] + [total]))
-    keys = tuple(dict.fromkeys(EVAL_KEYS + (check_keys(env) if checks else ()) + tuple(copy)))
+    keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
+    wanted = None if keep is None else {"passed", *("fails_" + k for k in CHECKS), *keep}
     out: dict = {}
 
     def run(b):
         c = cand.take(slice(*b), keys) if is_set else {k: v[b[0]:b[1]] for k, v in cand.items() if k in keys}
-        r = evaluate(env, c, energy=energy, seg=seg)
-        if checks:
-            margins, failed, _, _ = run_checks(env, c, r, with_texts=False)
-            r.update(margins)
-            r.update({"fails_" + k: failed[k] for k in CHECKS})
-            r["passed"] = ~np.logical_or.reduce([failed[k] for k in CHECKS])
-            worst = r["voltage_seg"].copy()
-            low = np.nan_to_num(r["voltage_margin"], nan=np.inf)
-            for margin, at in (("peak_current_margin", "peak_current_seg"), ("motor_speed_margin", "speed_seg")):
-                m = np.nan_to_num(r[margin], nan=np.inf)
-                better = m < low
-                worst[better], low = r[at][better], np.where(better, m, low)
-            r["worst_seg"] = worst
-        for k in copy:
-            r[k] = c[k]
-        return b, r
+        r = checked(env, c, energy=energy, seg=seg)
+        return b, (r if wanted is None else {k: v for k, v in r.items() if k in wanted})
 
     def store(b, r):
         if not out:
@@ -343,8 +374,7 @@ def evaluate_all(env, cand, energy: bool = True, checks: bool = False, copy=()) 
     # the chunks are the parallel work: a BLAS that also starts threads for each small product only
     # fights them (20x slower here)
     with threadpool_limits(1, user_api="blas"):
-        first = run(bounds[0])
-        store(*first)
+        store(*run(bounds[0]))
         if workers > 1:   # numpy releases the GIL inside its array loops: chunks run side by side
             with ThreadPoolExecutor(max_workers=workers) as pool:
                 for b, r in pool.map(run, bounds[1:]):

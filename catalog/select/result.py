@@ -6,7 +6,7 @@ speeds in rad/s); the CLI converts for display.
 """
 from __future__ import annotations
 
-__all__ = ["Selection", "select", "MARGIN_COLUMNS", "Coded"]
+__all__ = ["Selection", "select", "MARGIN_COLUMNS"]
 
 import difflib
 
@@ -15,9 +15,9 @@ import pandas as pd
 
 from ..errors import NotFound
 from .candidates import GEAR_ASSUMED, GEAR_CATALOGUE, GEAR_DIRECT, build_candidates
-from .checks import CHECKS, reason_texts
+from .checks import CHECKS, check_keys, reason_texts
 from .envelope import load_envelope
-from .evaluate import EVAL_KEYS, evaluate, evaluate_all
+from .evaluate import EVAL_KEYS, checked, evaluate, evaluate_all
 
 #: Who makes the parts and their part numbers (to order them); gear columns empty without a catalogue gearhead.
 PART_COLUMNS = ["manufacturer", "part_number", "gear_manufacturer", "gear_part_number"]
@@ -41,20 +41,6 @@ def _pareto(values: np.ndarray) -> np.ndarray:
     return keep
 
 
-class Coded:
-    """A text column held as codes into a few labels (no text per row until rows are read)."""
-
-    def __init__(self, codes, labels):
-        self.codes = np.asarray(codes, dtype=np.intp)
-        self.labels = np.asarray(list(labels) + [None], dtype=object)   # code -1: no value
-
-    def __len__(self) -> int:
-        return len(self.codes)
-
-    def take(self, rows) -> np.ndarray:
-        return self.labels[self.codes[rows]]
-
-
 class Selection:
     """Candidates of a catalogue evaluated against one envelope.
 
@@ -70,9 +56,10 @@ class Selection:
     rejected : DataFrame
         Every failing candidate with its failed checks and their numbers.
 
-    The candidates are kept as columns (arrays in candidate order, texts as
-    codes) and only the rows somebody reads become a DataFrame, with their
-    texts (ids, reasons, notes) built then.
+    A selection keeps only the verdicts of every candidate (``passed`` and
+    one ``fails_<check>`` column per check); the rows somebody reads are
+    evaluated again (the same arithmetic) and become a DataFrame with every
+    number and text (ids, reasons, notes).
     """
 
     def __init__(self, envelope, candidates, table, top: int, *, lazy=None, order=None):
@@ -82,7 +69,7 @@ class Selection:
         self._lazy = lazy          # (candidate positions -> {column: values}) for the text columns, or None
         if isinstance(table, pd.DataFrame):
             table = {k: table[k].to_numpy() for k in table.columns}
-        self._cols = table         # column -> array (or Coded), candidate order when ``lazy`` is set
+        self._cols = table         # column -> array, in candidate order when ``lazy`` is set
         n = len(table["passed"])
         # rows in display order (passing by rank, then the rest); None: the columns' own order
         self._order = np.arange(n) if order is None else np.asarray(order)
@@ -98,7 +85,7 @@ class Selection:
     def _rows(self, rows) -> pd.DataFrame:
         """The rows at positions ``rows`` as a DataFrame, with the text columns (built only for them)."""
         rows = np.asarray(rows, dtype=np.intp)
-        data = {k: (v.take(rows) if isinstance(v, Coded) else np.asarray(v)[rows]) for k, v in self._cols.items()}
+        data = {k: np.asarray(v)[rows] for k, v in self._cols.items()}
         if self._lazy is not None:
             data.update(self._lazy(rows))
         return pd.DataFrame(data)
@@ -241,43 +228,44 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     keys = [k.lstrip("-") for k in list(env.rank_keys) + list(env.pareto or [])]
     with_energy = "energy_per_cycle" in keys   # otherwise computed for the rows shown only
     n = cand.size
-    copied = ("ratio", "mass", "price", "length", "diameter")
-    res = evaluate_all(env, cand, energy=with_energy, checks=True, copy=copied) if n else {}
-    table = {"motor": Coded(cand.motor_ix, cand.motors["id"]), "gear": Coded(cand.option_ix, cand.options["label"]),
-             "ratio": res["ratio"] if n else np.zeros(0)}
-    if n:
-        for k in MARGIN_COLUMNS + ["winding_temperature", "rms_current", "peak_current", "energy_per_cycle"]:
-            table[k] = res[k]
-        for k in copied[1:]:
-            table[k] = res[k]
-        table["currency"] = Coded(*cand.currency_codes())
-        table["worst_segment"] = Coded(res["worst_seg"], env.names)
-        for k in CHECKS:
-            table["fails_" + k] = res["fails_" + k]
-        table["passed"] = res["passed"]
-    else:
-        for k in CHECKS:
-            table["fails_" + k] = np.zeros(0, bool)
-        table["passed"] = np.zeros(0, bool)
-        for k in PART_COLUMNS + ["candidate", "worst_segment", "currency", "notes", "failed", "reasons"]:
-            table[k] = np.zeros(0, dtype=object)   # an empty catalogue: the same columns, no rows
-        for k in MARGIN_COLUMNS + ["winding_temperature", "rms_current", "peak_current", "energy_per_cycle",
-                                   "mass", "price", "length", "diameter"]:
-            table[k] = np.zeros(0)
-    order = _rank(table, env)
+    rank_cols = [k.lstrip("-") for k in list(env.rank_keys) + list(env.pareto or [])]
+    from_cand = {"mass", "price", "length", "diameter", "ratio"}
+    res = evaluate_all(env, cand, energy=with_energy, keep=[k for k in rank_cols if k not in from_cand]) if n else {}
+    table = {"passed": res["passed"] if n else np.zeros(0, bool)}
+    for k in CHECKS:
+        table["fails_" + k] = res["fails_" + k] if n else np.zeros(0, bool)
+
+    def fetch(col, rows):
+        """A ranking column at candidate rows (from the evaluation, else from the candidates)."""
+        return res[col][rows] if col in res else cand.take(rows, (col,))[col]
+
+    order, rank, pareto = _rank(table["passed"], env, fetch)
     lazy = None
     if n:
         parts = _part_names(motors, gearheads)
+        keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
 
         def lazy(at):
-            keys, reasons, notes = reason_texts(env, cand, res, at)
-            out = {"candidate": cand.ids(at), "notes": notes, "failed": keys, "reasons": reasons}
-            if not with_energy and len(at):
-                out["energy_per_cycle"] = evaluate(env, cand.take(at, EVAL_KEYS))["energy_per_cycle"]
-            sources = cand.take(at, ("motor", "gear"))
-            for (column, source), names in parts.items():
-                out[column] = pd.Series(sources[source], dtype=object).map(names).to_numpy(dtype=object)
+            """Every column of the candidates at positions ``at``: the evaluation and checks run again on
+            these rows (the same arithmetic as for the verdicts), then their texts."""
+            c = cand.take(at)
+            r = checked(env, {k: c[k] for k in keys})
+            failed, reasons, notes = reason_texts(env, c, r)
+            out = {"rank": rank[at], "candidate": c["id"], "motor": c["motor"], "gear": c["gear"], "ratio": c["ratio"]}
+            for column, source in parts:
+                out[column] = pd.Series(c[source], dtype=object).map(parts[(column, source)]).to_numpy(dtype=object)
+            out["worst_segment"] = np.asarray(env.names, dtype=object)[r["worst_seg"]] if len(at) else []
+            for k in MARGIN_COLUMNS + ["winding_temperature", "rms_current", "peak_current", "energy_per_cycle"]:
+                out[k] = r[k]
+            for k in ("mass", "price", "currency", "length", "diameter"):
+                out[k] = c[k]
+            out.update({"pareto": pareto[at], "notes": notes, "failed": failed, "reasons": reasons})
             return out
+    else:
+        for k in ["rank", "candidate", "motor", "gear", "ratio", *PART_COLUMNS, "worst_segment", *MARGIN_COLUMNS,
+                  "winding_temperature", "rms_current", "peak_current", "energy_per_cycle", "mass", "price",
+                  "currency", "length", "diameter", "pareto", "notes", "failed", "reasons"]:
+            table[k] = np.zeros(0, dtype=object)   # an empty catalogue: the same columns, no rows
     return Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy, order=order)
 
 
@@ -293,27 +281,25 @@ def _part_names(motors, gearheads) -> dict:
     return out
 
 
-def _rank(table: dict, env) -> np.ndarray:
-    """Add ``rank`` (passing candidates in ranking order) and ``pareto`` columns to ``table``.
+def _rank(passed: np.ndarray, env, fetch) -> tuple:
+    """(rows in display order, rank per candidate, Pareto flag per candidate).
 
-    Returns the rows in display order: passing first by rank (ties in
+    Display order: passing candidates by the envelope's ranking keys (ties in
     candidate order), then the rest in candidate order.  Only the passing rows
-    are sorted.
+    are read (``fetch(column, rows)``) and sorted.
     """
-    passed = np.asarray(table["passed"], dtype=bool)
+    passed = np.asarray(passed, dtype=bool)
     n = len(passed)
-    table["rank"] = np.full(n, np.nan)
-    table["pareto"] = np.zeros(n, bool)
-    if "winding_temperature" not in table:
-        return np.arange(n)
+    rank = np.full(n, np.nan)
+    pareto = np.zeros(n, bool)
     ix = np.flatnonzero(passed)
     cols = [k.lstrip("-") for k in env.rank_keys]
     ascending = [not k.startswith("-") for k in env.rank_keys]
-    keys = pd.DataFrame({c: np.asarray(table[c], dtype=float)[ix] for c in dict.fromkeys(cols)}, index=ix)
+    keys = pd.DataFrame({c: np.asarray(fetch(c, ix), dtype=float) for c in dict.fromkeys(cols)}, index=ix)
     order = keys.sort_values(cols, ascending=ascending, na_position="last", kind="mergesort").index.to_numpy()
-    table["rank"][order] = np.arange(1, len(order) + 1)
+    rank[order] = np.arange(1, len(order) + 1)
     if env.pareto and len(ix):
         sign = np.array([-1.0 if k.startswith("-") else 1.0 for k in env.pareto])
-        vals = np.column_stack([np.asarray(table[k.lstrip("-")], dtype=float)[ix] for k in env.pareto]) * sign
-        table["pareto"][ix] = _pareto(vals)
-    return np.concatenate([order, np.flatnonzero(~passed)])
+        vals = np.column_stack([np.asarray(fetch(k.lstrip("-"), ix), dtype=float) for k in env.pareto]) * sign
+        pareto[ix] = _pareto(vals)
+    return np.concatenate([order, np.flatnonzero(~passed)]), rank, pareto
