@@ -158,7 +158,8 @@ def _argmax_rows(a, top):
     return idx
 
 
-def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict | None = None) -> dict:
+def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict | None = None,
+             where: bool = True) -> dict:
     """Evaluate one chunk of candidates.
 
     Parameters
@@ -175,6 +176,9 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         for the rows it shows).
     seg : dict, optional
         The shared segment arrays of ``env`` (computed when not given).
+    where : bool
+        Also say where the worst values occur (``*_seg``, ``voltage_speed``,
+        ``voltage_hot``: only the texts need them; without, they are absent).
 
     Returns
     -------
@@ -247,22 +251,23 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         else:
             worse = v >= need if detail else None
             np.fmax(need, v, out=need)
-    top = np.fmax.reduce(need, axis=0)                                 # NaN (no constants) never wins
-    v_seg = _argmax_rows(need, top)
-    rows = np.arange(n)
-    need_w = need[v_seg, rows]
+    need_w = np.fmax.reduce(need, axis=0)                              # NaN (no constants) never wins
     avail = env.available_voltage
-    t_w = t_em[v_seg, rows]
-    corners = [(r / kt * t_w, ke * ratio) for r, kt, ke in ((r_amb, kt_amb, ke_amb), (r_hot, kt_hot, ke_hot))]
-    w0, w1 = seg["w0"][v_seg], seg["w1"][v_seg]
-    ends = [[np.abs(drop + emf * w) for w in (w0, w1)] for drop, emf in corners]
-    hot_worse = np.fmax(*ends[1]) >= np.fmax(*ends[0])
-    end_speed = ratio * np.where(np.fmax(ends[0][0], ends[1][0]) >= np.fmax(ends[0][1], ends[1][1]),
-                                 np.abs(w0), np.abs(w1))
-
     sq_top = np.maximum.reduce(t_sq, axis=0)
-    ipk_seg = _argmax_rows(t_sq, sq_top)
     peak_current = np.sqrt(sq_top) / kt_hot
+    found = {}
+    if where:
+        rows = np.arange(n)
+        v_seg = _argmax_rows(need, need_w)
+        t_w = t_em[v_seg, rows]
+        corners = [(r / kt * t_w, ke * ratio) for r, kt, ke in ((r_amb, kt_amb, ke_amb), (r_hot, kt_hot, ke_hot))]
+        w0, w1 = seg["w0"][v_seg], seg["w1"][v_seg]
+        ends = [[np.abs(drop + emf * w) for w in (w0, w1)] for drop, emf in corners]
+        found = {"voltage_seg": v_seg, "voltage_hot": np.fmax(*ends[1]) >= np.fmax(*ends[0]),
+                 "voltage_speed": ratio * np.where(np.fmax(ends[0][0], ends[1][0]) >= np.fmax(ends[0][1], ends[1][1]),
+                                                   np.abs(w0), np.abs(w1)),
+                 "peak_current_seg": _argmax_rows(t_sq, sq_top), "speed_seg": np.full(n, seg["speed_seg"]),
+                 "gear_out_seg": np.full(n, seg["gear_out_seg"])}
     if env.mode == "cycle":
         i_rms = np.sqrt((env.duration @ t_sq) / env.period) / kt_hot
     else:
@@ -279,13 +284,11 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
                              vh1 * i_hot + env.drive_voltage_drop * i_abs, regenerative=env.regenerative)
     out = {
         "winding_temperature": reported, "runaway": runaway, "thermal_missing": missing,
-        "rms_current": i_rms, "peak_current": peak_current, "peak_current_seg": ipk_seg,
-        "voltage_seg": v_seg, "voltage_margin": (avail - need_w) / avail, "voltage_need": need_w,
-        "voltage_speed": end_speed, "voltage_hot": hot_worse,
-        "motor_speed": ratio * seg["w_abs_max"], "speed_seg": np.full(n, seg["speed_seg"]),
+        "rms_current": i_rms, "peak_current": peak_current,
+        "voltage_margin": (avail - need_w) / avail, "voltage_need": need_w,
+        "motor_speed": ratio * seg["w_abs_max"],
         "gear_out_peak": np.full(n, seg["t_out_abs"][seg["gear_out_seg"]]),
-        "gear_out_seg": np.full(n, seg["gear_out_seg"]), "gear_out_rms": np.full(n, seg["out_rms"]),
-        "energy_per_cycle": e,
+        "gear_out_rms": np.full(n, seg["out_rms"]), "energy_per_cycle": e, **found,
     }
     if detail:   # copies: the scratch arrays are used again by the next chunk
         t_m = t_em - np.multiply.outer(seg["friction_sign"], c["Tf"])
@@ -308,20 +311,23 @@ def _chunk_starts(motor_ix, total: int) -> list:
     return [int(s) for s in starts]
 
 
-def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: bool = False) -> dict:
+def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: bool = False,
+            where: bool = True) -> dict:
     """:func:`evaluate` plus the checks (no texts) of candidate rows ``c``.
 
-    Adds every margin, ``fails_<check>`` per check, ``passed`` and
-    ``worst_seg`` (the segment of the smallest of the voltage, peak-current
-    and speed margins) to the evaluation.
+    Adds every margin, ``fails_<check>`` per check, ``passed`` and, with
+    ``where``, ``worst_seg`` (the segment of the smallest of the voltage,
+    peak-current and speed margins) to the evaluation.
     """
     from .checks import CHECKS, run_checks
 
-    r = evaluate(env, c, detail=detail, energy=energy, seg=seg)
+    r = evaluate(env, c, detail=detail, energy=energy, seg=seg, where=where)
     margins, failed, _, _ = run_checks(env, c, r, with_texts=False)
     r.update(margins)
     r.update({"fails_" + k: failed[k] for k in CHECKS})
     r["passed"] = ~np.logical_or.reduce([failed[k] for k in CHECKS])
+    if not where:
+        return r
     worst = r["voltage_seg"].copy()
     low = np.nan_to_num(r["voltage_margin"], nan=np.inf)
     for margin, at in (("peak_current_margin", "peak_current_seg"), ("motor_speed_margin", "speed_seg")):
@@ -360,7 +366,7 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
 
     def run(b):
         c = cand.take(slice(*b), keys) if is_set else {k: v[b[0]:b[1]] for k, v in cand.items() if k in keys}
-        r = checked(env, c, energy=energy, seg=seg)
+        r = checked(env, c, energy=energy, seg=seg, where=wanted is None)
         return b, (r if wanted is None else {k: v for k, v in r.items() if k in wanted})
 
     def store(b, r):

@@ -295,8 +295,10 @@ def _rank(passed: np.ndarray, env, fetch) -> tuple:
     ix = np.flatnonzero(passed)
     cols = [k.lstrip("-") for k in env.rank_keys]
     ascending = [not k.startswith("-") for k in env.rank_keys]
-    keys = pd.DataFrame({c: np.asarray(fetch(c, ix), dtype=float) for c in dict.fromkeys(cols)}, index=ix)
-    order = keys.sort_values(cols, ascending=ascending, na_position="last", kind="mergesort").index.to_numpy()
+    values = {c: np.asarray(fetch(c, ix), dtype=float) for c in dict.fromkeys(cols)}
+    keys = [np.where(np.isnan(values[c]), np.inf, values[c] if up else -values[c])   # missing values last
+            for c, up in zip(cols, ascending)]
+    order = ix[np.lexsort(keys[::-1])] if keys else ix     # stable: ties stay in candidate order
     rank[order] = np.arange(1, len(order) + 1)
     if env.pareto and len(ix):
         sign = np.array([-1.0 if k.startswith("-") else 1.0 for k in env.pareto])
