@@ -2,7 +2,7 @@
 
 Figures (all printed side by side from one run):
 * ours: ``catalog.select.select`` on all 10k motors x 200 ratios (2M candidates), then the reason
-  counts, timed in this process (best of two runs, after a warm-up on a small subset);
+  counts, timed in this process (median of three runs, after a warm-up on a small subset);
 * peak memory: the peak RSS (VmHWM) of a fresh subprocess that runs the same 2M selection;
 * (a) a minimal fused numpy kernel of the same model inside this script: per-segment motor torque
   (acceleration, gear efficiency by the direction of power flow, friction), needed voltage in the
@@ -22,7 +22,7 @@ import time
 import numpy as np
 import pandas as pd
 
-from benchmarks.common import report
+from benchmarks.common import median_time, report
 from benchmarks.data import motor_rows
 
 N_MOTORS, N_RATIOS, N_SEG = 10_000, 200, 20
@@ -214,25 +214,20 @@ def main() -> int:
     motors = catalogue(N_MOTORS)
     n_total = N_MOTORS * N_RATIOS
     select(motors.head(20), pd.DataFrame(), env).reason_counts()   # warm-up: lazy imports, caches
-    ours = []
-    for _ in range(2):
-        t = time.perf_counter()
-        sel = select(motors, pd.DataFrame(), env)
-        sel.reason_counts()
-        ours.append(time.perf_counter() - t)
-    ours = min(ours)
+    def ours_once():
+        select(motors, pd.DataFrame(), env).reason_counts()
+
+    ours = median_time(ours_once, runs=3)
     base_gb, peak_gb, child_time = _peak_rss(MEMORY_MOTORS)
-    kernel = []
-    for _ in range(2):
-        t = time.perf_counter()
+    def kernel_once():
         for start in range(0, N_MOTORS, 500):  # 100k candidates at a time
             fused(motors.iloc[start:start + 500], env)
-        kernel.append(time.perf_counter() - t)
-    kernel = min(kernel)
+
+    kernel = median_time(kernel_once, runs=3)
     t = time.perf_counter()
     python_loop(motors, env, LOOP_CANDIDATES)
     loop = (time.perf_counter() - t) * n_total / LOOP_CANDIDATES
-    note = (f"{n_total} candidates x {N_SEG} segments, best of 2; ours adds candidate building from the "
+    note = (f"{n_total} candidates x {N_SEG} segments, median of 3; ours adds candidate building from the "
             "catalogue, gearhead and speed, size and data checks, every rejection's checks counted, ranking "
             "(texts built on access)")
     report("select_2M_candidates", ours, "s", kernel, "<= 1.0 s and within 2x the fused kernel",
