@@ -46,9 +46,17 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
-from ..physics import (energy_per_cycle, hot_winding_rise, network_peak_rise, network_segment_maps,
-                       resistance_at_temperature, torque_constant_at_temperature)
+from ..physics import energy_per_cycle, network_peak_rise, network_segment_maps
+from ..physics import hot_winding_rise as _hot_winding_rise
+from ..physics import resistance_at_temperature as _resistance_at_temperature
+from ..physics import torque_constant_at_temperature as _torque_constant_at_temperature
 from ..physics.network import NetworkMaps
+
+# The physics functions without their container conversion (arrays in, arrays out here): the
+# wrapper's checks cost more than the arithmetic on a chunk of a few hundred rows.
+hot_winding_rise = _hot_winding_rise.__wrapped__
+resistance_at_temperature = _resistance_at_temperature.__wrapped__
+torque_constant_at_temperature = _torque_constant_at_temperature.__wrapped__
 
 CHUNK = 16384            #: candidates per chunk [-]
 SHORT_PERIOD = 0.02      #: period/τ_w below which a repeated cycle is judged by its mean loss [1]
@@ -112,7 +120,7 @@ def _motor_runs(motor_ix):
     return starts, np.diff(np.r_[starts, len(motor_ix)])
 
 
-def _cold_rise(env, c, t_sq, usable):
+def _cold_rise(env, c, t_sq, usable, motor_maps=None):
     """Peak winding rise per (N·m)² of T_em², (N,), NaN where unusable: the network is linear, so the
     rise under the losses at ambient is this times R(Ta)/Kt(Ta)².  ``t_sq`` is (S, N)."""
     n = t_sq.shape[1]
@@ -136,8 +144,11 @@ def _cold_rise(env, c, t_sq, usable):
     mix = c["motor_ix"][ix]
     starts, runs = _motor_runs(mix)
     first = np.arange(n)[ix][starts]
-    maps = network_segment_maps(dur, c["Rth1"][first], c["Rth2"][first], c["tau_w"][first],
-                                c["tau_m"][first], periodic=bool(env.repeat))
+    if motor_maps is not None:      # built once for every motor of the catalogue
+        maps = NetworkMaps(*(a[mix[starts]] if a.ndim > 1 else a for a in motor_maps))
+    else:
+        maps = network_segment_maps(dur, c["Rth1"][first], c["Rth2"][first], c["tau_w"][first],
+                                    c["tau_m"][first], periodic=bool(env.repeat))
     if np.all(runs == runs[0]):     # a regular block (motor × ratios): the maps broadcast, no gather
         grid = NetworkMaps(*(a[:, None] if a.ndim > 1 else a for a in maps))
         peak = network_peak_rise(sub.reshape(len(dur), len(starts), int(runs[0])), grid,
@@ -222,7 +233,7 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     for name in fields:
         missing |= np.isnan(c[name])
     usable = ~missing & (r_amb > 0) & (kt_amb > 0)
-    rise = _cold_rise(env, c, t_sq, usable) * (r_amb / (kt_amb * kt_amb))
+    rise = _cold_rise(env, c, t_sq, usable, seg.get("motor_maps")) * (r_amb / (kt_amb * kt_amb))
     # the hot fixed point: R and Kt at the peak winding temperature
     slope_r = resistance_at_temperature(c["R"], ta + 1.0, c["Tref"]) - r_amb
     slope_k = torque_constant_at_temperature(c["Kt"], ta + 1.0, c["beta"], c["Tref"]) - kt_amb
@@ -358,6 +369,12 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
     if not total:
         return {}
     seg = _segments(env)
+    if is_set and env.mode == "cycle":   # the network maps of every motor, once (motor_ix indexes them)
+        mt = cand.motors
+        with np.errstate(all="ignore"):
+            seg["motor_maps"] = network_segment_maps(
+                env.duration, mt["thermal_resistance_winding_housing"], mt["thermal_resistance_housing_ambient"],
+                mt["thermal_time_constant_winding"], mt["thermal_time_constant_motor"], periodic=bool(env.repeat))
     starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total)
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
