@@ -15,7 +15,8 @@ changes nothing, and a given value is never replaced.
 from __future__ import annotations
 
 __all__ = ["Equation", "Solver", "EQUATIONS", "DeriveResult", "derive_columns", "residuals",
-           "derive_in_store", "DEFAULT_TOLERANCE", "relation_table_markdown", "Flag"]
+           "derive_rows", "DerivedRows", "insert_derived", "derive_in_store", "DEFAULT_TOLERANCE",
+           "relation_table_markdown", "Flag"]
 
 from dataclasses import dataclass, field
 
@@ -150,6 +151,9 @@ DERIVABLE = tuple(sorted({s.output for e in EQUATIONS for s in e.solvers}))
 _DEFAULT_SOLVER = Solver(TREF, (), None)
 _SOLVER_NAMES = {s: e.name for e in EQUATIONS for s in e.solvers}
 _SOLVER_NAMES[_DEFAULT_SOLVER] = "assumed datasheet reference temperature 25 °C"
+#: Every solver, numbered: the codes of :attr:`DeriveResult.codes`.
+_SOLVERS = (*(s for e in EQUATIONS for s in e.solvers), _DEFAULT_SOLVER)
+_SOLVER_CODES = {id(s): k for k, s in enumerate(_SOLVERS)}
 
 
 class _EquationNames:
@@ -172,6 +176,7 @@ class DeriveResult:
     columns: dict  # field -> float ndarray (given and derived)
     origin: dict  # field -> object ndarray: None (given/missing) or Solver
     equation: dict = field(default_factory=dict)  # field -> object ndarray of equation names
+    codes: dict = field(default_factory=dict)  # field -> int16 ndarray: -1 or the index in _SOLVERS
 
     def derived_count(self) -> int:
         return int(sum(np.count_nonzero(o != None) for o in self.origin.values()))  # noqa: E711
@@ -221,6 +226,7 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
         arr = columns.get(name)
         cols[name] = np.full(n, np.nan) if arr is None else np.array(arr, dtype=float, copy=True)
     origin = {name: np.full(n, None, dtype=object) for name in cols}
+    codes = {name: np.full(n, -1, dtype=np.int16) for name in cols}
     dc_ok = _dc_basis_mask(text_columns, n)
     tref_given = ~np.isnan(cols[TREF])
 
@@ -250,6 +256,7 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
                 if ok.any():
                     out[idx[ok]] = values[ok]
                     origin[solver.output][idx[ok]] = solver
+                    codes[solver.output][idx[ok]] = _SOLVER_CODES[id(solver)]
                     changed = True
         return changed
 
@@ -263,8 +270,9 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
     tref_missing = ~tref_given & ~np.isnan(cols[R])
     cols[TREF] = np.where(tref_missing, DEFAULT_REFERENCE_TEMPERATURE, cols[TREF])
     origin[TREF][tref_missing] = _DEFAULT_SOLVER
+    codes[TREF][tref_missing] = _SOLVER_CODES[id(_DEFAULT_SOLVER)]
     equation = _EquationNames(origin)
-    return DeriveResult(cols, origin, equation)
+    return DeriveResult(cols, origin, equation, codes)
 
 
 @dataclass(frozen=True)
@@ -354,16 +362,119 @@ class StoreOutcome:
     flags: list = field(default_factory=list)
 
 
+@dataclass
+class DerivedRows:
+    """What :func:`derive_rows` makes of the given values of some motors.
+
+    ``values``: pyarrow table of the derived values (record_id, field, value_num,
+    relation, inputs), or None; ``flags``: pyarrow table of the residual of every
+    over-determined relation (the columns of the ``flags`` table but ``batch_id``),
+    or None; ``flagged``: the :class:`Flag` of each residual above the tolerance.
+    """
+
+    values: object = None
+    flags: object = None
+    flagged: list = field(default_factory=list)
+
+    @property
+    def derived(self) -> int:
+        return 0 if self.values is None else self.values.num_rows
+
+
+def _floats(values):
+    """A pyarrow float column, null where NaN (as the store has always held a missing number)."""
+    import pyarrow as pa
+
+    values = np.asarray(values, dtype=float)
+    return pa.array(values, type=pa.float64(), mask=np.isnan(values))
+
+
+def _dictionary(texts: list):
+    """(pyarrow array of the distinct ``texts``, int32 array: position of each text in it)."""
+    import pyarrow as pa
+
+    distinct = list(dict.fromkeys(texts))
+    where = {t: k for k, t in enumerate(distinct)}
+    return pa.array(distinct, type=pa.string()), np.array([where[t] for t in texts], dtype=np.int32)
+
+
+def derive_rows(ids, columns: dict, text_columns: dict | None = None,
+                tolerance: float = DEFAULT_TOLERANCE) -> DerivedRows:
+    """Derived values and residuals of the motors ``ids`` from their given ``columns``, as rows.
+
+    ``columns`` maps every numeric motor field to the given SI values (NaN = missing),
+    ``text_columns`` holds ``constant_basis``; rows follow ``ids``.  Nothing is read or
+    written: :func:`derive_in_store` and the import store the rows.
+    """
+    import pyarrow as pa
+
+    ids = np.asarray(ids, dtype=object)
+    n = len(ids)
+    out = DerivedRows()
+    if n == 0:
+        return out
+    id_array = pa.array(ids, type=pa.string())
+    result = derive_columns(columns, text_columns, n)
+    # the texts repeated on many rows are dictionary-encoded: each is held (and handed to DuckDB) once
+    relations, relation_of = _dictionary([_SOLVER_NAMES[s] for s in _SOLVERS])
+    inputs, inputs_of = _dictionary([", ".join(s.inputs) for s in _SOLVERS])
+    fields = pa.array(list(result.codes), type=pa.string())
+    tables = []
+    for k, (name, codes) in enumerate(result.codes.items()):
+        idx = np.flatnonzero(codes >= 0)
+        if len(idx) == 0:
+            continue
+        solver = codes[idx]
+        tables.append(pa.table({
+            "record_id": pa.DictionaryArray.from_arrays(pa.array(idx.astype(np.int32)), id_array),
+            "field": pa.DictionaryArray.from_arrays(pa.array(np.full(len(idx), k, dtype=np.int32)), fields),
+            "value_num": pa.array(result.columns[name][idx], type=pa.float64()),
+            "relation": pa.DictionaryArray.from_arrays(pa.array(relation_of[solver]), relations),
+            "inputs": pa.DictionaryArray.from_arrays(pa.array(inputs_of[solver]), inputs),
+        }))
+    if tables:
+        out.values = pa.concat_tables(tables)
+    tables = []
+    for eq, idx, given, implied, res in residuals(columns, text_columns, n):
+        primary = eq.solvers[0].output
+        m = len(idx)
+        tables.append(pa.table({
+            "record_id": id_array.take(pa.array(idx)), "relation": pa.array([eq.name] * m, type=pa.string()),
+            "given": pa.array([", ".join(given)] * m, type=pa.string()),
+            "field": pa.array([primary] * m, type=pa.string()), "given_value": _floats(given[primary]),
+            "implied_value": _floats(implied), "residual": _floats(res)}))
+        for k in np.flatnonzero(np.abs(res) > tolerance):  # the few flagged ones, with their numbers
+            text = ", ".join(f"{name}={given[name][k]:.6g}" for name in given)
+            out.flagged.append(Flag(str(ids[idx[k]]), eq.name, primary, text, float(given[primary][k]),
+                                    float(implied[k]), float(res[k])))
+    if tables:
+        out.flags = pa.concat_tables(tables)
+    return out
+
+
+def insert_derived(con, rows: DerivedRows, batch_id: int) -> None:
+    """Store the derived values and residuals of :func:`derive_rows` as of batch ``batch_id``."""
+    if rows.values is not None:
+        con.register("derived_values", rows.values)
+        con.execute("INSERT INTO record_values SELECT record_id, field, value_num, NULL, NULL, NULL, 'derived', "
+                    "relation, inputs, NULL, NULL, ? FROM derived_values", [batch_id])
+        con.unregister("derived_values")
+    if rows.flags is not None:
+        con.register("new_flags", rows.flags)
+        con.execute("INSERT INTO flags SELECT record_id, relation, given, field, given_value, implied_value, "
+                    "residual, ? FROM new_flags", [batch_id])
+        con.unregister("new_flags")
+
+
 def _load_given(con, record_ids):
     """Given numeric and text values of motors, wide, as numpy columns."""
     from .fields import fields_for
 
     fields = fields_for("motor")
     numeric = [f for f in fields.values() if f.is_numeric]
-    params = []
     where = ""
     if record_ids is not None:
-        con.register("derive_ids", _ids_frame(record_ids))
+        con.register("derive_ids", _ids_table(record_ids))
         where = " AND r.record_id IN (SELECT record_id FROM derive_ids)"
     select = ", ".join(
         f"max(v.value_num) FILTER (WHERE v.field = '{f.name}') AS {f.name}" for f in numeric)
@@ -380,10 +491,10 @@ def _load_given(con, record_ids):
     return ids, columns, texts
 
 
-def _ids_frame(record_ids):
-    import pandas as pd
+def _ids_table(record_ids):
+    import pyarrow as pa
 
-    return pd.DataFrame({"record_id": list(record_ids)})
+    return pa.table({"record_id": pa.array(list(record_ids), type=pa.string())})
 
 
 def _keep_replaced_derived(con, batch_id: int) -> None:
@@ -404,8 +515,6 @@ def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFA
     (replaced by ``batch_id``), so ``motorshelf history`` shows it.  Given values are
     never touched.
     """
-    import pandas as pd
-
     ids, columns, texts = _load_given(con, record_ids)
     outcome = StoreOutcome()
     n = len(ids)
@@ -416,7 +525,7 @@ def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFA
         con.execute("DELETE FROM record_values WHERE origin = 'derived'")
         con.execute("DELETE FROM flags")
     elif n:
-        con.register("derive_ids", _ids_frame(ids))
+        con.register("derive_ids", _ids_table(ids))
         con.execute(keep + " AND record_id IN (SELECT record_id FROM derive_ids)")
         con.execute("DELETE FROM record_values WHERE origin = 'derived' AND record_id IN (SELECT record_id FROM derive_ids)")
         con.execute("DELETE FROM flags WHERE record_id IN (SELECT record_id FROM derive_ids)")
@@ -425,53 +534,16 @@ def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFA
         if record_ids is None:
             _keep_replaced_derived(con, batch_id)
         return outcome
-    result = derive_columns(columns, texts, n)
-    frames = []
-    for name, origin in result.origin.items():
-        mask = origin != None  # noqa: E711
-        if not mask.any():
-            continue
-        idx = np.flatnonzero(mask)
-        solvers = origin[idx]
-        keys = [id(s) for s in solvers]  # identity, not the dataclass hash: cheap per cell
-        distinct = {id(s): s for s in solvers[np.unique(keys, return_index=True)[1]]}
-        relation = {k: _SOLVER_NAMES[s] for k, s in distinct.items()}
-        inputs = {k: ", ".join(s.inputs) for k, s in distinct.items()}
-        frames.append(pd.DataFrame({
-            "record_id": ids[idx], "field": name, "value_num": result.columns[name][idx],
-            "value_text": None, "raw_text": None, "raw_unit": None, "origin": "derived",
-            "relation": [relation[k] for k in keys],
-            "inputs": [inputs[k] for k in keys],
-            "source_file": None, "source_row": pd.array([None] * len(idx), dtype="Int64"),
-            "batch_id": batch_id,
-        }))
-    if frames:
-        derived = pd.concat(frames, ignore_index=True)
-        con.register("derived_values", derived)
-        con.execute("INSERT INTO record_values SELECT record_id, field, value_num, CAST(value_text AS VARCHAR), "
-                    "CAST(raw_text AS VARCHAR), CAST(raw_unit AS VARCHAR), origin, relation, inputs, "
-                    "CAST(source_file AS VARCHAR), CAST(source_row AS INTEGER), batch_id FROM derived_values")
-        con.unregister("derived_values")
+    rows = derive_rows(ids, columns, texts, tolerance)
+    insert_derived(con, DerivedRows(values=rows.values), batch_id)
+    if rows.values is not None:
         con.execute("UPDATE record_values SET batch_id = p.batch_id FROM previous_derived p "
                     "WHERE record_values.origin = 'derived' AND record_values.record_id = p.record_id "
                     "AND record_values.field = p.field AND record_values.value_num IS NOT DISTINCT FROM p.value_num "
                     "AND record_values.relation IS NOT DISTINCT FROM p.relation "
                     "AND record_values.inputs IS NOT DISTINCT FROM p.inputs")
-        outcome.derived = len(derived)
+        outcome.derived = rows.derived
     _keep_replaced_derived(con, batch_id)
-    frames = []
-    for eq, idx, given, implied, res in residuals(columns, texts, n):
-        primary = eq.solvers[0].output
-        frames.append(pd.DataFrame({
-            "record_id": ids[idx], "relation": eq.name, "given": ", ".join(given),
-            "field": primary, "given_value": given[primary], "implied_value": implied,
-            "residual": res, "batch_id": batch_id}))
-        for k in np.flatnonzero(np.abs(res) > tolerance):  # the few flagged ones, with their numbers
-            text = ", ".join(f"{name}={given[name][k]:.6g}" for name in given)
-            outcome.flags.append(Flag(str(ids[idx[k]]), eq.name, primary, text, float(given[primary][k]),
-                                      float(implied[k]), float(res[k])))
-    if frames:
-        con.register("new_flags", pd.concat(frames, ignore_index=True))
-        con.execute("INSERT INTO flags SELECT * FROM new_flags")
-        con.unregister("new_flags")
+    insert_derived(con, DerivedRows(flags=rows.flags), batch_id)
+    outcome.flags.extend(rows.flagged)
     return outcome

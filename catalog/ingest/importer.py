@@ -68,27 +68,68 @@ def default_id(manufacturer: str, part_number: str) -> str:
     return slug(words[0], part_number)
 
 
+def _default_ids(man: list, pn: list) -> list:
+    """:func:`default_id` of every (manufacturer, part number) pair, None where either is missing.
+
+    The first words come from the few distinct makers; the slugs of ASCII text are made
+    with pyarrow at once (for ASCII, ``str.lower`` and the slug pattern mean the same
+    there), the others one by one.
+    """
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    first_word = {m: slug(m).split("-")[0] for m in set(man) if m}
+    words = [first_word[m] if m and p else None for m, p in zip(man, pn)]
+    try:
+        joined = pc.binary_join_element_wise(pa.array(words, pa.string()), pa.array(pn, pa.string()), "-")
+    except (pa.ArrowException, UnicodeError, TypeError):  # text pyarrow cannot hold
+        return [slug(w, p) if w else None for w, p in zip(words, pn)]
+    slugs = pc.replace_substring_regex(pc.ascii_lower(joined), pattern="[^a-z0-9._]+", replacement="-")
+    slugs = pc.utf8_trim(slugs, characters="-._")
+    slugs = pc.if_else(pc.equal(slugs, ""), "record", slugs).to_pylist()
+    ascii = pc.fill_null(pc.string_is_ascii(joined), True).to_numpy(zero_copy_only=False)
+    for i in np.flatnonzero(~ascii).tolist():
+        slugs[i] = slug(words[i], pn[i])
+    return slugs
+
+
 def _identity(table: NormalTable, seen: dict | None = None) -> tuple[list, list[Problem]]:
     """Record ids for the rows; default a slug of manufacturer and part_number.
 
     ``seen`` carries the ids and keys of the tables read before, so one import never
     holds a record twice (the same key, or one id for two keys) across its files.
     """
+    from itertools import repeat
+
     cols = table.columns
     n = table.n
     man = cols["manufacturer"].values if "manufacturer" in cols else [None] * n
     pn = cols["part_number"].values if "part_number" in cols else [None] * n
     given = cols["id"].values if "id" in cols else [None] * n
-    ids = [g if g else (default_id(m, p) if m and p else None) for g, m, p in zip(given, man, pn)]
+    ids = _default_ids(man, pn) if n else []
+    if "id" in cols:
+        ids = [g if g else rid for g, rid in zip(given, ids)]
     problems = []
     seen = {} if seen is None else seen
     first: dict = seen.setdefault("id", {})  # id -> (source, row)
     keyfirst: dict = seen.setdefault("key", {})  # key -> (source, row)
     owner: dict = seen.setdefault("owner", {})  # id -> key
+    keys = list(zip(map(str.lower, map(str.strip, map(str, man))),
+                    map(str.lower, map(str.strip, map(str, pn)))))
+    distinct = set(ids)
+    if None not in distinct and len(distinct) == n and first.keys().isdisjoint(distinct) \
+            and len(set(keys)) == n and keyfirst.keys().isdisjoint(keys):
+        # the common case: every row has an id, and no id or key is held twice (here or
+        # before): nothing to report or rename, as the loop below would find
+        where = list(zip(repeat(table.source), table.row_numbers))
+        owner.update(zip(ids, keys))
+        keyfirst.update(zip(keys, where))
+        first.update(zip(ids, where))
+        return ids, problems
     for i, rid in enumerate(ids):
         if rid is None:
             continue
-        key = (str(man[i]).strip().lower(), str(pn[i]).strip().lower())
+        key = keys[i]
         if not given[i] and rid in owner and owner[rid] != key:
             rid = ids[i] = slug(man[i], pn[i])  # two makers share a first word: use the full name
             if rid in owner and owner[rid] != key:  # the slugs of two keys coincide (M-1, M/1)

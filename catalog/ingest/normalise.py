@@ -20,6 +20,7 @@ import numpy as np
 
 from ..errors import Problem
 from ..fields import RECORD_TYPES, fields_for
+from ..units.values import WHITESPACE, WHITESPACE_RE2
 from .mapping import MappingProfile
 from .readers import RawTable
 
@@ -34,6 +35,7 @@ class Column:
     values: object  # float ndarray (SI, NaN = missing) or list of str/None
     raw_text: list  # text as written, None where missing
     raw_unit: list  # unit as written or stated by the header/mapping, None if none
+    raw_text_array: object = None  # raw_text as a pyarrow string array, where normalising made one
 
 
 @dataclass
@@ -181,6 +183,54 @@ def _resolve_headers(raw: RawTable, mapping: MappingProfile | None):
     return rtype, positions, problems, warnings
 
 
+def _cells_by_position(raw: RawTable, positions) -> dict:
+    """position -> the cells of that column (None where a row is shorter): a pyarrow
+    string array where the reader read the table column by column, else a sequence."""
+    if not positions:
+        return {}
+    if raw.columns is not None:
+        return {pos: raw.columns[pos] for pos in positions}
+    rows = raw.rows
+    if rows and min(map(len, rows)) > max(positions):
+        columns = list(zip(*rows))  # every row reaches every position: transpose at once
+        return {pos: columns[pos] for pos in positions}
+    return {pos: [row[pos] if pos < len(row) else None for row in rows] for pos in positions}
+
+
+def _cell_texts(cells) -> tuple:
+    """:func:`_cell_text` of every cell, and the same as a pyarrow string array (or None).
+
+    A column of plain text is done without a call per cell: a pyarrow column (every
+    cell text) at once, blank cells becoming null.
+    """
+    if not isinstance(cells, (list, tuple)):
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        blank = pc.match_substring_regex(cells, f"^[{WHITESPACE_RE2}]*$")
+        column = pc.if_else(blank, pa.scalar(None, type=pa.string()), cells)
+        return column.to_pylist(), column
+    kinds = set(map(type, cells))
+    if kinds == {str} and all(map(str.strip, cells)):
+        return list(cells), None
+    if kinds <= {str, type(None)}:
+        return [c if c and c.strip() else None for c in cells], None
+    return [_cell_text(c) for c in cells], None
+
+
+def _text_values(cells) -> list:
+    """:func:`_text_value` of every cell; a column of plain text is done without a call per cell."""
+    if not isinstance(cells, (list, tuple)):  # a pyarrow column, every cell text
+        import pyarrow as pa
+        import pyarrow.compute as pc
+
+        stripped = pc.utf8_trim(cells, characters=WHITESPACE)
+        return pc.if_else(pc.equal(stripped, ""), pa.scalar(None, type=pa.string()), stripped).to_pylist()
+    if set(map(type, cells)) <= {str, type(None)}:
+        return [(c.strip() or None) if c is not None else None for c in cells]
+    return [_text_value(c) for c in cells]
+
+
 def normalise(raw: RawTable, mapping: MappingProfile | None = None) -> NormalTable:
     """Interpret a raw table: every problem is collected, nothing raises."""
     from ..units import parse_cells
@@ -192,19 +242,20 @@ def normalise(raw: RawTable, mapping: MappingProfile | None = None) -> NormalTab
         return table
     known = fields_for(rtype)
     n = len(raw.rows)
+    by_position = _cells_by_position(raw, list(positions))
     cells_by_field: dict[str, tuple[list, str | None]] = {}
     for pos, (fname, unit) in positions.items():
-        cells_by_field[fname] = ([row[pos] if pos < len(row) else None for row in raw.rows], unit)
+        cells_by_field[fname] = (by_position[pos], unit)
     if mapping:
         for fname, value in mapping.constants.items():
             if fname not in cells_by_field:
                 cells_by_field[fname] = ([value] * n, None)
     for fname, (cells, unit) in cells_by_field.items():
         fdesc = known[fname]
-        texts = [_cell_text(c) for c in cells]
+        texts, column = _cell_texts(cells)
         if fdesc.is_numeric:
             dimension = fdesc.dimension or "count"
-            si, _numbers, units, errors, warns = parse_cells(texts, dimension, default_unit=unit)
+            si, nums, units, errors, warns = parse_cells(texts, dimension, default_unit=unit, column=column)
             si = np.asarray(si, dtype=float)
             for idx, msg in errors:
                 table.problems.append(Problem(raw.source, raw.row_numbers[idx], fname, msg))
@@ -212,11 +263,10 @@ def normalise(raw: RawTable, mapping: MappingProfile | None = None) -> NormalTab
             for idx, msg in warns:
                 table.warnings.append(Problem(raw.source, raw.row_numbers[idx], fname, msg))
             if fdesc.is_quantity:
-                nums = np.asarray([np.nan if v is None else v for v in _numbers], dtype=float)
+                nums = np.asarray(nums, dtype=float)
                 ok = ~np.isnan(si) & ~np.isnan(nums)
                 table.converted += int(np.count_nonzero(ok & (si != nums)))
-            table.columns[fname] = Column(si, texts, list(units))
+            table.columns[fname] = Column(si, texts, list(units), column)
         else:
-            values = [_text_value(c) for c in cells]
-            table.columns[fname] = Column(values, texts, [None] * n)
+            table.columns[fname] = Column(_text_values(cells), texts, [None] * n, column)
     return table

@@ -10,14 +10,17 @@ from __future__ import annotations
 __all__ = ["RawTable", "read_file", "SUPPORTED_SUFFIXES", "MAX_FILE_BYTES", "MAX_YAML_BYTES",
            "MAX_XLSX_UNPACKED_BYTES", "MAX_CELLS"]
 
+import codecs
 import csv
 import datetime as _dt
 import io
 import json
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from ..errors import InputError, Problem
+from ..units.values import WHITESPACE_RE2
 
 SUPPORTED_SUFFIXES = (".csv", ".xlsx", ".json", ".yaml", ".yml")
 #: Files larger than this are refused before reading.  An import holds the whole file,
@@ -48,6 +51,30 @@ class RawTable:
     record_type: str | None = None  # when the file says it (sheet name, top-level key)
     units: dict = field(default_factory=dict)  # header -> default unit stated by the file
     problems: list = field(default_factory=list)  # Problem of single rows/cells found while reading
+    columns: list | None = None  # the cells per header position as pyarrow string arrays, when read so
+
+
+class ColumnRows(Sequence):
+    """The rows of a table read column by column (pyarrow string arrays), made on demand."""
+
+    def __init__(self, columns: list, n: int):
+        self._columns = columns
+        self._n = n
+
+    def __len__(self) -> int:
+        return self._n
+
+    def __getitem__(self, i):
+        if isinstance(i, slice):
+            return [self[k] for k in range(*i.indices(self._n))]
+        if i < 0:
+            i += self._n
+        if not 0 <= i < self._n:
+            raise IndexError("row index out of range")
+        return [col[i].as_py() for col in self._columns]
+
+    def __iter__(self):
+        return (list(cells) for cells in zip(*(col.to_pylist() for col in self._columns)))
 
 
 def _fail(source: str, message: str, row: int | None = None, field: str | None = None) -> InputError:
@@ -77,8 +104,61 @@ def _decode(data: bytes, source: str) -> str:
                             "(a Latin-1 or Windows-1252 file? save it as UTF-8)", row=line) from None
 
 
+def _read_csv_columns(data: bytes, text: str, source: str, delimiter: str) -> RawTable | None:
+    """A plain CSV file read column by column with pyarrow; None for anything else.
+
+    Plain: no quote character, no line break but ``\\n`` and ``\\r\\n``, no empty line
+    before the last record, every record with one cell per header and one cell not
+    blank, at most :data:`MAX_CELLS` cells, no cell longer than :mod:`csv` takes
+    (``csv.field_size_limit()``).  Such a file is split at line breaks and
+    delimiters only, so pyarrow reads exactly the cells and rows :mod:`csv` reads
+    (record *k* on line *k* + 1); any other file is left to the :mod:`csv` reader,
+    which also says what is wrong with it.
+    """
+    if '"' in text or text.count("\r") != text.count("\r\n"):
+        return None
+    body = text.rstrip("\r\n")
+    if not body or "\n\n" in body or "\n\r\n" in body:
+        return None
+    cells = body.split("\n", 1)[0].removesuffix("\r").split(delimiter)
+    headers = [c.strip() for c in cells]
+    n = body.count("\n")  # records: one per line after the header
+    limit = csv.field_size_limit()
+    if not any(headers) or (n + 1) * len(headers) > MAX_CELLS or max(map(len, cells)) >= limit:
+        return None
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    import pyarrow.csv as pcsv
+
+    names = [f"c{k}" for k in range(len(headers))]
+    try:
+        table = pcsv.read_csv(
+            io.BytesIO(data.removeprefix(codecs.BOM_UTF8)),
+            read_options=pcsv.ReadOptions(column_names=names, skip_rows=1),
+            parse_options=pcsv.ParseOptions(delimiter=delimiter, quote_char=False, double_quote=False,
+                                            escape_char=False, newlines_in_values=False, ignore_empty_lines=True),
+            convert_options=pcsv.ConvertOptions(column_types={c: pa.string() for c in names},
+                                                strings_can_be_null=False, quoted_strings_can_be_null=False))
+    except pa.ArrowException:  # a record with another number of cells
+        return None
+    if table.num_rows != n:
+        return None
+    columns = [table.column(c).combine_chunks() for c in names]
+    if max(pc.max(pc.utf8_length(col)).as_py() or 0 for col in columns) >= limit:
+        return None
+    blank = pc.match_substring_regex(columns[0], f"^[{WHITESPACE_RE2}]*$")
+    for col in columns[1:]:
+        if not pc.any(blank).as_py():
+            break
+        blank = pc.and_(blank, pc.match_substring_regex(col, f"^[{WHITESPACE_RE2}]*$"))
+    if pc.any(blank).as_py():  # a record of blank cells only: csv's reader skips it
+        return None
+    return RawTable(source, headers, ColumnRows(columns, n), list(range(2, n + 2)), columns=columns)
+
+
 def _read_csv(path: Path, source: str, header_row: int = 1) -> list[RawTable]:
-    text = _decode(path.read_bytes(), source)
+    data = path.read_bytes()
+    text = _decode(data, source)
     sample = text[:4096]
     delimiter = ","
     first = sample.splitlines()[header_row - 1] if sample.splitlines()[header_row - 1:] else ""
@@ -86,6 +166,10 @@ def _read_csv(path: Path, source: str, header_row: int = 1) -> list[RawTable]:
         delimiter = ";"
     elif first.count("\t") > first.count(","):
         delimiter = "\t"
+    if header_row == 1:
+        table = _read_csv_columns(data, text, source, delimiter)
+        if table is not None:
+            return [table]
     # strict: a quote that is never closed is an error, not a cell swallowing the rest of the file
     reader = csv.reader(io.StringIO(text, newline=""), delimiter=delimiter, strict=True)
     headers: list[str] | None = None

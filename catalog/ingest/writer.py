@@ -2,9 +2,21 @@
 
 Everything happens in the one transaction of :meth:`Store.write`, so an import is
 whole or absent.  The values are built, written and derived in chunks of
-:data:`CHUNK_ROWS` records (no frame of every value of the file at once).  DuckDB
-keeps what a transaction wrote, and every frame registered in it, until COMMIT, so
-the memory of an import still grows with its size: the readers' limits bound it.
+:data:`CHUNK_ROWS` records (no table of every value of the file at once), handed
+to DuckDB as pyarrow tables.
+
+A record the catalogue already holds may keep values of fields the file does not
+give, and the values it replaces go to ``value_history``: its given values replace
+the stored ones field by field, and its constants are derived again from what the
+store then holds (:func:`catalog.derive.derive_in_store`).  A record new to the
+catalogue has nothing to replace or keep, so its constants are derived from the SI
+columns in memory (:func:`catalog.derive.derive_rows`, the same closure and
+residuals) and its given and derived values are simply inserted.  Both give the
+same rows; the new-record path skips reading the values back.
+
+DuckDB keeps what a transaction wrote, and every table registered in it, until
+COMMIT, so the memory of an import still grows with its size: the readers' limits
+bound it.
 """
 from __future__ import annotations
 
@@ -15,11 +27,12 @@ import hashlib
 import numpy as np
 
 from ..fields import fields_for
-from ..store import one
 from .normalise import NormalTable, slug
 
 #: Records per chunk of values written and derived inside the one transaction.
 CHUNK_ROWS = 20_000
+
+_IDENTITY = ("id", "manufacturer", "part_number")
 
 
 def unique_id(manufacturer: str, part_number: str) -> str:
@@ -34,9 +47,16 @@ def unique_id(manufacturer: str, part_number: str) -> str:
     return f"{slug(manufacturer, part_number)[:180].rstrip('-._')}-{digest}"
 
 
-def _stored_ids(con, records) -> dict:
+def _strings(**columns):
+    """A pyarrow table of text columns (lists or object arrays, None = null)."""
+    import pyarrow as pa
+
+    return pa.table({name: pa.array(values, type=pa.string()) for name, values in columns.items()})
+
+
+def _stored_ids(con, ids: list, manufacturers: list, part_numbers: list) -> dict:
     """incoming id -> stored id of the same record, or None where the id is another record's."""
-    con.register("incoming_keys", records[["record_id", "manufacturer", "part_number"]])
+    con.register("incoming_keys", _strings(record_id=ids, manufacturer=manufacturers, part_number=part_numbers))
     rows = con.execute(
         "SELECT i.record_id, r.record_id, lower(trim(r.manufacturer)) = lower(trim(i.manufacturer)) "
         "AND lower(trim(r.part_number)) = lower(trim(i.part_number)) "
@@ -53,142 +73,272 @@ def _stored_ids(con, records) -> dict:
     return remap
 
 
-def _resolve_existing(con, records):
+def _resolve_existing(con, ids: list, manufacturers: list, part_numbers: list):
     """Reuse the id of a record already stored under the same manufacturer and part number;
     where a short id belongs to another record, fall back to the full slug, and where that
-    is taken too, to :func:`unique_id`.  Returns (records, {incoming id: new id})."""
-    remap = _stored_ids(con, records)
+    is taken too, to :func:`unique_id`.  Returns (ids, {incoming id: new id})."""
+    remap = _stored_ids(con, ids, manufacturers, part_numbers)
     if not remap:
-        return records, {}
-    rids = records["record_id"]
+        return ids, {}
     full = {}
-    for i, rid in enumerate(rids):
+    for i, rid in enumerate(ids):
         if rid in remap:
-            full[rid] = remap[rid] or slug(records["manufacturer"].iat[i], records["part_number"].iat[i])
+            full[rid] = remap[rid] or slug(manufacturers[i], part_numbers[i])
     # a fallback slug may itself belong to another record (stored, or of this import)
-    renamed = [i for i, rid in enumerate(rids) if rid in full and remap[rid] is None]
+    renamed = [i for i, rid in enumerate(ids) if rid in full and remap[rid] is None]
     if renamed:
-        trial = records.iloc[renamed].assign(record_id=[full[rids.iat[i]] for i in renamed])
-        taken = _stored_ids(con, trial)
-        incoming = set(rids) - set(full)
-        new_ids = list(trial["record_id"])
+        new_ids = [full[ids[i]] for i in renamed]
+        taken = _stored_ids(con, new_ids, [manufacturers[i] for i in renamed], [part_numbers[i] for i in renamed])
+        incoming = set(ids) - set(full)
         for i, new in zip(renamed, new_ids):
             if new in incoming or new in taken or new_ids.count(new) > 1:
-                full[rids.iat[i]] = unique_id(records["manufacturer"].iat[i], records["part_number"].iat[i])
-    return records.assign(record_id=[full.get(r, r) for r in rids]), full
+                full[ids[i]] = unique_id(manufacturers[i], part_numbers[i])
+    return [full.get(r, r) for r in ids], full
 
 
-def long_frame(table: NormalTable, ids: list, keep: np.ndarray, lo: int = 0, hi: int | None = None):
-    """The long rows (record, field, value...) of the kept rows ``lo:hi`` of one table."""
-    import pandas as pd
+class _Incoming:
+    """The rows of one table to write, with what the long values are made of as pyarrow arrays."""
 
-    hi = table.n if hi is None else hi
-    frames = []
-    idx = np.flatnonzero(keep[lo:hi])
-    rows = np.asarray(table.row_numbers[lo:hi])[idx]
-    id_arr = np.asarray(ids[lo:hi], dtype=object)[idx]
-    for fname, col in table.columns.items():
-        if fname in ("id", "manufacturer", "part_number"):
-            continue
-        fdesc = fields_for(table.record_type)[fname]
-        raw_text = np.asarray(col.raw_text[lo:hi], dtype=object)[idx]
-        raw_unit = np.asarray(col.raw_unit[lo:hi], dtype=object)[idx]
-        if fdesc.is_numeric:
-            vals = np.asarray(col.values[lo:hi], dtype=float)[idx]
-            present = ~np.isnan(vals)
-            vnum, vtext = vals[present], None
-        else:
-            vals = np.asarray(col.values[lo:hi], dtype=object)[idx]
-            present = np.array([v is not None for v in vals], dtype=bool)
-            vnum, vtext = None, vals[present]
-        m = int(present.sum())
-        if m == 0:
-            continue
-        frames.append(pd.DataFrame({
-            "record_id": id_arr[present],
-            "field": fname,
-            "value_num": vnum if vnum is not None else np.full(m, np.nan),
-            "value_text": vtext if vtext is not None else np.full(m, None, dtype=object),
-            "raw_text": raw_text[present],
-            "raw_unit": raw_unit[present],
-            "origin": "given",
-            "relation": None,
-            "inputs": None,
-            "source_file": table.source,
-            "source_row": rows[present].astype("int64"),
-        }))
-    if not frames:
-        return None
-    return pd.concat(frames, ignore_index=True)
+    def __init__(self, table: NormalTable, keep: np.ndarray):
+        import pyarrow as pa
+
+        self.table = table
+        self.rows = np.flatnonzero(keep)  # positions of the kept rows in the table
+        self.held = np.zeros(table.n, dtype=bool)  # rows of records the catalogue held before
+        self.source_rows = np.asarray(table.row_numbers, dtype=np.int64)
+        self.ids = None  # pyarrow ids of every row of the table, once the stored ids are known
+        self.raw = {}  # field -> (raw_text, raw_unit, value_text or None) as pyarrow arrays
+        fields = fields_for(table.record_type)
+        for fname, col in table.columns.items():
+            if fname in _IDENTITY:
+                continue
+            text = None if fields[fname].is_numeric else pa.array(col.values, type=pa.string())
+            raw_text = col.raw_text_array
+            if raw_text is None:
+                raw_text = pa.array(col.raw_text, type=pa.string())
+            self.raw[fname] = (raw_text, pa.array(col.raw_unit, type=pa.string()).dictionary_encode(), text)
+
+    def set_ids(self, ids: list, held: np.ndarray) -> None:
+        """The final ids of the kept rows, in their order, and which of them the catalogue held."""
+        import pyarrow as pa
+
+        full = np.full(self.table.n, None, dtype=object)
+        full[self.rows] = ids
+        self.ids = pa.array(full, type=pa.string())
+        self.held[self.rows] = held
+
+    def given_values(self, rows: np.ndarray):
+        """The long given values (record_id, field, value_num, value_text, raw_text, raw_unit,
+        source_file, source_row) of the table rows ``rows`` as a pyarrow table, or None."""
+        import pyarrow as pa
+
+        tables = []
+        for fname, (raw_text, raw_unit, text) in self.raw.items():
+            if text is None:
+                values = np.asarray(self.table.columns[fname].values, dtype=float)[rows]
+                present = rows[~np.isnan(values)]
+                value_num = pa.array(values[~np.isnan(values)], type=pa.float64())
+                value_text = pa.nulls(len(present), type=pa.string())
+            else:
+                present = rows[text.take(pa.array(rows)).is_valid().to_numpy(zero_copy_only=False)]
+                value_num = pa.nulls(len(present), type=pa.float64())
+                value_text = text.take(pa.array(present))
+            if len(present) == 0:
+                continue
+            where = pa.array(present)
+            tables.append(pa.table({
+                "record_id": self.ids.take(where),
+                "field": _repeat(fname, len(present)),
+                "value_num": value_num,
+                "value_text": value_text,
+                "raw_text": raw_text.take(where),
+                "raw_unit": raw_unit.take(where),
+                "source_file": _repeat(self.table.source, len(present)),
+                "source_row": pa.array(self.source_rows[present]),
+            }))
+        return pa.concat_tables(tables) if tables else None
 
 
-def records_frame(table: NormalTable, ids: list, keep: np.ndarray):
-    import pandas as pd
+def _repeat(text: str, n: int):
+    """``text`` ``n`` times, as a dictionary-encoded pyarrow column (one copy of the text)."""
+    import pyarrow as pa
 
-    idx = np.flatnonzero(keep)
-    return pd.DataFrame({
-        "record_id": np.asarray(ids, dtype=object)[idx],
-        "record_type": table.record_type,
-        "manufacturer": np.asarray(table.columns["manufacturer"].values, dtype=object)[idx],
-        "part_number": np.asarray(table.columns["part_number"].values, dtype=object)[idx],
-    })
+    return pa.DictionaryArray.from_arrays(pa.array(np.zeros(n, dtype=np.int32)), pa.array([text], type=pa.string()))
 
 
-def _write_values(con, values, batch: int) -> None:
-    """Store one chunk of given values; the values they replace go to history."""
-    values["batch_id"] = batch
+def _replace_given(con, values, batch: int) -> None:
+    """Store given values (a table of :meth:`_Incoming.given_values`) of records the catalogue
+    held before: the stored values of the same record and field go to history first."""
     con.register("incoming_values", values)
     con.execute(
         "INSERT INTO value_history SELECT v.*, ?, now() FROM record_values v "
         "WHERE (v.record_id, v.field) IN (SELECT record_id, field FROM incoming_values)", [batch])
     con.execute(
         "DELETE FROM record_values WHERE (record_id, field) IN (SELECT record_id, field FROM incoming_values)")
-    con.execute("INSERT INTO record_values SELECT * FROM incoming_values")
+    con.execute("INSERT INTO record_values SELECT record_id, field, value_num, value_text, raw_text, raw_unit, "
+                "'given', NULL, NULL, source_file, source_row, ? FROM incoming_values", [batch])
     con.unregister("incoming_values")
+
+
+def _no_given():
+    """An empty table shaped as :meth:`_Incoming.given_values` makes it."""
+    import pyarrow as pa
+
+    return pa.table({name: pa.array([], type=kind) for name, kind in (
+        ("record_id", pa.string()), ("field", pa.string()), ("value_num", pa.float64()),
+        ("value_text", pa.string()), ("raw_text", pa.string()), ("raw_unit", pa.string()),
+        ("source_file", pa.string()), ("source_row", pa.int64()))})
+
+
+def _no_derived():
+    """An empty table shaped as :attr:`catalog.derive.DerivedRows.values`."""
+    import pyarrow as pa
+
+    return pa.table({name: pa.array([], type=kind) for name, kind in (
+        ("record_id", pa.string()), ("field", pa.string()), ("value_num", pa.float64()),
+        ("relation", pa.string()), ("inputs", pa.string()))})
+
+
+def _insert_new(con, given: list, derived, batch: int) -> None:
+    """Insert the given values (tables of :meth:`_Incoming.given_values`) and the derived ones
+    (:class:`~catalog.derive.DerivedRows`) of records new to the catalogue, in one statement.
+
+    The rows go in in the order of the primary key, which DuckDB indexes fastest.
+    """
+    import pyarrow as pa
+
+    if given or derived.values is not None:
+        con.register("new_given", pa.concat_tables(given) if given else _no_given())
+        con.register("new_derived", derived.values if derived.values is not None else _no_derived())
+        con.execute(
+            "INSERT INTO record_values SELECT * FROM ("
+            "SELECT record_id, field, value_num, value_text, raw_text, raw_unit, 'given', CAST(NULL AS VARCHAR), "
+            "CAST(NULL AS VARCHAR), source_file, source_row, ? FROM new_given UNION ALL "
+            "SELECT record_id, field, value_num, NULL, NULL, NULL, 'derived', relation, inputs, NULL, NULL, ? "
+            "FROM new_derived) ORDER BY record_id, field", [batch, batch])
+        con.unregister("new_given")
+        con.unregister("new_derived")
+    if derived.flags is not None:
+        con.register("new_flags", derived.flags)
+        con.execute("INSERT INTO flags SELECT record_id, relation, given, field, given_value, implied_value, "
+                    "residual, ? FROM new_flags ORDER BY record_id, relation", [batch])
+        con.unregister("new_flags")
+
+
+def _held_before(con) -> tuple[set, set]:
+    """(ids of ``incoming_records`` in the catalogue, ids that have values or flags there
+    without a record).
+
+    The second set is empty in any catalogue this code wrote; such ids take the path of
+    records held before, which replaces what is there.
+    """
+    stored = {r for (r,) in con.execute(
+        "SELECT record_id FROM incoming_records WHERE record_id IN (SELECT record_id FROM records)").fetchall()}
+    leftovers = {r for (r,) in con.execute(
+        "SELECT record_id FROM incoming_records WHERE record_id IN (SELECT record_id FROM record_values) "
+        "OR record_id IN (SELECT record_id FROM flags)").fetchall()} - stored
+    return stored, leftovers
 
 
 def write_tables(store, report, kept, files: str, derive: bool = True) -> None:
     """Write ``kept`` — (table, ids, keep mask) of every table with rows to import — in
     one transaction, filling ``report`` (batch, created, updated, values, derived, flags)."""
-    import pandas as pd
+    import pyarrow as pa
 
-    records = pd.concat([records_frame(t, ids, keep) for t, ids, keep in kept], ignore_index=True)
+    incoming = [_Incoming(table, keep) for table, _ids, keep in kept]
+    rids, rtypes, makers, parts = [], [], [], []
+    for inc, (table, ids, _keep) in zip(incoming, kept):
+        rids += np.asarray(ids, dtype=object)[inc.rows].tolist()
+        rtypes += [table.record_type] * len(inc.rows)
+        makers += np.asarray(table.columns["manufacturer"].values, dtype=object)[inc.rows].tolist()
+        parts += np.asarray(table.columns["part_number"].values, dtype=object)[inc.rows].tolist()
     with store.write() as con:
         batch = store.new_batch(con, "import", files=files)
         report.batch_id = batch
-        records, renamed = _resolve_existing(con, records)
-        con.register("incoming_records", records)
-        existing = one(con.execute(
-            "SELECT count(*) FROM incoming_records i JOIN records r USING (record_id)"))[0]
-        report.updated = int(existing)
-        report.created = len(records) - report.updated
+        rids, _renamed = _resolve_existing(con, rids, makers, parts)
+        con.register("incoming_records", _strings(record_id=rids, record_type=rtypes, manufacturer=makers,
+                                                  part_number=parts))
+        stored, leftovers = _held_before(con)
+        report.updated = len(stored)
+        report.created = len(rids) - report.updated
         con.execute(
             "UPDATE records SET updated_batch = ?, manufacturer = i.manufacturer, part_number = i.part_number "
             "FROM incoming_records i WHERE records.record_id = i.record_id", [batch])
         con.execute(
             "INSERT INTO records SELECT record_id, record_type, manufacturer, part_number, ?, ? "
             "FROM incoming_records WHERE record_id NOT IN (SELECT record_id FROM records)", [batch, batch])
-        # every derived value of a touched record goes to history: it is derived again below
-        con.execute(
-            "INSERT INTO value_history SELECT v.*, ?, now() FROM record_values v "
-            "WHERE v.origin = 'derived' AND v.record_id IN (SELECT record_id FROM incoming_records)", [batch])
-        con.execute("DELETE FROM record_values WHERE origin = 'derived' "
-                    "AND record_id IN (SELECT record_id FROM incoming_records)")
         con.unregister("incoming_records")
-        for table, ids, keep in kept:
-            for lo in range(0, table.n, CHUNK_ROWS):
-                values = long_frame(table, ids, keep, lo, lo + CHUNK_ROWS)
-                if values is None:
-                    continue
-                if renamed:
-                    values["record_id"] = [renamed.get(r, r) for r in values["record_id"]]
-                _write_values(con, values, batch)
-                report.values += len(values)
-        if derive:
-            from ..derive import derive_in_store
+        before = stored | leftovers
+        held = np.array([r in before for r in rids], dtype=bool) if before else np.zeros(len(rids), dtype=bool)
+        at = 0
+        for inc in incoming:
+            inc.set_ids(rids[at:at + len(inc.rows)], held[at:at + len(inc.rows)])
+            at += len(inc.rows)
+        if held.any():
+            # every derived value of a touched record goes to history: it is derived again below
+            con.register("touched_records", pa.table({"record_id": pa.array(
+                [r for r, h in zip(rids, held) if h], type=pa.string())}))
+            con.execute(
+                "INSERT INTO value_history SELECT v.*, ?, now() FROM record_values v "
+                "WHERE v.origin = 'derived' AND v.record_id IN (SELECT record_id FROM touched_records)", [batch])
+            con.execute("DELETE FROM record_values WHERE origin = 'derived' "
+                        "AND record_id IN (SELECT record_id FROM touched_records)")
+            con.unregister("touched_records")
+            # their given values replace the stored ones before anything is derived from the store
+            for inc in incoming:
+                for lo in range(0, inc.table.n, CHUNK_ROWS):
+                    rows = lo + np.flatnonzero(inc.held[lo:lo + CHUNK_ROWS])
+                    values = inc.given_values(rows) if len(rows) else None
+                    if values is not None:
+                        _replace_given(con, values, batch)
+                        report.values += values.num_rows
+        _write_chunks(con, batch, report, incoming, rids, held, derive)
 
-            rids = list(records["record_id"])
-            for lo in range(0, len(rids), CHUNK_ROWS):
-                outcome = derive_in_store(con, batch, record_ids=rids[lo:lo + CHUNK_ROWS])
-                report.derived += outcome.derived
-                report.flags.extend(outcome.flags)
+
+def _write_chunks(con, batch: int, report, incoming: list, rids: list, held: np.ndarray, derive: bool) -> None:
+    """Chunk by chunk of records: derive those held before from the store, and insert the new
+    ones with the values derived from their columns in memory.  Flags are reported in the
+    order the store path gives for the whole chunk: by relation, then by record id."""
+    from ..derive import EQUATIONS, DerivedRows, derive_in_store, derive_rows
+
+    numeric = [f.name for f in fields_for("motor").values() if f.is_numeric]
+    # where each record of the import is: its table and its row there
+    where_table = np.concatenate([np.full(len(inc.rows), t) for t, inc in enumerate(incoming)])
+    where_row = np.concatenate([inc.rows for inc in incoming])
+    order = {eq.name: k for k, eq in enumerate(EQUATIONS)}
+    for lo in range(0, len(rids), CHUNK_ROWS):
+        hi = lo + CHUNK_ROWS
+        flags = []
+        old = [r for r, h in zip(rids[lo:hi], held[lo:hi]) if h]
+        if derive and old:
+            outcome = derive_in_store(con, batch, record_ids=old)
+            report.derived += outcome.derived
+            flags += outcome.flags
+        new = lo + np.flatnonzero(~held[lo:hi])
+        given, ids, parts, basis = [], [], {f: [] for f in numeric}, []
+        for t, inc in enumerate(incoming):
+            rows = where_row[new[where_table[new] == t]]
+            if len(rows) == 0:
+                continue
+            values = inc.given_values(rows)
+            if values is not None:
+                given.append(values)
+                report.values += values.num_rows
+            if not (derive and inc.table.record_type == "motor"):
+                continue
+            ids.append(np.asarray(inc.ids.take(rows).to_pylist(), dtype=object))
+            for f in numeric:
+                col = inc.table.columns.get(f)
+                parts[f].append(np.full(len(rows), np.nan) if col is None
+                                else np.asarray(col.values, dtype=float)[rows])
+            col = inc.table.columns.get("constant_basis")
+            basis.append(np.full(len(rows), None, dtype=object) if col is None
+                         else np.asarray(col.values, dtype=object)[rows])
+        derived = DerivedRows()
+        if ids:
+            derived = derive_rows(np.concatenate(ids), {f: np.concatenate(p) for f, p in parts.items()},
+                                  {"constant_basis": np.concatenate(basis)})
+            report.derived += derived.derived
+            flags += derived.flagged
+        _insert_new(con, given, derived, batch)
+        report.flags.extend(sorted(flags, key=lambda f: (order[f.relation], f.record_id)))

@@ -3,8 +3,8 @@
 DuckDB lets one process at a time hold a file open for writing, so every operation
 opens the file, does its work in one transaction and closes it again.  A process
 that finds the file busy waits and retries for a bounded time, then fails with
-:class:`~catalog.errors.StoreBusy`.  Writes go in bulk (a registered DataFrame and
-``INSERT ... SELECT``), never row by row.
+:class:`~catalog.errors.StoreBusy`.  Writes go in bulk (a registered pyarrow table or
+DataFrame and ``INSERT ... SELECT``), never row by row.
 
 DuckDB's own file lock is not enough between processes: opening a file, DuckDB
 reads its header before it takes the lock, so a process that opens the file

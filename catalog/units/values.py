@@ -146,44 +146,72 @@ def _key(u) -> str | None:
     return u or None
 
 
-def _convert(numbers, units, dimension, default_unit, texts):
+def _factorize(units) -> tuple:
+    """Codes of ``units`` (-1 for None) and the distinct spellings, in order of first appearance."""
+    import numpy as np
+
+    index: dict = {}
+    codes = np.fromiter((-1 if u is None else index.setdefault(u, len(index)) for u in units),
+                        dtype=np.intp, count=len(units))
+    return codes, list(index)
+
+
+def _convert(nums, codes, spellings, dimension, default_unit, texts):
+    """SI values of ``nums`` whose unit spelling is ``spellings[codes[i]]`` (code -1: none written).
+
+    Each distinct spelling is parsed once; cells whose spelling cannot be read get an
+    error naming the cell (``texts[i]``, or the number and spelling when ``texts`` is None).
+    Returns ``(si, errors, warnings)`` with ``(index, message)`` lists sorted by index.
+    """
     import numpy as np
 
     dim = get_dimension(dimension)
-    nums = np.asarray(numbers, dtype=float).reshape(-1)
-    units = list(units)
-    if len(units) != len(nums):
-        raise ValueError(f"{len(nums)} numbers but {len(units)} units, expected as many units as numbers")
-    si = np.full(nums.shape, np.nan)
-    errors: list = []
-    warnings: list = []
-    raw_groups: dict = {}
-    for i, u in enumerate(units):  # group by the spelling as written, normalise once per group
-        raw_groups.setdefault(u, []).append(i)
-    groups: dict = {}
-    for u, where in raw_groups.items():
-        groups.setdefault(_key(u), []).extend(where)
     default = _key(default_unit)
     unitless_ok = dim.accepts_percent or dim.unitless_only
-    for key, where in groups.items():
-        idx = np.asarray(where, dtype=np.intp)
-        present = idx[~np.isnan(nums[idx])]
+    # one slot per distinct spelling plus a last one for "no unit written" (code -1);
+    # spellings equal but for surrounding spaces share one key and one parse
+    m = len(spellings)
+    factor = np.full(m + 1, np.nan)
+    offset = np.full(m + 1, np.nan)
+    outcome: dict = {}  # key -> Conversion, or (error, spelling) where it cannot be read
+    failed: dict = {}  # slot -> (error or message, spelling, the cell's own text shown?)
+    warned: dict = {}  # slot -> warnings
+    for slot, written in enumerate([*spellings, None]):
+        key = _key(written)
         spelling = key if key is not None else default
-        if spelling is None and not unitless_ok:
-            msg = str(UnitError("", kind="missing", expected=dim.expected))
-            errors += [(int(i), msg) for i in present]
+        if key not in outcome:
+            if spelling is None and not unitless_ok:
+                outcome[key] = (str(UnitError("", kind="missing", expected=dim.expected)), None)
+            else:
+                try:
+                    outcome[key] = parse_unit(spelling or "", dim)
+                except UnitError as e:
+                    outcome[key] = (e, spelling)
+        conv = outcome[key]
+        if isinstance(conv, tuple):
+            failed[slot] = (*conv, key is not None)
             continue
-        try:
-            conv = parse_unit(spelling or "", dim)
-        except UnitError as e:
-            for i in present:
-                cell = str(texts[i]).strip() if (texts is not None and key is not None) \
+        factor[slot], offset[slot] = conv.factor, conv.offset
+        if conv.warnings:
+            warned[slot] = conv.warnings
+    nums = np.asarray(nums, dtype=float)
+    slots = np.where(codes < 0, m, codes)
+    si = nums * factor[slots] + offset[slots]
+    errors: list = []
+    warnings: list = []
+    if failed or warned:
+        present = ~np.isnan(nums)
+        for slot, (err, spelling, own_text) in failed.items():
+            for i in np.flatnonzero(present & (slots == slot)):
+                if isinstance(err, str):
+                    errors.append((int(i), err))
+                    continue
+                cell = str(texts[i]).strip() if (texts is not None and own_text) \
                     else f"{_fmt(nums[i])} {spelling}"
-                errors.append((int(i), str(e.with_text(cell))))
-            continue
-        si[idx] = nums[idx] * conv.factor + conv.offset
-        for w in conv.warnings:
-            warnings += [(int(i), w) for i in present]
+                errors.append((int(i), str(err.with_text(cell))))
+        for slot, warns in warned.items():
+            for i in np.flatnonzero(present & (slots == slot)):
+                warnings += [(int(i), w) for w in warns]
     errors.sort(key=lambda t: t[0])
     warnings.sort(key=lambda t: t[0])
     return si, errors, warnings
@@ -197,55 +225,109 @@ def convert_column(numbers, units: Sequence[str | None], dimension, default_unit
     once (cached :func:`parse_unit`) and applied to its rows with numpy.  Errors
     and warnings are ``(index, message)`` lists; rows in error are NaN.
     """
-    return _convert(numbers, units, dimension, default_unit, None)
+    import numpy as np
+
+    nums = np.asarray(numbers, dtype=float).reshape(-1)
+    units = list(units)
+    if len(units) != len(nums):
+        raise ValueError(f"{len(nums)} numbers but {len(units)} units, expected as many units as numbers")
+    codes, spellings = _factorize(units)
+    return _convert(nums, codes, spellings, dimension, default_unit, None)
 
 
-def parse_cells(texts: Sequence, dimension, default_unit: str | None = None) -> ParsedCells:
-    """Split and convert a column of cells (strings, numbers or None): see :class:`ParsedCells`."""
+#: Python's whitespace: what ``str.isspace`` accepts, ``str.strip`` removes and ``\\s`` matches.
+WHITESPACE = "\t\n\x0b\x0c\r\x1c\x1d\x1e\x1f \x85\xa0\u1680" + "".join(map(chr, range(0x2000, 0x200b))) \
+    + "\u2028\u2029\u202f\u205f\u3000"
+#: The same characters as the inside of a character class of pyarrow's RE2 patterns.
+WHITESPACE_RE2 = ("\\t\\n\\x0b\\x0c\\r\\x1c-\\x1f \\x{85}\\x{a0}\\x{1680}\\x{2000}-\\x{200a}"
+                  "\\x{2028}\\x{2029}\\x{202f}\\x{205f}\\x{3000}")
+# _FAST for pyarrow's RE2: the same pattern with Python's \s spelled out.
+_FAST_RE2 = (rf"^[{WHITESPACE_RE2}]*(?P<number>[+-]?(?:[0-9]+(?:\.[0-9]*)?|\.[0-9]+)(?:[eE][+-]?[0-9]+)?)"
+             rf"(?:[{WHITESPACE_RE2}]*(?P<unit>[^0-9{WHITESPACE_RE2},.'’+\-−][^,]*?))?[{WHITESPACE_RE2}]*$")
+
+
+def _split_fast(texts, column=None):
+    """The cells of a column of text that :data:`_FAST` reads, split at once with pyarrow.
+
+    ``column``, if given, holds ``texts`` as a pyarrow string array (None as null).
+
+    Returns ``(matched, numbers, codes, spellings)``: a bool array of the cells read
+    (finite numbers only), their numbers, and per cell the index of its unit spelling
+    in ``spellings`` (-1: none written or not read).  None when the column holds
+    anything but ``str`` and None, or text pyarrow cannot hold: the caller reads it
+    cell by cell.  Every cell not matched here takes the strict path of
+    :func:`split_value_unit`, exactly as when reading cell by cell.
+    """
+    import numpy as np
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    if column is None and not set(map(type, texts)) <= {str, type(None)}:
+        return None
+    try:
+        if column is None:
+            column = pa.array(texts, type=pa.string())
+        parts = pc.extract_regex(column, _FAST_RE2)  # null where the pattern does not match
+        numbers = pc.cast(pc.struct_field(parts, "number"), pa.float64()).to_numpy(zero_copy_only=False)
+    except (pa.ArrowException, UnicodeError):  # lone surrogates, a number pyarrow cannot cast
+        return None
+    matched = np.isfinite(numbers)  # NaN where not matched; an overflow (inf) takes the strict path
+    units = pc.struct_field(parts, "unit").dictionary_encode()  # '' where no unit is written
+    spellings = units.dictionary.to_pylist()
+    position = {u: k for k, u in enumerate(u for u in spellings if u != "")}
+    lookup = np.array([position.get(u, -1) for u in spellings] + [-1], dtype=np.intp)
+    indices = pc.fill_null(units.indices, len(spellings)).to_numpy(zero_copy_only=False)
+    codes = np.where(matched, lookup[indices], -1)
+    return matched, np.where(matched, numbers, np.nan), codes, list(position)
+
+
+def parse_cells(texts: Sequence, dimension, default_unit: str | None = None, column=None) -> ParsedCells:
+    """Split and convert a column of cells (strings, numbers or None): see :class:`ParsedCells`.
+
+    A column of text is split with pyarrow (:func:`_split_fast`); the cells it does not
+    read, and columns of other cells, are read one by one with :data:`_FAST` and, failing
+    that, :func:`split_value_unit`.  Both give the same numbers, units and messages.
+    ``column``, if given, holds ``texts`` (all text or None) as a pyarrow string array.
+    """
     import numpy as np
 
     n = len(texts)
-    nums = np.full(n, np.nan)
-    units: list = [None] * n
     shown: list = list(texts)
     errors: list = []
-    fast = _FAST.fullmatch
-    fast_idx: list = []
-    fast_num: list = []
-    slow: list = []
-    for i, cell in enumerate(texts):
-        if cell.__class__ is str:
-            m = fast(cell)
-            if m is not None:
-                fast_idx.append(i)
-                fast_num.append(m.group(1))
-                units[i] = m.group(2)
-                continue
-        slow.append(i)
-    if fast_idx:
-        idx = np.asarray(fast_idx, dtype=np.intp)
-        vals = np.asarray(fast_num, dtype=float)
-        finite = np.isfinite(vals)
-        nums[idx[finite]] = vals[finite]
-        for i in idx[~finite]:  # overflow such as 1e999: let the strict path say why
-            units[i] = None
-            slow.append(int(i))
-    for i in slow:
+    fast = _split_fast(texts, column) if n else None
+    if fast is not None:
+        matched, nums, codes, spellings = fast
+        rest = np.flatnonzero(~matched).tolist()
+    else:
+        nums, codes, spellings = np.full(n, np.nan), np.full(n, -1, dtype=np.intp), []
+        rest = range(n)
+    index = {u: k for k, u in enumerate(spellings)}
+    fast_re = _FAST.fullmatch
+    for i in rest:  # cell by cell: what pyarrow did not read
         cell = texts[i]
-        try:
-            value, unit = split_value_unit(cell)
-        except UnitError as e:
-            errors.append((i, str(e)))
-            continue
-        if value is not None:
-            nums[i], units[i] = value, unit
+        unit = None
+        m = fast_re(cell) if cell.__class__ is str else None
+        if m is not None and math.isfinite(value := float(m.group(1))):
+            nums[i], unit = value, m.group(2)
+        else:  # the strict path, which also says why a cell cannot be read
+            try:
+                value, unit = split_value_unit(cell)
+            except UnitError as e:
+                errors.append((i, str(e)))
+                continue
+            if value is None:
+                continue
+            nums[i] = value
             shown[i] = str(cell).strip() if isinstance(cell, str) else _fmt(value)
-    si, errs, warnings = _convert(nums, units, dimension, default_unit, shown)
+        if unit is not None:
+            codes[i] = index.setdefault(unit, len(index))
+    spellings = list(index)
+    si, errs, warnings = _convert(nums, codes, spellings, dimension, default_unit, shown)
     errors = sorted(errors + errs, key=lambda t: t[0])
-    default = _key(default_unit)
-    used = [u if u is not None else (default if not np.isnan(nums[i]) else None)
-            for i, u in enumerate(units)]
-    return ParsedCells(si, nums, used, errors, warnings)
+    written = np.array([*spellings, _key(default_unit)], dtype=object)  # last: the default
+    used = written[np.where(codes < 0, len(spellings), codes)]
+    used[np.isnan(nums)] = None
+    return ParsedCells(si, nums, used.tolist(), errors, warnings)
 
 
 def parse_quantity(text, dimension, default_unit: str | None = None) -> float:

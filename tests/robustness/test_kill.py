@@ -57,7 +57,8 @@ def reference_run(db: Path, data: Path) -> tuple[dict, int]:
 
 
 def killed_run(db: Path, data: Path, delay: float, mark: str) -> str:
-    """Start an import, SIGKILL it ``delay`` s after the start or after ``mark``."""
+    """Start an import, SIGKILL it ``delay`` s after the start or after ``mark``; returns
+    "finished", "writing" (killed after the write transaction opened) or "killed" (before)."""
     proc = start(db, data)
     if mark != "start":
         for line in proc.stdout:
@@ -68,7 +69,9 @@ def killed_run(db: Path, data: Path, delay: float, mark: str) -> str:
     proc.wait()
     rest = proc.stdout.read()
     proc.stdout.close()
-    return "finished" if "WRITE-DONE" in rest else "killed"
+    if "WRITE-DONE" in rest:
+        return "finished"
+    return "writing" if mark != "start" or "WRITE-OPEN" in rest else "killed"
 
 
 def check_whole(db: Path, states: dict) -> str:
@@ -118,7 +121,9 @@ def test_sigkill_during_a_large_import_keeps_the_catalogue_whole(prefilled, tmp_
         end = killed_run(db, data, delay, mark)
         try:
             state = check_whole(db, states)
-            assert mark != "start" or state == "before", "killed before the write began, yet changed"
+            # a kill timed from the start may land later than planned on a busy machine: what
+            # the worker printed tells whether the write had begun
+            assert end != "killed" or state == "before", "killed before the write began, yet changed"
         except AssertionError as exc:  # say which kill broke it, to reproduce with the seed
             raise AssertionError(f"seed {SEED}: kill {delay:.3f} s after {mark} ({end}) left {db.name} "
                                  f"broken: {exc}") from None

@@ -168,3 +168,75 @@ def test_a_second_number_is_no_unit(text):
     with pytest.raises(UnitError, match="a number where a unit should start"):
         parse_quantity(text, "angular_speed" if "rpm" in text else "dimensionless")
     assert parse_quantity("12 1/min", "angular_speed") == pytest.approx(12 * RPM, rel=REL)  # scipy
+
+
+# -- a column of text split at once (pyarrow) reads as cell by cell -----------------------------
+
+def _cell_by_cell(monkeypatch):
+    """parse_cells with the pyarrow split switched off: every cell read one by one."""
+    monkeypatch.setattr(values_mod, "_split_fast", lambda texts, column=None: None)
+
+
+def _same_parse(a, b):
+    # bit for bit: -0.0 and 0.0 differ, NaN equals NaN
+    assert np.asarray(a.si, dtype=float).view(np.int64).tolist() == np.asarray(b.si, dtype=float).view(np.int64).tolist()
+    assert np.asarray(a.numbers).view(np.int64).tolist() == np.asarray(b.numbers).view(np.int64).tolist()
+    assert (a.units, a.errors, a.warnings) == (b.units, b.errors, b.warnings)
+
+
+_WS_CHARS = "\t\n\x0b\x0c\r\x1c\x1f \x85\xa0\u1680\u2000\u2009\u200a\u2028\u2029\u202f\u205f\u3000"
+_CELL_ALPHABET = "0123456789+-.,eE'’−" + _WS_CHARS + "mNkgozinAVWKrpsΩµ°·²/()%^*x\u200b\u180eé"
+_CELLS = ["12.5 oz-in", " 12.5 oz-in ", "12.5oz-in", "1e3 mNm", "1.e3 mNm", ".5 N·m", "5. N·m", "+5 V",
+          "-0 V", "1e999 mNm", "1e-400 mNm", "1e5.3 V", "12e mNm", "1e+ V", "3 12", "1,5 mNm", "1,500 mNm",
+          "1 500 V", "1'200 V", "nan mNm", "inf", "12 V,", "12 mN m", "12\u00a0V", "12\u2009V", "\u3000 12 V",
+          "12 V\u2028", "12\nV", "12 furlongs", "2 kg/cm", "12", "", "  ", None, "ten mNm", "−5 V", "0x10 V",
+          "1_000 V", "١٢ V", "12 \u200bV", "12 V\u180e", "3 °C", "311 °F", "85 %", "85%", "0.5"]
+
+
+@pytest.mark.parametrize("dimension, default", [("torque", None), ("voltage", "V"), ("temperature", "°C"),
+                                                ("dimensionless", None), ("count", None), ("torque", "bogus")])
+def test_parse_cells_at_once_as_cell_by_cell_known_cells(monkeypatch, dimension, default):
+    at_once = parse_cells(_CELLS, dimension, default_unit=default)
+    _cell_by_cell(monkeypatch)
+    _same_parse(at_once, parse_cells(_CELLS, dimension, default_unit=default))
+
+
+@settings(max_examples=150, deadline=None)
+@given(st.lists(st.one_of(st.none(), st.text(alphabet=_CELL_ALPHABET, max_size=12),
+                          st.builds(lambda x, sp, u: f"{x!r}{sp}{u}",
+                                    st.floats(allow_nan=False, allow_infinity=False),
+                                    st.sampled_from(["", " ", "  ", "\t", "\u00a0"]),
+                                    st.sampled_from(["", "mNm", "oz-in", "N·m", "mN m", "kg/cm", "V", "%",
+                                                     "°C", "furlong", "e5", "E+2 V"]))), max_size=40),
+       st.sampled_from([("torque", None), ("voltage", "V"), ("temperature", "degC"), ("dimensionless", None)]))
+def test_parse_cells_at_once_as_cell_by_cell(cells, dim_default):
+    dimension, default = dim_default
+    at_once = parse_cells(cells, dimension, default_unit=default)
+    real = values_mod._split_fast
+    values_mod._split_fast = lambda texts, column=None: None
+    try:
+        one_by_one = parse_cells(cells, dimension, default_unit=default)
+    finally:
+        values_mod._split_fast = real
+    _same_parse(at_once, one_by_one)
+
+
+def test_parse_cells_takes_a_pyarrow_column():
+    import pyarrow as pa
+
+    cells = ["1 mNm", None, "2 oz-in", "x"]
+    _same_parse(parse_cells(cells, "torque", column=pa.array(cells, type=pa.string())),
+                parse_cells(cells, "torque"))
+
+
+def test_whitespace_is_python_whitespace():
+    import sys
+
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    python = {chr(c) for c in range(sys.maxunicode + 1) if chr(c).isspace()}
+    assert set(values_mod.WHITESPACE) == python and len(values_mod.WHITESPACE) == len(python)
+    every = pa.array([chr(c) for c in range(sys.maxunicode + 1) if not 0xD800 <= c < 0xE000])
+    hits = pc.match_substring_regex(every, f"^[{values_mod.WHITESPACE_RE2}]$").to_pylist()
+    assert {c for c, hit in zip(every.to_pylist(), hits) if hit} == python
