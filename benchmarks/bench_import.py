@@ -3,20 +3,26 @@ against the naive path (one pint Quantity per value, one jsonschema validation p
 record) measured on 2k rows and scaled to 100k."""
 from __future__ import annotations
 
+import subprocess
 import sys
 import tempfile
 import time
 from pathlib import Path
 
-from benchmarks.common import report
+from benchmarks.common import median_time, report
 from benchmarks.data import SPELLINGS, write_motor_csv
 
 N = 100_000
 N_NAIVE = 2_000
+RUNS = 3
 
 
 def naive(path: Path) -> float:
-    """Parse each cell with pint and validate each record with jsonschema; seconds."""
+    """Parse each cell with pint and validate each record with jsonschema; seconds.
+
+    Each cell goes to pint as text (``Quantity("12.5 ozf*in")``), only its spelling mapped
+    to one pint reads: the per-value path of the baseline figure (about 290 µs a value).
+    """
     import csv
 
     import jsonschema
@@ -45,27 +51,36 @@ def naive(path: Path) -> float:
             rec = {"manufacturer": row["manufacturer"], "part_number": row["part_number"]}
             for f in SPELLINGS:
                 value, unit = row[f].split(" ", 1)
-                q = ureg.Quantity(float(value), to_pint.get(unit, unit))
+                unit = to_pint.get(unit, unit)
+                if unit == "degC":  # pint refuses to parse an offset unit times a number from text
+                    q = ureg.Quantity(float(value), unit)
+                else:                # the cell as text, as a naive importer hands it to pint
+                    q = ureg.Quantity(f"{value} {unit}")
                 rec[f] = q.to(si_units[f]).magnitude
             validator.validate(rec)
     return time.perf_counter() - t
 
 
 def main() -> int:
-    import catalog
+    from benchmarks.bench_startup import ENV, EXE
 
     with tempfile.TemporaryDirectory() as d:
         d = Path(d)
         big = write_motor_csv(d / "big.csv", N)
         small = write_motor_csv(d / "small.csv", N_NAIVE, seed=7)
-        t = time.perf_counter()
-        catalog.open(d / "c.duckdb").import_files([big])
-        ours = time.perf_counter() - t
+        dbs = iter(range(RUNS))
+
+        def ours_once():  # as a user runs it: a fresh process, into a new catalogue
+            subprocess.run([EXE, "--db", str(d / f"c{next(dbs)}.duckdb"), "import", str(big)],
+                           check=True, capture_output=True, env=ENV)
+
+        ours = median_time(ours_once, runs=RUNS)
         naive_small = naive(small)
         baseline = naive_small * N / N_NAIVE
         report("import_100k_rows", ours, "s", baseline, "<= 10 s and >= 40x",
                ours <= 10 and baseline / ours >= 40,
-               f"naive path measured on {N_NAIVE} rows and scaled x{N // N_NAIVE}")
+               f"`motorshelf import` as a fresh process, median of {RUNS}; naive path measured on "
+               f"{N_NAIVE} rows and scaled x{N // N_NAIVE}")
     return 0
 
 

@@ -424,6 +424,9 @@ def derive_rows(ids, columns: dict, text_columns: dict | None = None,
         idx = np.flatnonzero(codes >= 0)
         if len(idx) == 0:
             continue
+        if name in columns and not np.isnan(columns[name][idx]).all():
+            # the store holds one value per record and field (no key index checks it there)
+            raise AssertionError(f"derived {name} over a given value")
         solver = codes[idx]
         tables.append(pa.table({
             "record_id": pa.DictionaryArray.from_arrays(pa.array(idx.astype(np.int32)), id_array),

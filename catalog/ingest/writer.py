@@ -23,10 +23,12 @@ from __future__ import annotations
 __all__ = ["CHUNK_ROWS", "unique_id", "write_tables"]
 
 import hashlib
+from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
 from ..fields import fields_for
+from ..store import check_unique_values
 from .normalise import NormalTable, slug
 
 #: Records per chunk of values written and derived inside the one transaction.
@@ -201,10 +203,7 @@ def _no_derived():
 
 def _insert_new(con, given: list, derived, batch: int) -> None:
     """Insert the given values (tables of :meth:`_Incoming.given_values`) and the derived ones
-    (:class:`~catalog.derive.DerivedRows`) of records new to the catalogue, in one statement.
-
-    The rows go in in the order of the primary key, which DuckDB indexes fastest.
-    """
+    (:class:`~catalog.derive.DerivedRows`) of records new to the catalogue, in one statement."""
     import pyarrow as pa
 
     if given or derived.values is not None:
@@ -215,7 +214,7 @@ def _insert_new(con, given: list, derived, batch: int) -> None:
             "SELECT record_id, field, value_num, value_text, raw_text, raw_unit, 'given', CAST(NULL AS VARCHAR), "
             "CAST(NULL AS VARCHAR), source_file, source_row, ? FROM new_given UNION ALL "
             "SELECT record_id, field, value_num, NULL, NULL, NULL, 'derived', relation, inputs, NULL, NULL, ? "
-            "FROM new_derived) ORDER BY record_id, field", [batch, batch])
+            "FROM new_derived)", [batch, batch])
         con.unregister("new_given")
         con.unregister("new_derived")
     if derived.flags is not None:
@@ -293,52 +292,75 @@ def write_tables(store, report, kept, files: str, derive: bool = True) -> None:
                         _replace_given(con, values, batch)
                         report.values += values.num_rows
         _write_chunks(con, batch, report, incoming, rids, held, derive)
+        if held.any():  # where stored rows and new ones meet (new records hold one row per field by construction)
+            check_unique_values(con, [r for r, h in zip(rids, held) if h])
 
 
 def _write_chunks(con, batch: int, report, incoming: list, rids: list, held: np.ndarray, derive: bool) -> None:
     """Chunk by chunk of records: derive those held before from the store, and insert the new
     ones with the values derived from their columns in memory.  Flags are reported in the
     order the store path gives for the whole chunk: by relation, then by record id."""
-    from ..derive import EQUATIONS, DerivedRows, derive_in_store, derive_rows
+    from ..derive import EQUATIONS
 
     numeric = [f.name for f in fields_for("motor").values() if f.is_numeric]
     # where each record of the import is: its table and its row there
     where_table = np.concatenate([np.full(len(inc.rows), t) for t, inc in enumerate(incoming)])
     where_row = np.concatenate([inc.rows for inc in incoming])
     order = {eq.name: k for k, eq in enumerate(EQUATIONS)}
-    for lo in range(0, len(rids), CHUNK_ROWS):
-        hi = lo + CHUNK_ROWS
-        flags = []
-        old = [r for r, h in zip(rids[lo:hi], held[lo:hi]) if h]
-        if derive and old:
-            outcome = derive_in_store(con, batch, record_ids=old)
-            report.derived += outcome.derived
-            flags += outcome.flags
-        new = lo + np.flatnonzero(~held[lo:hi])
-        given, ids, parts, basis = [], [], {f: [] for f in numeric}, []
-        for t, inc in enumerate(incoming):
-            rows = where_row[new[where_table[new] == t]]
-            if len(rows) == 0:
-                continue
-            values = inc.given_values(rows)
-            if values is not None:
-                given.append(values)
-                report.values += values.num_rows
-            if not (derive and inc.table.record_type == "motor"):
-                continue
-            ids.append(np.asarray(inc.ids.take(rows).to_pylist(), dtype=object))
-            for f in numeric:
-                col = inc.table.columns.get(f)
-                parts[f].append(np.full(len(rows), np.nan) if col is None
-                                else np.asarray(col.values, dtype=float)[rows])
-            col = inc.table.columns.get("constant_basis")
-            basis.append(np.full(len(rows), None, dtype=object) if col is None
-                         else np.asarray(col.values, dtype=object)[rows])
-        derived = DerivedRows()
-        if ids:
-            derived = derive_rows(np.concatenate(ids), {f: np.concatenate(p) for f, p in parts.items()},
-                                  {"constant_basis": np.concatenate(basis)})
-            report.derived += derived.derived
-            flags += derived.flagged
-        _insert_new(con, given, derived, batch)
-        report.flags.extend(sorted(flags, key=lambda f: (order[f.relation], f.record_id)))
+    # DuckDB inserts a chunk (without the GIL) while the next one is made ready; ``con`` is
+    # used by one thread at a time: every use below waits for the insert in flight
+    with ThreadPoolExecutor(max_workers=1) as inserter:
+        pending = None
+        for lo in range(0, len(rids), CHUNK_ROWS):
+            pending = _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_table, where_row,
+                                  numeric, order, inserter, pending)
+        if pending is not None:
+            pending.result()
+
+
+def _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_table, where_row, numeric, order,
+                inserter, pending):
+    """Make the records ``lo:lo + CHUNK_ROWS`` ready and hand their insert to ``inserter``
+    once the insert ``pending`` (a future, or None) is done; returns the new insert's future."""
+    from ..derive import DerivedRows, derive_in_store, derive_rows
+
+    hi = lo + CHUNK_ROWS
+    flags = []
+    old = [r for r, h in zip(rids[lo:hi], held[lo:hi]) if h]
+    if derive and old:
+        if pending is not None:
+            pending.result()
+            pending = None
+        outcome = derive_in_store(con, batch, record_ids=old)
+        report.derived += outcome.derived
+        flags += outcome.flags
+    new = lo + np.flatnonzero(~held[lo:hi])
+    given, ids, parts, basis = [], [], {f: [] for f in numeric}, []
+    for t, inc in enumerate(incoming):
+        rows = where_row[new[where_table[new] == t]]
+        if len(rows) == 0:
+            continue
+        values = inc.given_values(rows)
+        if values is not None:
+            given.append(values)
+            report.values += values.num_rows
+        if not (derive and inc.table.record_type == "motor"):
+            continue
+        ids.append(np.asarray(inc.ids.take(rows).to_pylist(), dtype=object))
+        for f in numeric:
+            col = inc.table.columns.get(f)
+            parts[f].append(np.full(len(rows), np.nan) if col is None
+                            else np.asarray(col.values, dtype=float)[rows])
+        col = inc.table.columns.get("constant_basis")
+        basis.append(np.full(len(rows), None, dtype=object) if col is None
+                     else np.asarray(col.values, dtype=object)[rows])
+    derived = DerivedRows()
+    if ids:
+        derived = derive_rows(np.concatenate(ids), {f: np.concatenate(p) for f, p in parts.items()},
+                              {"constant_basis": np.concatenate(basis)})
+        report.derived += derived.derived
+        flags += derived.flagged
+    if pending is not None:
+        pending.result()
+    report.flags.extend(sorted(flags, key=lambda f: (order[f.relation], f.record_id)))
+    return inserter.submit(_insert_new, con, given, derived, batch)

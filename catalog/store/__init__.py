@@ -21,7 +21,7 @@ while somebody else is changing it.
 """
 from __future__ import annotations
 
-__all__ = ["Store", "FileLock", "default_path", "one", "SCHEMA_VERSION"]
+__all__ = ["Store", "FileLock", "default_path", "one", "check_unique_values", "SCHEMA_VERSION"]
 
 import contextlib
 import os
@@ -33,6 +33,30 @@ from ..errors import StoreBusy, StoreError
 from .schema import MIGRATIONS, SCHEMA_VERSION, all_view_sql
 
 _FIELDS_KEY = "fields_signature"
+
+
+def check_unique_values(con, record_ids=None) -> None:
+    """Refuse the transaction ``con`` if a record holds two values of one field.
+
+    ``record_values`` carries no key index (see schema v3), so a writer that meets stored
+    rows checks the rule here before it commits: on the records ``record_ids`` (a list of
+    ids), or on the whole table.
+    """
+    if record_ids is None:
+        twice = con.execute("SELECT record_id, field FROM record_values GROUP BY ALL "
+                            "HAVING count(*) > 1 ORDER BY ALL LIMIT 3").fetchall()
+    else:
+        import pyarrow as pa
+
+        con.register("checked_records", pa.table({"record_id": pa.array(list(record_ids), type=pa.string())}))
+        twice = con.execute("SELECT record_id, field FROM record_values "
+                            "WHERE record_id IN (SELECT record_id FROM checked_records) "
+                            "GROUP BY ALL HAVING count(*) > 1 ORDER BY ALL LIMIT 3").fetchall()
+        con.unregister("checked_records")
+    if twice:
+        shown = ", ".join(f"{r}:{f}" for r, f in twice)
+        raise StoreError(f"internal error: a record would hold two values of one field ({shown}); "
+                         "nothing was written, please report this")
 
 
 def one(result):

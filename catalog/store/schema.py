@@ -12,7 +12,7 @@ __all__ = ["SCHEMA_VERSION", "MIGRATIONS", "view_sql", "VALUE_COLUMNS"]
 from ..fields import RECORD_TYPES, fields_for
 
 #: Version of the catalogue file layout this code writes.
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 
 VALUE_COLUMNS = (
     "record_id", "field", "value_num", "value_text", "raw_text", "raw_unit",
@@ -80,8 +80,25 @@ _V2 = [
         GROUP BY ALL""",
 ]
 
+# v3: record_values without its primary-key index.  The index cost more than half of a large
+# import (building it and writing it at commit) and seven times the table's size on disk,
+# while every writer already deletes a (record, field) before inserting it; the writers check
+# the rule themselves (catalog.store.check_unique_values) before they commit.
+_V3 = [
+    """CREATE TABLE record_values_v3 (
+        record_id VARCHAR NOT NULL, field VARCHAR NOT NULL,
+        value_num DOUBLE, value_text VARCHAR, raw_text VARCHAR, raw_unit VARCHAR,
+        origin VARCHAR NOT NULL, relation VARCHAR, inputs VARCHAR,
+        source_file VARCHAR, source_row INTEGER, batch_id INTEGER NOT NULL)""",
+    "INSERT INTO record_values_v3 SELECT * FROM record_values ORDER BY record_id, field",
+    "DROP VIEW IF EXISTS motors",
+    "DROP VIEW IF EXISTS gearheads",
+    "DROP TABLE record_values",
+    "ALTER TABLE record_values_v3 RENAME TO record_values",
+]
+
 #: version -> list of statements bringing a file from version-1 to version.
-MIGRATIONS: dict[int, list[str]] = {1: _V1, 2: _V2}
+MIGRATIONS: dict[int, list[str]] = {1: _V1, 2: _V2, 3: _V3}
 
 
 def _column_expr(field) -> str:

@@ -419,3 +419,42 @@ def test_a_lock_file_that_cannot_be_made_refuses_writes_but_not_reads(tmp_path):
             pass
     with Store(db).read() as con:
         assert con.execute("SELECT count(*) FROM batches").fetchall() == [(1,)]
+
+
+# -- one value per record and field (record_values carries no key index since layout 3) ---------
+
+def _pairs_held_twice(cat) -> int:
+    return int(cat.sql("SELECT count(*) AS n FROM (SELECT record_id, field FROM record_values "
+                       "GROUP BY ALL HAVING count(*) > 1)")["n"].item())
+
+
+def test_record_values_has_no_key_index_and_the_writers_keep_one_value_per_field(cat, write):
+    keys = cat.sql("SELECT count(*) AS n FROM duckdb_constraints() WHERE table_name = 'record_values' "
+                   "AND constraint_type IN ('PRIMARY KEY', 'UNIQUE')")
+    cat.import_files([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\nTestwerk Antriebe,M-2,12,1\n")])
+    assert int(cat.sql("SELECT count(*) AS n FROM duckdb_constraints() WHERE table_name = 'record_values' "
+                       "AND constraint_type IN ('PRIMARY KEY', 'UNIQUE')")["n"].item()) == 0, keys
+    # the same records again, one changed, with a column more: stored rows meet new ones
+    cat.import_files([write("b.csv", "manufacturer,part_number,nominal_voltage [V],terminal_resistance [Ohm],"
+                            "torque_constant [mNm/A]\nTestwerk Antriebe,M-1,24,3,20\n"
+                            "Testwerk Antriebe,M-2,12,1,10\nTestwerk Antriebe,M-3,6,1,5\n")])
+    cat.derive()
+    assert _pairs_held_twice(cat) == 0
+    assert cat.motors().set_index("id").loc["testwerk-m-1", "terminal_resistance"] == 3.0
+
+
+def test_a_write_that_would_hold_a_field_twice_is_refused_and_nothing_is_written(cat, write, db):
+    from catalog.store import check_unique_values
+
+    cat.import_files([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])
+    before = cat.sql("SELECT * FROM record_values ORDER BY ALL").astype(str).values.tolist()
+    for scope in (None, ["testwerk-m-1"]):
+        with pytest.raises(StoreError, match=r"^internal error: a record would hold two values of one "
+                                             r"field \(testwerk-m-1:nominal_voltage\); nothing was written"):
+            with Store(db).write() as con:
+                con.execute("INSERT INTO record_values (record_id, field, value_num, origin, batch_id) "
+                            "VALUES ('testwerk-m-1', 'nominal_voltage', 48.0, 'given', 9)")
+                check_unique_values(con, scope)
+        assert cat.sql("SELECT * FROM record_values ORDER BY ALL").astype(str).values.tolist() == before
+    with Store(db).write() as con:  # another record's pair is not in the scope checked
+        check_unique_values(con, ["testwerk-m-2"])
