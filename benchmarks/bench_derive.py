@@ -6,10 +6,13 @@ Figures (side by side from one run):
   row at a time, as a per-record loop would) on 1k motors and scaled to 100k;
 * ``Catalog.derive()`` on a stored 100k-motor catalogue, end to end (read the given values, derive,
   write the derived values and the consistency flags in one transaction), against the in-memory
-  closure (the part that is arithmetic).
+  closure (the part that is arithmetic): first on a catalogue of given values only (everything is
+  written), then again on the derived catalogue (nothing changed, nothing is written).
 """
 from __future__ import annotations
 
+import shutil
+import statistics
 import sys
 import tempfile
 import time
@@ -22,6 +25,7 @@ from benchmarks.data import motor_rows, write_motor_csv
 
 N = 100_000
 N_LOOP = 1_000
+RUNS = 3
 
 
 def hidden(n: int, seed: int = 3) -> dict:
@@ -51,16 +55,24 @@ def main() -> int:
            f"median of 3, columns in memory; baseline: record by record on {N_LOOP} rows, scaled")
     with tempfile.TemporaryDirectory() as d:
         d = Path(d)
-        cat = catalog.open(d / "c.duckdb")
-        cat.import_files([write_motor_csv(d / "big.csv", N)], derive=False)
-        stored = []
-        for _ in range(2):
+        catalog.open(d / "c.duckdb").import_files([write_motor_csv(d / "big.csv", N)], derive=False)
+        copies = iter(range(RUNS))
+
+        def first():  # a catalogue holding given values only: every derived value and flag is written
+            copy = d / f"copy{next(copies)}.duckdb"
+            shutil.copyfile(d / "c.duckdb", copy)
             t0 = time.perf_counter()
-            cat.derive()
-            stored.append(time.perf_counter() - t0)
-    report("derive_100k_in_store", min(stored), "s", t, "<= 2 s", min(stored) <= 2.0,
-           "Catalog.derive() on a stored 100k-motor catalogue, best of 2 (the second run rewrites nothing "
-           "that did not change); baseline: the in-memory closure of 100k rows above")
+            catalog.open(copy).derive()
+            return time.perf_counter() - t0
+
+        t_first = statistics.median(first() for _ in range(RUNS))
+        again = catalog.open(d / "copy0.duckdb")
+        t_again = median_time(again.derive, runs=RUNS)
+    report("derive_100k_in_store", t_first, "s", t, "<= 2 s", t_first <= 2.0,
+           f"Catalog.derive() on a stored 100k-motor catalogue of given values only (writes 1.4M derived "
+           f"values and 200k residuals), median of {RUNS}; baseline: the in-memory closure of 100k rows above")
+    report("derive_100k_in_store_again", t_again, "s", t, "<= 2 s", t_again <= 2.0,
+           f"the same catalogue derived again (nothing changed, nothing written), median of {RUNS}")
     return 0
 
 

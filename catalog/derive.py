@@ -15,7 +15,7 @@ changes nothing, and a given value is never replaced.
 from __future__ import annotations
 
 __all__ = ["Equation", "Solver", "EQUATIONS", "DeriveResult", "derive_columns", "residuals",
-           "derive_rows", "DerivedRows", "insert_derived", "derive_in_store", "DEFAULT_TOLERANCE",
+           "derive_rows", "DerivedRows", "derive_in_store", "DEFAULT_TOLERANCE",
            "relation_table_markdown", "Flag"]
 
 from dataclasses import dataclass, field
@@ -419,7 +419,7 @@ def derive_rows(ids, columns: dict, text_columns: dict | None = None,
     relations, relation_of = _dictionary([_SOLVER_NAMES[s] for s in _SOLVERS])
     inputs, inputs_of = _dictionary([", ".join(s.inputs) for s in _SOLVERS])
     fields = pa.array(list(result.codes), type=pa.string())
-    tables = []
+    parts = []  # per field: (record positions, field code, values, solver codes)
     for k, (name, codes) in enumerate(result.codes.items()):
         idx = np.flatnonzero(codes >= 0)
         if len(idx) == 0:
@@ -427,20 +427,25 @@ def derive_rows(ids, columns: dict, text_columns: dict | None = None,
         if name in columns and not np.isnan(columns[name][idx]).all():
             # the store holds one value per record and field (no key index checks it there)
             raise AssertionError(f"derived {name} over a given value")
-        solver = codes[idx]
-        tables.append(pa.table({
-            "record_id": pa.DictionaryArray.from_arrays(pa.array(idx.astype(np.int32)), id_array),
-            "field": pa.DictionaryArray.from_arrays(pa.array(np.full(len(idx), k, dtype=np.int32)), fields),
-            "value_num": pa.array(result.columns[name][idx], type=pa.float64()),
+        parts.append((idx, np.full(len(idx), k, dtype=np.int32), result.columns[name][idx], codes[idx]))
+    if parts:
+        # record by record (fields in their order within a record): DuckDB stores rows of one
+        # record side by side about twice as fast as rows interleaved field by field
+        record, field_code, value, solver = (np.concatenate(c) for c in zip(*parts))
+        order = np.argsort(record, kind="stable")
+        record, field_code, value, solver = record[order], field_code[order], value[order], solver[order]
+        out.values = pa.table({
+            "record_id": pa.DictionaryArray.from_arrays(pa.array(record.astype(np.int32)), id_array),
+            "field": pa.DictionaryArray.from_arrays(pa.array(field_code), fields),
+            "value_num": pa.array(value, type=pa.float64()),
             "relation": pa.DictionaryArray.from_arrays(pa.array(relation_of[solver]), relations),
             "inputs": pa.DictionaryArray.from_arrays(pa.array(inputs_of[solver]), inputs),
-        }))
-    if tables:
-        out.values = pa.concat_tables(tables)
-    tables = []
+        })
+    tables, positions = [], []
     for eq, idx, given, implied, res in residuals(columns, text_columns, n):
         primary = eq.solvers[0].output
         m = len(idx)
+        positions.append(idx)
         tables.append(pa.table({
             "record_id": id_array.take(pa.array(idx)), "relation": pa.array([eq.name] * m, type=pa.string()),
             "given": pa.array([", ".join(given)] * m, type=pa.string()),
@@ -450,47 +455,45 @@ def derive_rows(ids, columns: dict, text_columns: dict | None = None,
             text = ", ".join(f"{name}={given[name][k]:.6g}" for name in given)
             out.flagged.append(Flag(str(ids[idx[k]]), eq.name, primary, text, float(given[primary][k]),
                                     float(implied[k]), float(res[k])))
-    if tables:
-        out.flags = pa.concat_tables(tables)
+    if tables:  # record by record too
+        out.flags = pa.concat_tables(tables).take(pa.array(np.argsort(np.concatenate(positions), kind="stable")))
     return out
 
 
-def insert_derived(con, rows: DerivedRows, batch_id: int) -> None:
-    """Store the derived values and residuals of :func:`derive_rows` as of batch ``batch_id``."""
-    if rows.values is not None:
-        con.register("derived_values", rows.values)
-        con.execute("INSERT INTO record_values SELECT record_id, field, value_num, NULL, NULL, NULL, 'derived', "
-                    "relation, inputs, NULL, NULL, ? FROM derived_values", [batch_id])
-        con.unregister("derived_values")
-    if rows.flags is not None:
-        con.register("new_flags", rows.flags)
-        con.execute("INSERT INTO flags SELECT record_id, relation, given, field, given_value, implied_value, "
-                    "residual, ? FROM new_flags", [batch_id])
-        con.unregister("new_flags")
-
-
 def _load_given(con, record_ids):
-    """Given numeric and text values of motors, wide, as numpy columns."""
+    """Given numeric and text values of motors (all, or ``record_ids``), wide, as numpy columns
+    in the order of their ids.  Leaves the registered relation ``derive_ids`` (the motors)."""
+    import pyarrow as pa
+
     from .fields import fields_for
 
-    fields = fields_for("motor")
-    numeric = [f for f in fields.values() if f.is_numeric]
-    where = ""
-    if record_ids is not None:
-        con.register("derive_ids", _ids_table(record_ids))
-        where = " AND r.record_id IN (SELECT record_id FROM derive_ids)"
-    select = ", ".join(
-        f"max(v.value_num) FILTER (WHERE v.field = '{f.name}') AS {f.name}" for f in numeric)
-    select += ", max(v.value_text) FILTER (WHERE v.field = 'constant_basis') AS constant_basis"
-    sql = (f"SELECT r.record_id, {select} FROM records r LEFT JOIN record_values v "
-           f"ON v.record_id = r.record_id AND v.origin = 'given' "
-           f"WHERE r.record_type = 'motor'{where} GROUP BY r.record_id ORDER BY r.record_id")
-    table = con.sql(sql).to_arrow_table()
-    if record_ids is not None:
-        con.unregister("derive_ids")
-    ids = np.asarray(table.column("record_id").to_pylist(), dtype=object)
-    columns = {f.name: table.column(f.name).to_numpy(zero_copy_only=False).astype(float) for f in numeric}
-    texts = {"constant_basis": np.asarray(table.column("constant_basis").to_pylist(), dtype=object)}
+    numeric = [f.name for f in fields_for("motor").values() if f.is_numeric]
+    if record_ids is None:
+        con.execute("CREATE OR REPLACE TEMP TABLE derive_ids AS SELECT record_id, "
+                    "CAST(row_number() OVER (ORDER BY record_id) - 1 AS INTEGER) AS ix "
+                    "FROM records WHERE record_type = 'motor'")
+    else:
+        con.register("asked_ids", _ids_table(record_ids))
+        con.execute("CREATE OR REPLACE TEMP TABLE derive_ids AS SELECT record_id, "
+                    "CAST(row_number() OVER (ORDER BY record_id) - 1 AS INTEGER) AS ix "
+                    "FROM records WHERE record_type = 'motor' AND record_id IN (SELECT record_id FROM asked_ids)")
+        con.unregister("asked_ids")
+    ids = np.asarray(con.sql("SELECT record_id FROM derive_ids ORDER BY ix").to_arrow_table()
+                     .column("record_id").to_pylist(), dtype=object)
+    # long rows to a wide array by position: field k, motor ix (one given value per field)
+    con.register("derive_fields", pa.table({"field": pa.array(numeric, type=pa.string()),
+                                            "k": pa.array(np.arange(len(numeric), dtype=np.int32))}))
+    long = con.sql("SELECT m.ix, f.k, v.value_num FROM record_values v JOIN derive_ids m USING (record_id) "
+                   "JOIN derive_fields f USING (field) WHERE v.origin = 'given' AND v.value_num IS NOT NULL"
+                   ).to_arrow_table()
+    con.unregister("derive_fields")
+    wide = np.full((len(numeric), len(ids)), np.nan)
+    wide[long.column("k").to_numpy(), long.column("ix").to_numpy()] = long.column("value_num").to_numpy()
+    columns = dict(zip(numeric, wide))
+    basis = con.sql("SELECT m.ix, v.value_text FROM record_values v JOIN derive_ids m USING (record_id) "
+                    "WHERE v.origin = 'given' AND v.field = 'constant_basis'").to_arrow_table()
+    texts = {"constant_basis": np.full(len(ids), None, dtype=object)}
+    texts["constant_basis"][basis.column("ix").to_numpy()] = basis.column("value_text").to_pylist()
     return ids, columns, texts
 
 
@@ -500,53 +503,92 @@ def _ids_table(record_ids):
     return pa.table({"record_id": pa.array(list(record_ids), type=pa.string())})
 
 
-def _keep_replaced_derived(con, batch_id: int) -> None:
-    """Move previous derived values that changed or vanished to ``value_history``; drop the copy."""
-    con.execute(
-        "INSERT INTO value_history SELECT p.*, ?, now() FROM previous_derived p WHERE NOT EXISTS ("
-        "SELECT 1 FROM record_values v WHERE v.origin = 'derived' AND v.record_id = p.record_id "
-        "AND v.field = p.field AND v.value_num IS NOT DISTINCT FROM p.value_num "
-        "AND v.relation IS NOT DISTINCT FROM p.relation AND v.inputs IS NOT DISTINCT FROM p.inputs)", [batch_id])
-    con.execute("DROP TABLE previous_derived")
-
-
 def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFAULT_TOLERANCE) -> StoreOutcome:
     """Recompute the derived values and residuals of motors (all, or ``record_ids``).
 
-    Runs inside the caller's transaction ``con``.  Previous derived values of those
-    records are replaced; one that changes or disappears is kept in ``value_history``
-    (replaced by ``batch_id``), so ``motorshelf history`` shows it.  Given values are
+    Runs inside the caller's transaction ``con``.  Only what changed is written: a
+    derived value derived again identically keeps the batch that computed it (so
+    deriving twice changes nothing); one that changes or disappears is kept in
+    ``value_history`` (replaced by ``batch_id``), so ``motorshelf history`` shows it;
+    a new one is stored as of ``batch_id``.  Residuals likewise.  Given values are
     never touched.
     """
     ids, columns, texts = _load_given(con, record_ids)
     outcome = StoreOutcome()
-    n = len(ids)
-    # an unchanged derived value keeps the batch that computed it, so deriving twice changes nothing
-    keep = "CREATE OR REPLACE TEMP TABLE previous_derived AS SELECT * FROM record_values WHERE origin = 'derived'"
-    if record_ids is None:
-        con.execute(keep)
-        con.execute("DELETE FROM record_values WHERE origin = 'derived'")
-        con.execute("DELETE FROM flags")
-    elif n:
-        con.register("derive_ids", _ids_table(ids))
-        con.execute(keep + " AND record_id IN (SELECT record_id FROM derive_ids)")
-        con.execute("DELETE FROM record_values WHERE origin = 'derived' AND record_id IN (SELECT record_id FROM derive_ids)")
-        con.execute("DELETE FROM flags WHERE record_id IN (SELECT record_id FROM derive_ids)")
-        con.unregister("derive_ids")
-    if n == 0:
-        if record_ids is None:
-            _keep_replaced_derived(con, batch_id)
-        return outcome
     rows = derive_rows(ids, columns, texts, tolerance)
-    insert_derived(con, DerivedRows(values=rows.values), batch_id)
-    if rows.values is not None:
-        con.execute("UPDATE record_values SET batch_id = p.batch_id FROM previous_derived p "
-                    "WHERE record_values.origin = 'derived' AND record_values.record_id = p.record_id "
-                    "AND record_values.field = p.field AND record_values.value_num IS NOT DISTINCT FROM p.value_num "
-                    "AND record_values.relation IS NOT DISTINCT FROM p.relation "
-                    "AND record_values.inputs IS NOT DISTINCT FROM p.inputs")
-        outcome.derived = rows.derived
-    _keep_replaced_derived(con, batch_id)
-    insert_derived(con, DerivedRows(flags=rows.flags), batch_id)
+    con.register("new_derived", rows.values if rows.values is not None else _no_derived())
+    con.register("new_flags", rows.flags if rows.flags is not None else _no_flags())
+    # the records whose derived rows are replaced (a constant condition, never text from a file)
+    scope = "true" if record_ids is None else "record_id IN (SELECT record_id FROM derive_ids)"
+    held_values = con.execute("SELECT count(*) FROM record_values WHERE origin = 'derived' AND " + scope).fetchone()[0]
+    held_flags = con.execute("SELECT count(*) FROM flags WHERE " + scope).fetchone()[0]
+    if held_values:
+        _replace_derived(con, batch_id, scope)
+    else:  # nothing held: no comparison to make
+        con.execute("INSERT INTO record_values SELECT record_id, field, value_num, NULL, NULL, NULL, 'derived', "
+                    "relation, inputs, NULL, NULL, ? FROM new_derived", [batch_id])
+    if held_flags:
+        _replace_flags(con, batch_id, scope)
+    else:
+        con.execute("INSERT INTO flags SELECT record_id, relation, given, field, given_value, implied_value, "
+                    "residual, ? FROM new_flags", [batch_id])
+    con.unregister("new_derived")
+    con.unregister("new_flags")
+    con.execute("DROP TABLE derive_ids")
+    outcome.derived = rows.derived
     outcome.flags.extend(rows.flagged)
     return outcome
+
+
+def _replace_derived(con, batch_id: int, scope: str) -> None:
+    """Store ``new_derived`` over the derived values of the records in ``scope``, writing only
+    what changed."""
+    # of the derived values held by the motors in scope, those not derived again identically
+    con.execute(
+        "CREATE OR REPLACE TEMP TABLE replaced_derived AS SELECT v.* FROM record_values v "
+        "WHERE v.origin = 'derived' AND " + scope + " AND NOT EXISTS (SELECT 1 FROM new_derived n "
+        "WHERE n.record_id = v.record_id AND n.field = v.field "
+        "AND n.value_num IS NOT DISTINCT FROM v.value_num AND n.relation IS NOT DISTINCT FROM v.relation "
+        "AND n.inputs IS NOT DISTINCT FROM v.inputs)")
+    if con.execute("SELECT count(*) FROM replaced_derived").fetchone()[0]:
+        con.execute("INSERT INTO value_history SELECT *, ?, now() FROM replaced_derived", [batch_id])
+        con.execute("DELETE FROM record_values WHERE origin = 'derived' "
+                    "AND (record_id, field) IN (SELECT record_id, field FROM replaced_derived)")
+    con.execute("DROP TABLE replaced_derived")
+    # what remains in scope is identical to what was derived now: insert the rest
+    con.execute("INSERT INTO record_values SELECT n.record_id, n.field, n.value_num, NULL, NULL, NULL, 'derived', "
+                "n.relation, n.inputs, NULL, NULL, ? FROM new_derived n WHERE NOT EXISTS (SELECT 1 FROM "
+                "record_values v WHERE v.origin = 'derived' AND v.record_id = n.record_id AND v.field = n.field)",
+                [batch_id])
+
+
+def _replace_flags(con, batch_id: int, scope: str) -> None:
+    """Store ``new_flags`` over the residuals of the records in ``scope``, writing only what changed."""
+    con.execute(
+        "DELETE FROM flags WHERE " + scope + " AND NOT EXISTS (SELECT 1 FROM new_flags n "
+        "WHERE n.record_id = flags.record_id "
+        "AND n.relation = flags.relation AND n.given IS NOT DISTINCT FROM flags.given "
+        "AND n.field IS NOT DISTINCT FROM flags.field AND n.given_value IS NOT DISTINCT FROM flags.given_value "
+        "AND n.implied_value IS NOT DISTINCT FROM flags.implied_value "
+        "AND n.residual IS NOT DISTINCT FROM flags.residual)")
+    con.execute("INSERT INTO flags SELECT n.record_id, n.relation, n.given, n.field, n.given_value, n.implied_value, "
+                "n.residual, ? FROM new_flags n WHERE NOT EXISTS (SELECT 1 FROM flags f "
+                "WHERE f.record_id = n.record_id AND f.relation = n.relation)", [batch_id])
+
+
+def _no_derived():
+    """An empty table shaped as :attr:`DerivedRows.values`."""
+    import pyarrow as pa
+
+    return pa.table({name: pa.array([], type=kind) for name, kind in (
+        ("record_id", pa.string()), ("field", pa.string()), ("value_num", pa.float64()),
+        ("relation", pa.string()), ("inputs", pa.string()))})
+
+
+def _no_flags():
+    """An empty table shaped as :attr:`DerivedRows.flags`."""
+    import pyarrow as pa
+
+    return pa.table({name: pa.array([], type=kind) for name, kind in (
+        ("record_id", pa.string()), ("relation", pa.string()), ("given", pa.string()), ("field", pa.string()),
+        ("given_value", pa.float64()), ("implied_value", pa.float64()), ("residual", pa.float64()))})

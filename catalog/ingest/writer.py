@@ -192,19 +192,12 @@ def _no_given():
         ("source_file", pa.string()), ("source_row", pa.int64()))})
 
 
-def _no_derived():
-    """An empty table shaped as :attr:`catalog.derive.DerivedRows.values`."""
-    import pyarrow as pa
-
-    return pa.table({name: pa.array([], type=kind) for name, kind in (
-        ("record_id", pa.string()), ("field", pa.string()), ("value_num", pa.float64()),
-        ("relation", pa.string()), ("inputs", pa.string()))})
-
-
 def _insert_new(con, given: list, derived, batch: int) -> None:
     """Insert the given values (tables of :meth:`_Incoming.given_values`) and the derived ones
     (:class:`~catalog.derive.DerivedRows`) of records new to the catalogue, in one statement."""
     import pyarrow as pa
+
+    from ..derive import _no_derived
 
     if given or derived.values is not None:
         con.register("new_given", pa.concat_tables(given) if given else _no_given())
