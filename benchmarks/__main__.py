@@ -10,11 +10,7 @@ SCRIPTS = ["bench_startup", "bench_derive", "bench_import", "bench_select"]
 def main() -> int:
     print("motorshelf benchmarks (results also in benchmarks/results/*.json)")
     for name in SCRIPTS:
-        try:
-            module = importlib.import_module(f"benchmarks.{name}")
-        except ModuleNotFoundError:
-            continue
-        module.main()
+        importlib.import_module(f"benchmarks.{name}").main()
     return 0
 
 

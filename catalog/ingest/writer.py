@@ -213,7 +213,7 @@ def _insert_new(con, given: list, derived, batch: int) -> None:
     if derived.flags is not None:
         con.register("new_flags", derived.flags)
         con.execute("INSERT INTO flags SELECT record_id, relation, given, field, given_value, implied_value, "
-                    "residual, ? FROM new_flags ORDER BY record_id, relation", [batch])
+                    "residual, ? FROM new_flags", [batch])
         con.unregister("new_flags")
 
 

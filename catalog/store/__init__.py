@@ -36,26 +36,31 @@ _FIELDS_KEY = "fields_signature"
 
 
 def check_unique_values(con, record_ids=None) -> None:
-    """Refuse the transaction ``con`` if a record holds two values of one field.
+    """Refuse the transaction ``con`` if a record holds two values of one field, or two
+    residuals of one relation.
 
-    ``record_values`` carries no key index (see schema v3), so a writer that meets stored
-    rows checks the rule here before it commits: on the records ``record_ids`` (a list of
-    ids), or on the whole table.
+    ``record_values`` and ``flags`` carry no key index (see schema v3), so a writer that
+    meets stored rows checks the rule here before it commits: on the records
+    ``record_ids`` (a list of ids), or on the whole catalogue.
     """
-    if record_ids is None:
-        twice = con.execute("SELECT record_id, field FROM record_values GROUP BY ALL "
-                            "HAVING count(*) > 1 ORDER BY ALL LIMIT 3").fetchall()
-    else:
-        import pyarrow as pa
+    import pyarrow as pa
 
+    if record_ids is None:
+        con.execute("CREATE OR REPLACE TEMP VIEW checked_records AS SELECT record_id FROM records")
+    else:
         con.register("checked_records", pa.table({"record_id": pa.array(list(record_ids), type=pa.string())}))
-        twice = con.execute("SELECT record_id, field FROM record_values "
-                            "WHERE record_id IN (SELECT record_id FROM checked_records) "
-                            "GROUP BY ALL HAVING count(*) > 1 ORDER BY ALL LIMIT 3").fetchall()
+    twice = con.execute(
+        "SELECT record_id, field FROM record_values WHERE record_id IN (SELECT record_id FROM checked_records) "
+        "GROUP BY ALL HAVING count(*) > 1 UNION ALL "
+        "SELECT record_id, relation FROM flags WHERE record_id IN (SELECT record_id FROM checked_records) "
+        "GROUP BY ALL HAVING count(*) > 1 ORDER BY ALL LIMIT 3").fetchall()
+    if record_ids is None:
+        con.execute("DROP VIEW checked_records")
+    else:
         con.unregister("checked_records")
     if twice:
         shown = ", ".join(f"{r}:{f}" for r, f in twice)
-        raise StoreError(f"internal error: a record would hold two values of one field ({shown}); "
+        raise StoreError(f"internal error: a record would hold a field or a residual twice ({shown}); "
                          "nothing was written, please report this")
 
 

@@ -80,10 +80,11 @@ _V2 = [
         GROUP BY ALL""",
 ]
 
-# v3: record_values without its primary-key index.  The index cost more than half of a large
-# import (building it and writing it at commit) and seven times the table's size on disk,
-# while every writer already deletes a (record, field) before inserting it; the writers check
-# the rule themselves (catalog.store.check_unique_values) before they commit.
+# v3: record_values and flags without their primary-key indexes.  The index of record_values
+# cost more than half of a large import (building it and writing it at commit) and seven times
+# the table's size on disk, while every writer already deletes a (record, field) before
+# inserting it; the writers check the rule themselves (catalog.store.check_unique_values)
+# before they commit.  Flags are written by derivation only, one per record and relation.
 _V3 = [
     """CREATE TABLE record_values_v3 (
         record_id VARCHAR NOT NULL, field VARCHAR NOT NULL,
@@ -95,6 +96,13 @@ _V3 = [
     "DROP VIEW IF EXISTS gearheads",
     "DROP TABLE record_values",
     "ALTER TABLE record_values_v3 RENAME TO record_values",
+    """CREATE TABLE flags_v3 (
+        record_id VARCHAR NOT NULL, relation VARCHAR NOT NULL, given VARCHAR,
+        field VARCHAR, given_value DOUBLE, implied_value DOUBLE, residual DOUBLE,
+        batch_id INTEGER NOT NULL)""",
+    "INSERT INTO flags_v3 SELECT * FROM flags ORDER BY record_id, relation",
+    "DROP TABLE flags",
+    "ALTER TABLE flags_v3 RENAME TO flags",
 ]
 
 #: version -> list of statements bringing a file from version-1 to version.
