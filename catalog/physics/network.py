@@ -42,7 +42,8 @@ import numpy as np
 
 from ._broadcast import vectorised
 
-__all__ = ["NetworkMaps", "network_segment_maps", "network_peak_rise", "hot_winding_rise"]
+__all__ = ["NetworkMaps", "network_segment_maps", "network_peak_rise", "network_response", "network_peak_rise_grid",
+           "hot_winding_rise"]
 
 _NEWTON_STEPS = 60       # enough for the linear convergence at a double root
 _NEWTON_TOLERANCE = 1e-6  # [K]
@@ -216,6 +217,77 @@ def network_peak_rise(losses, maps, segments_first=False):
         xw, nw, xh, nh = nw, xw, nh, xh
         np.maximum(peak, xw, out=peak)
     return peak
+
+
+def network_response(maps):
+    """Winding rise at the cycle start and at each segment end per watt lost in each segment.
+
+    Parameters
+    ----------
+    maps : NetworkMaps
+        From :func:`network_segment_maps`, arrays of shape batch + (S,) [K/W].
+
+    Returns
+    -------
+    ndarray
+        R of shape batch + (S + 1, S): θw at the start (row 0) and at the end of
+        segment k (row k) is Σ_j R[k, j]·P_j [K/W].
+
+    Notes
+    -----
+    Relation: the recurrence of :func:`network_peak_rise` carried on the loss
+    vector instead of the state: w_0 = q_w, h_0 = q_h; w_k = e11·w_{k−1} +
+    e12·h_{k−1} + hw_k·u_k, h_k likewise (u_k the k-th unit vector).  With one
+    R per motor, the peaks of all its gear ratios are one matrix product.
+    Validity: as :func:`network_segment_maps`.
+
+    References
+    ----------
+    Textbook chapter on heating and cooling of machines; IEC 60034-1.
+    """
+    n = maps.e11.shape[-1]
+    batch = np.broadcast_shapes(maps.e11.shape, maps.qw.shape)[:-1]
+    w = np.broadcast_to(maps.qw, batch + (n,)).astype(float)
+    h = np.broadcast_to(maps.qh, batch + (n,)).astype(float)
+    out = np.empty(batch + (n + 1, n))
+    out[..., 0, :] = w
+    for k in range(n):
+        e11, e12 = maps.e11[..., k, None], maps.e12[..., k, None]
+        e21, e22 = maps.e21[..., k, None], maps.e22[..., k, None]
+        w, h = e11 * w + e12 * h, e21 * w + e22 * h
+        w[..., k] += maps.hw[..., k]
+        h[..., k] += maps.hh[..., k]
+        out[..., k + 1, :] = w
+    return out
+
+
+def network_peak_rise_grid(losses, response):
+    """Peak winding rise of many loss profiles per network: :func:`network_peak_rise` as one
+    batched matrix product.
+
+    Parameters
+    ----------
+    losses : ndarray
+        Loss per segment, shape (S, M, R): S segments, M networks, R profiles each [W].
+    response : ndarray
+        From :func:`network_response`, shape (M, S + 1, S) [K/W].
+
+    Returns
+    -------
+    ndarray
+        Highest θw over the cycle, shape (M, R) [K].
+
+    Notes
+    -----
+    Relation: max over k of Σ_j R[k, j]·P_j (start and segment ends, as
+    :func:`network_peak_rise`).  Validity: as :func:`network_segment_maps`.
+
+    References
+    ----------
+    Textbook chapter on heating and cooling of machines; IEC 60034-1.
+    """
+    loss = np.moveaxis(np.asarray(losses, dtype=float), 0, 1)       # (M, S, R)
+    return np.matmul(response, loss).max(axis=1)
 
 
 @vectorised

@@ -46,7 +46,8 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
-from ..physics import energy_per_cycle, network_peak_rise, network_segment_maps
+from ..physics import (energy_per_cycle, network_peak_rise, network_peak_rise_grid, network_response,
+                       network_segment_maps)
 from ..physics import hot_winding_rise as _hot_winding_rise
 from ..physics import resistance_at_temperature as _resistance_at_temperature
 from ..physics import torque_constant_at_temperature as _torque_constant_at_temperature
@@ -120,7 +121,7 @@ def _motor_runs(motor_ix):
     return starts, np.diff(np.r_[starts, len(motor_ix)])
 
 
-def _cold_rise(env, c, t_sq, usable, motor_maps=None):
+def _cold_rise(env, c, t_sq, usable, motor_maps=None, motor_response=None):
     """Peak winding rise per (N·m)² of T_em², (N,), NaN where unusable: the network is linear, so the
     rise under the losses at ambient is this times R(Ta)/Kt(Ta)².  ``t_sq`` is (S, N)."""
     n = t_sq.shape[1]
@@ -149,7 +150,10 @@ def _cold_rise(env, c, t_sq, usable, motor_maps=None):
     else:
         maps = network_segment_maps(dur, c["Rth1"][first], c["Rth2"][first], c["tau_w"][first],
                                     c["tau_m"][first], periodic=bool(env.repeat))
-    if np.all(runs == runs[0]):     # a regular block (motor × ratios): the maps broadcast, no gather
+    if motor_response is not None and np.all(runs == runs[0]):   # a regular block: one matmul per motor
+        peak = network_peak_rise_grid(sub.reshape(len(dur), len(starts), int(runs[0])),
+                                      motor_response[mix[starts]]).reshape(-1)
+    elif np.all(runs == runs[0]):     # a regular block (motor × ratios): the maps broadcast, no gather
         grid = NetworkMaps(*(a[:, None] if a.ndim > 1 else a for a in maps))
         peak = network_peak_rise(sub.reshape(len(dur), len(starts), int(runs[0])), grid,
                                  segments_first=True).reshape(-1)
@@ -233,7 +237,8 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     for name in fields:
         missing |= np.isnan(c[name])
     usable = ~missing & (r_amb > 0) & (kt_amb > 0)
-    rise = _cold_rise(env, c, t_sq, usable, seg.get("motor_maps")) * (r_amb / (kt_amb * kt_amb))
+    rise = _cold_rise(env, c, t_sq, usable, seg.get("motor_maps"), seg.get("motor_response")) \
+        * (r_amb / (kt_amb * kt_amb))
     # the hot fixed point: R and Kt at the peak winding temperature
     slope_r = resistance_at_temperature(c["R"], ta + 1.0, c["Tref"]) - r_amb
     slope_k = torque_constant_at_temperature(c["Kt"], ta + 1.0, c["beta"], c["Tref"]) - kt_amb
@@ -375,6 +380,8 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
             seg["motor_maps"] = network_segment_maps(
                 env.duration, mt["thermal_resistance_winding_housing"], mt["thermal_resistance_housing_ambient"],
                 mt["thermal_time_constant_winding"], mt["thermal_time_constant_motor"], periodic=bool(env.repeat))
+            # (M, S + 1, S): the peaks of a motor's ratios are one matrix product
+            seg["motor_response"] = network_response(seg["motor_maps"])
     starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total)
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))

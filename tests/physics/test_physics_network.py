@@ -80,6 +80,30 @@ def test_a_grid_of_ratios_broadcasts_against_per_motor_maps():
     np.testing.assert_allclose(grid.reshape(-1), flat, rtol=1e-12)
 
 
+@pytest.mark.parametrize("periodic", [True, False])
+@pytest.mark.parametrize("seed", [6, 7])
+def test_the_response_matrix_gives_the_recurrence_and_the_exact_network(periodic, seed):
+    # Source: catalog/physics/transient.py (independent closed form, α = 0) as in the first test;
+    # the response matrix is the recurrence of network_peak_rise carried on the loss vector, so
+    # the two agree to rounding, start and segment-end temperatures included.
+    d, (r1, r2, tw, tm), loss = random_case(seed, n=60)
+    sub = [np.asarray(p)[::10] for p in (r1, r2, tw, tm)]    # 6 networks, 10 loss profiles each
+    grid_losses = np.moveaxis(loss.reshape(6, 10, -1), -1, 0)  # (S, M, R)
+    response = ph.network_response(ph.network_segment_maps(d, *sub, periodic=periodic))
+    assert response.shape == (6, len(d) + 1, len(d))
+    grid = ph.network_peak_rise_grid(grid_losses, response).reshape(-1)
+    flat_maps = ph.network_segment_maps(d, *(np.repeat(p, 10) for p in sub), periodic=periodic)
+    np.testing.assert_allclose(grid, ph.network_peak_rise(loss, flat_maps), rtol=1e-12, atol=1e-12)
+    exact = ph.periodic_winding_temperature if periodic else ph.transient_winding_temperature
+    ref = exact(d, np.sqrt(loss), 1.0, *(np.repeat(p, 10) for p in sub), TA, TA, temperature_coefficient=0.0) - TA
+    np.testing.assert_allclose(grid, ref, rtol=1e-9, atol=1e-9)
+    # row 0 is the start: the periodic state equals the end of the cycle, one pass starts cold
+    if periodic:
+        np.testing.assert_allclose(response[:, 0, :], response[:, -1, :], rtol=1e-9, atol=1e-15)
+    else:
+        assert not response[:, 0, :].any()
+
+
 def test_the_peak_scales_with_the_losses():
     # Source: linearity of the network ODE.
     d, (r1, r2, tw, tm), loss = random_case(5, n=50)
