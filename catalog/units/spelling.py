@@ -134,7 +134,7 @@ def _lex(t: str, dim: Dimension, original: str) -> list:
         elif c == "√":
             add("sqrt")
             i += 1
-        elif c.isdigit():
+        elif "0" <= c <= "9":  # ASCII only, as _NUM: other digits are not read as numbers
             m = _NUM.match(t, i)
             if i > 0 and _RUN.match(t[i - 1]) and prev == "atoms":
                 last = toks[-1][1][-1]

@@ -278,7 +278,12 @@ def _split_fast(texts, column=None):
     lookup = np.array([position.get(u, -1) for u in spellings] + [-1], dtype=np.intp)
     indices = pc.fill_null(units.indices, len(spellings)).to_numpy(zero_copy_only=False)
     codes = np.where(matched, lookup[indices], -1)
-    return matched, np.where(matched, numbers, np.nan), codes, list(position)
+    # only the spellings of cells read here: the others are read (and worded) cell by cell
+    used = np.unique(codes[codes >= 0])
+    remap = np.full(len(position) + 1, -1, dtype=np.intp)
+    remap[used] = np.arange(len(used))
+    names = list(position)
+    return matched, np.where(matched, numbers, np.nan), remap[codes], [names[k] for k in used]
 
 
 def parse_cells(texts: Sequence, dimension, default_unit: str | None = None, column=None) -> ParsedCells:

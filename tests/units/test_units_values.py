@@ -185,12 +185,14 @@ def _same_parse(a, b):
 
 
 _WS_CHARS = "\t\n\x0b\x0c\r\x1c\x1f \x85\xa0\u1680\u2000\u2009\u200a\u2028\u2029\u202f\u205f\u3000"
-_CELL_ALPHABET = "0123456789+-.,eE'’−" + _WS_CHARS + "mNkgozinAVWKrpsΩµ°·²/()%^*x\u200b\u180eé"
+_CELL_ALPHABET = "0123456789+-.,eE'’−" + _WS_CHARS + "mNkgozinAVWKrpsΩµ°·²/()%^*x\u200b\u180eé٣２"
 _CELLS = ["12.5 oz-in", " 12.5 oz-in ", "12.5oz-in", "1e3 mNm", "1.e3 mNm", ".5 N·m", "5. N·m", "+5 V",
           "-0 V", "1e999 mNm", "1e-400 mNm", "1e5.3 V", "12e mNm", "1e+ V", "3 12", "1,5 mNm", "1,500 mNm",
           "1 500 V", "1'200 V", "nan mNm", "inf", "12 V,", "12 mN m", "12\u00a0V", "12\u2009V", "\u3000 12 V",
           "12 V\u2028", "12\nV", "12 furlongs", "2 kg/cm", "12", "", "  ", None, "ten mNm", "−5 V", "0x10 V",
-          "1_000 V", "١٢ V", "12 \u200bV", "12 V\u180e", "3 °C", "311 °F", "85 %", "85%", "0.5"]
+          "1_000 V", "١٢ V", "12 \u200bV", "12 V\u180e", "3 °C", "311 °F", "85 %", "85%", "0.5",
+          # a unit with a non-ASCII digit, once behind a number too large (read cell by cell) and once not
+          "5e999 mNm٣", "1 mNm٣", "2 ２mNm"]
 
 
 @pytest.mark.parametrize("dimension, default", [("torque", None), ("voltage", "V"), ("temperature", "°C"),
