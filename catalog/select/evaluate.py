@@ -121,7 +121,7 @@ def _motor_runs(motor_ix):
     return starts, np.diff(np.r_[starts, len(motor_ix)])
 
 
-def _cold_rise(env, c, t_sq, usable, motor_maps=None, motor_response=None):
+def _cold_rise(env, c, t_sq, usable, motor_maps=None):
     """Peak winding rise per (N·m)² of T_em², (N,), NaN where unusable: the network is linear, so the
     rise under the losses at ambient is this times R(Ta)/Kt(Ta)².  ``t_sq`` is (S, N)."""
     n = t_sq.shape[1]
@@ -150,9 +150,10 @@ def _cold_rise(env, c, t_sq, usable, motor_maps=None, motor_response=None):
     else:
         maps = network_segment_maps(dur, c["Rth1"][first], c["Rth2"][first], c["tau_w"][first],
                                     c["tau_m"][first], periodic=bool(env.repeat))
-    if motor_response is not None and np.all(runs == runs[0]):   # a regular block: one matmul per motor
+    if motor_maps is not None and np.all(runs == runs[0]):   # a regular block: one matmul per motor
+        # (built here for the chunk's few motors: small arrays, reused memory)
         peak = network_peak_rise_grid(sub.reshape(len(dur), len(starts), int(runs[0])),
-                                      motor_response[mix[starts]]).reshape(-1)
+                                      network_response(maps)).reshape(-1)
     elif np.all(runs == runs[0]):     # a regular block (motor × ratios): the maps broadcast, no gather
         grid = NetworkMaps(*(a[:, None] if a.ndim > 1 else a for a in maps))
         peak = network_peak_rise(sub.reshape(len(dur), len(starts), int(runs[0])), grid,
@@ -237,8 +238,7 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     for name in fields:
         missing |= np.isnan(c[name])
     usable = ~missing & (r_amb > 0) & (kt_amb > 0)
-    rise = _cold_rise(env, c, t_sq, usable, seg.get("motor_maps"), seg.get("motor_response")) \
-        * (r_amb / (kt_amb * kt_amb))
+    rise = _cold_rise(env, c, t_sq, usable, seg.get("motor_maps")) * (r_amb / (kt_amb * kt_amb))
     # the hot fixed point: R and Kt at the peak winding temperature
     slope_r = resistance_at_temperature(c["R"], ta + 1.0, c["Tref"]) - r_amb
     slope_k = torque_constant_at_temperature(c["Kt"], ta + 1.0, c["beta"], c["Tref"]) - kt_amb
@@ -380,8 +380,6 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
             seg["motor_maps"] = network_segment_maps(
                 env.duration, mt["thermal_resistance_winding_housing"], mt["thermal_resistance_housing_ambient"],
                 mt["thermal_time_constant_winding"], mt["thermal_time_constant_motor"], periodic=bool(env.repeat))
-            # (M, S + 1, S): the peaks of a motor's ratios are one matrix product
-            seg["motor_response"] = network_response(seg["motor_maps"])
     starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total)
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
