@@ -267,15 +267,18 @@ def write_tables(store, report, kept, files: str, derive: bool = True) -> None:
             inc.set_ids(rids[at:at + len(inc.rows)], held[at:at + len(inc.rows)])
             at += len(inc.rows)
         if held.any():
-            # every derived value of a touched record goes to history: it is derived again below
-            con.register("touched_records", pa.table({"record_id": pa.array(
-                [r for r, h in zip(rids, held) if h], type=pa.string())}))
-            con.execute(
-                "INSERT INTO value_history SELECT v.*, ?, now() FROM record_values v "
-                "WHERE v.origin = 'derived' AND v.record_id IN (SELECT record_id FROM touched_records)", [batch])
-            con.execute("DELETE FROM record_values WHERE origin = 'derived' "
-                        "AND record_id IN (SELECT record_id FROM touched_records)")
-            con.unregister("touched_records")
+            if not derive:
+                # derived values of a touched record would no longer follow from its given ones
+                con.register("touched_records", pa.table({"record_id": pa.array(
+                    [r for r, h in zip(rids, held) if h], type=pa.string())}))
+                con.execute(
+                    "INSERT INTO value_history SELECT v.*, ?, now() FROM record_values v "
+                    "WHERE v.origin = 'derived' AND v.record_id IN (SELECT record_id FROM touched_records)",
+                    [batch])
+                con.execute("DELETE FROM record_values WHERE origin = 'derived' "
+                            "AND record_id IN (SELECT record_id FROM touched_records)")
+                con.unregister("touched_records")
+            # else derive_in_store (below) replaces what changed and keeps the old values in history;
             # their given values replace the stored ones before anything is derived from the store
             for inc in incoming:
                 for lo in range(0, inc.table.n, CHUNK_ROWS):

@@ -338,6 +338,21 @@ def test_reimport_keeps_the_id_and_moves_old_values_to_history(cat, write):
     assert cat.motors().set_index("id").loc["testwerk-m-1", "stall_current"] == 8.0
 
 
+def test_reimport_keeps_unchanged_derived_values_out_of_history(cat, write):
+    first = cat.import_files([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])
+    cat.import_files([write("b.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])   # the same values again
+    assert cat.sql("SELECT count(*) AS n FROM value_history WHERE origin = 'derived'")["n"].item() == 0
+    third = cat.import_files([write("c.csv", HEAD + "Testwerk Antriebe,M-1,24,4\n")])
+    moved = cat.sql("SELECT field, value_num, batch_id, replaced_by_batch FROM value_history "
+                    "WHERE origin = 'derived' ORDER BY field").values.tolist()
+    assert ["stall_current", 12.0, first.batch_id, third.batch_id] in moved
+    # the assumed reference temperature does not depend on R: derived once, kept with its batch
+    assert "resistance_reference_temperature" not in [m[0] for m in moved]
+    kept = cat.sql("SELECT batch_id FROM record_values WHERE field = 'resistance_reference_temperature'")
+    assert kept["batch_id"].tolist() == [first.batch_id]
+    assert cat.motors().set_index("id").loc["testwerk-m-1", "stall_current"] == 6.0
+
+
 # -- the lock file beside the catalogue (catalog/store: FileLock) ------------------------------
 def _other_opening_can_lock(db, exclusive=True) -> bool:
     """True if a second opening of the lock file gets the lock at once (flock: per opening)."""
