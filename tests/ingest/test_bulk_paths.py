@@ -176,6 +176,19 @@ def _through_the_store(monkeypatch):
     monkeypatch.setattr(writer, "_held_before", everything_held)
 
 
+def _both_ways(monkeypatch, tmp_path, run) -> dict:
+    """``run(cat)`` on a new catalogue along the bulk path and along the store path:
+    {way: (what run returned, fingerprint of the catalogue)}."""
+    out = {}
+    for way in ("bulk", "store"):
+        with monkeypatch.context() as m:
+            if way == "store":
+                _through_the_store(m)
+            cat = catalog.open(tmp_path / f"{way}.duckdb")
+            out[way] = (run(cat), fingerprint(cat.path))
+    return out
+
+
 def _report(report):
     return (report.created, report.updated, report.values, report.converted, report.derived,
             [str(f) for f in report.flags], [repr(f) for f in report.flags])
@@ -189,15 +202,9 @@ def test_new_records_derive_and_store_as_through_the_store(tmp_path, monkeypatch
     # new motors with the same maker and with another, and new gearheads
     second = [_motors(tmp_path / "m2.csv", 2, 45, start=15), _motors(tmp_path / "m3.csv", 3, 9, maker="Other Co"),
               _gearheads(tmp_path / "g2.csv", 8)]
-    outcomes = {}
-    for way in ("bulk", "store"):
-        with monkeypatch.context() as m:
-            if way == "store":
-                _through_the_store(m)
-            cat = catalog.open(tmp_path / f"{way}.duckdb")
-            reports = [_report(cat.import_files(first)), _report(cat.import_files(second)),
-                       _report(cat.import_files(second[:1]))]  # and once more: nothing changes
-            outcomes[way] = (reports, fingerprint(cat.path))
+    outcomes = _both_ways(monkeypatch, tmp_path, lambda cat: [
+        _report(cat.import_files(first)), _report(cat.import_files(second)),
+        _report(cat.import_files(second[:1]))])  # and once more: nothing changes
     bulk, store = outcomes["bulk"], outcomes["store"]
     assert bulk[0] == store[0]
     assert bulk[1] == store[1]
@@ -208,13 +215,7 @@ def test_new_records_derive_and_store_as_through_the_store(tmp_path, monkeypatch
 
 def test_import_without_deriving_as_through_the_store(tmp_path, monkeypatch):
     data = [_motors(tmp_path / "m1.csv", 4, 12), _gearheads(tmp_path / "g1.csv", 3)]
-    prints = {}
-    for way in ("bulk", "store"):
-        with monkeypatch.context() as m:
-            if way == "store":
-                _through_the_store(m)
-            cat = catalog.open(tmp_path / f"{way}.duckdb")
-            report = cat.import_files(data, derive=False)
-            assert report.derived == 0 and report.created == 15
-            prints[way] = fingerprint(cat.path)
-    assert prints["bulk"] == prints["store"]
+    outcomes = _both_ways(monkeypatch, tmp_path, lambda cat: _report(cat.import_files(data, derive=False)))
+    assert outcomes["bulk"] == outcomes["store"]
+    created, derived = outcomes["bulk"][0][0], outcomes["bulk"][0][4]
+    assert derived == 0 and created == 15
