@@ -158,13 +158,11 @@ class Catalog(StockMethods):
 
         envelope = load_envelope(envelope)   # envelope mistakes first, before reading the file
         kw.setdefault("motor_notes", self._flag_notes())
+        kw["catalog"] = self  # exports read the provenance of the values used from here
         if stock_mode(envelope, stock) != "ignore":
-            sel = select_with_stock(self.motors(), self.gearheads(), envelope, self.stock_available(),
-                                    stock, **kw)
-        else:
-            sel = select(self.motors(), self.gearheads(), envelope, **kw)
-        sel.catalog = self  # exports read the provenance of the values used from here
-        return sel
+            return select_with_stock(self.motors(), self.gearheads(), envelope, self.stock_available(),
+                                     stock, **kw)
+        return select(self.motors(), self.gearheads(), envelope, **kw)
 
     def _flag_notes(self) -> dict:
         """motor id -> a warning for datasheets that contradict themselves (selection notes)."""

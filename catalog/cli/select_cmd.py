@@ -12,25 +12,33 @@ from .output import FORMAT_OPTION, print_frame, echo
 
 
 def display_shortlist(shortlist):
-    """The shortlist in display units: margins in %, temperature in °C, mass in g."""
+    """The shortlist in display units: margins in % (temperature margin in K), temperature in °C, mass in g.
+
+    The margin columns come from the check registry (:mod:`catalog.select.registry`); a margin no
+    shortlisted candidate has (NaN throughout, e.g. gearhead margins of direct drives) is left out.
+    """
+    import numpy as np
     import pandas as pd
 
-    pct = lambda col: (shortlist[col] * 100).round(1)  # noqa: E731
+    from ..select.registry import checks
+
     out = pd.DataFrame({
         "rank": shortlist["rank"].astype(int),
         "candidate": shortlist["candidate"],
         "worst segment": shortlist["worst_segment"],
-        "V %": pct("voltage_margin"),
-        "Ipk %": pct("peak_current_margin"),
-        "Irms %": pct("rms_current_margin"),
-        "ΔT K": shortlist["temperature_margin"].round(1),
-        "speed %": pct("motor_speed_margin"),
-        "gear %": pct("gear_peak_torque_margin"),
-        "Tw °C": (shortlist["winding_temperature"] - 273.15).round(1),
-        "Irms A": shortlist["rms_current"].round(3),
-        "mass g": (shortlist["mass"] * 1e3).round(0),
-        "price": shortlist["price"],
     })
+    for check in checks():
+        margin = check.margin
+        if margin is None or not np.isfinite(shortlist[margin.column].to_numpy(dtype=float)).any():
+            continue
+        values = shortlist[margin.column] * (100 if margin.is_fraction else 1)
+        out[margin.label or margin.column] = values.round(1)
+        for name in check.columns:
+            out[name] = shortlist[name].round(3)
+    out["Tw °C"] = (shortlist["winding_temperature"] - 273.15).round(1)
+    out["Irms A"] = shortlist["rms_current"].round(3)
+    out["mass g"] = (shortlist["mass"] * 1e3).round(0)
+    out["price"] = shortlist["price"]
     if "currency" in shortlist:
         currencies = sorted({c for c in shortlist["currency"] if c})
         if len(currencies) == 1:
@@ -90,7 +98,7 @@ def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
     if n_pass:
         print_frame(display_shortlist(sel.shortlist), "table",
                     title=f"best {len(sel.shortlist)} by {', '.join(env.rank_keys)}"
-                    + {"only": ", stocked parts only", "prefer": ", stocked first"}.get(getattr(sel, "stock_mode", ""), ""))
+                    + {"only": ", stocked parts only", "prefer": ", stocked first"}.get(sel.stock_mode, ""))
         for row in sel.shortlist.itertuples(index=False):
             if row.notes:
                 echo(f"  note {int(row.rank)}: {row.notes}")
@@ -100,7 +108,7 @@ def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
         echo("no candidate meets the envelope")
     counts = sel.reason_counts()
     if len(counts):
-        from ..select import CHECKS
+        from ..select.registry import CHECKS
 
         echo("rejections per check (a candidate can fail several):")
         for key, count in counts.items():

@@ -13,7 +13,7 @@ Nothing here writes a file; :mod:`catalog.export.writers` does.
 from __future__ import annotations
 
 __all__ = ["Column", "Table", "table_from_frame", "quantity_column", "text_column",
-           "SELECTION_DIMENSIONS", "unit_conversion", "UNITLESS", "PRICE_UNIT"]
+           "selection_dimensions", "unit_conversion", "UNITLESS", "PRICE_UNIT"]
 
 import math
 from dataclasses import dataclass, field
@@ -23,19 +23,11 @@ UNITLESS = "1"
 #: Label of a price column (the currency is in the record's ``currency`` column).
 PRICE_UNIT = "currency"
 
-#: Dimensions of the numeric columns of a selection's shortlist and rejected frames.
-SELECTION_DIMENSIONS = {
+#: Dimensions of the numeric columns of a selection's shortlist and rejected frames besides the check
+#: registry's margins and values (:func:`selection_dimensions` adds those).
+_SELECTION_BASE = {
     "rank": "count",
     "ratio": None,
-    "voltage_margin": "dimensionless",
-    "peak_current_margin": "dimensionless",
-    "rms_current_margin": "dimensionless",
-    "temperature_margin": "temperature_difference",
-    "motor_speed_margin": "dimensionless",
-    "gear_speed_margin": "dimensionless",
-    "gear_peak_torque_margin": "dimensionless",
-    "gear_continuous_torque_margin": "dimensionless",
-    "smallest_margin": "dimensionless",
     "winding_temperature": "temperature",
     "rms_current": "current",
     "peak_current": "current",
@@ -50,6 +42,18 @@ SELECTION_DIMENSIONS = {
     "gear_available": "count",
     "stock_tier": "count",
 }
+
+
+def selection_dimensions() -> dict:
+    """Column -> dimension of a selection's frames: the base columns and every registered check's margin
+    and values (:mod:`catalog.select.registry`), so a new check is exported with its unit."""
+    from ..select.registry import margins, value_columns
+
+    dims = dict(_SELECTION_BASE)
+    dims.update({m.column: m.dimension for m in margins()})
+    dims["smallest_margin"] = "dimensionless"
+    dims.update(value_columns())
+    return dims
 
 
 @dataclass

@@ -99,12 +99,12 @@ def candidate_detail(selection, candidate_id: str, catalog=None, motors=None, ge
     c = {k: (v[0] if hasattr(v, "__len__") and not isinstance(v, str) else v) for k, v in one.items()}
     geared = int(c["kind"]) == GEAR_CATALOGUE
     model = MotorModel(
-        label=candidate_id, terminal_resistance=float(c["R"]), torque_constant=float(c["Kt"]),
-        back_emf_constant=float(c["Ke"]), friction_torque=float(c["Tf"]), reference_temperature=float(c["Tref"]),
-        magnet_coefficient=float(c["beta"]), max_winding_temperature=float(c["Tmax"]),
-        thermal_resistance_winding_housing=float(c["Rth1"]), thermal_resistance_housing_ambient=float(c["Rth2"]),
-        max_speed=float(c["max_speed"]), ratio=float(c["ratio"]), efficiency=float(c["eta"]),
-        gear_max_speed=float(c["gear_max_speed"]) if geared else math.nan,
+        label=candidate_id, terminal_resistance=float(c["terminal_resistance"]), torque_constant=float(c["torque_constant"]),
+        back_emf_constant=float(c["back_emf_constant"]), friction_torque=float(c["friction_torque"]), reference_temperature=float(c["resistance_reference_temperature"]),
+        magnet_coefficient=float(c["magnet_coefficient"]), max_winding_temperature=float(c["max_winding_temperature"]),
+        thermal_resistance_winding_housing=float(c["thermal_resistance_winding_housing"]), thermal_resistance_housing_ambient=float(c["thermal_resistance_housing_ambient"]),
+        max_speed=float(c["max_speed"]), ratio=float(c["ratio"]), efficiency=float(c["efficiency"]),
+        gear_max_speed=float(c["gear_max_input_speed"]) if geared else math.nan,
         gear_label=str(c["gear"]))
     tw = float(d["winding_temperature"][0])
     tw_eval = tw if math.isfinite(tw) else (model.max_winding_temperature

@@ -117,7 +117,7 @@ def selection_tables(selection, preset: str = "datasheet", catalog=None) -> list
     import pandas as pd
 
     from .catalogue import provenance_table
-    from .columns import SELECTION_DIMENSIONS, Table, quantity_column, table_from_frame, text_column
+    from .columns import Table, quantity_column, selection_dimensions, table_from_frame, text_column
     from .detail import catalog_of
 
     try:
@@ -125,8 +125,9 @@ def selection_tables(selection, preset: str = "datasheet", catalog=None) -> list
     except Exception:
         cat = None
     short = selection.shortlist
-    tables = [table_from_frame(short, "shortlist", preset, dimensions=SELECTION_DIMENSIONS, freeze_columns=2)]
-    tables.append(table_from_frame(selection.rejected, "rejected", preset, dimensions=SELECTION_DIMENSIONS,
+    dims = selection_dimensions()
+    tables = [table_from_frame(short, "shortlist", preset, dimensions=dims, freeze_columns=2)]
+    tables.append(table_from_frame(selection.rejected, "rejected", preset, dimensions=dims,
                                    freeze_columns=1))
     counts = selection.reason_counts()
     from ..select import CHECKS

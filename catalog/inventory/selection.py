@@ -69,7 +69,7 @@ def stock_columns(motor, gear, gear_ids, stock):
 
 
 def select_with_stock(motors, gearheads, envelope, stock, mode: str | None = None, top: int | None = None,
-                      motor_notes: dict | None = None):
+                      motor_notes: dict | None = None, catalog=None):
     """:func:`catalog.select.select` with the shelf taken into account; returns a Selection.
 
     ``gear_available`` is -1 for candidates without a catalogue gearhead.
@@ -82,7 +82,7 @@ def select_with_stock(motors, gearheads, envelope, stock, mode: str | None = Non
     env = load_envelope(envelope)
     mode = stock_mode(env, mode)
     if mode == "ignore":
-        return select(motors, gearheads, env, top=top, motor_notes=motor_notes)
+        return select(motors, gearheads, env, top=top, motor_notes=motor_notes, catalog=catalog)
     if mode == "only":
         stocked = set(stock["record_id"])
         motors = motors[motors["id"].isin(stocked)]
@@ -99,7 +99,5 @@ def select_with_stock(motors, gearheads, envelope, stock, mode: str | None = Non
         passing = table[table["passed"]].sort_values(["stock_tier", "rank"], kind="mergesort")
         table = pd.concat([passing.assign(rank=np.arange(1, len(passing) + 1, dtype=float)),
                            table[~table["passed"]]]).reset_index(drop=True)
-    out = Selection(sel.envelope, sel._cand, table, env.top if top is None else int(top))
-    out.shortlist = out.shortlist.merge(table[["candidate", *STOCK_COLUMNS]], on="candidate", how="left")
-    out.stock_mode = mode
-    return out
+    return Selection(sel.envelope, sel.candidates, table, env.top if top is None else int(top), catalog=catalog,
+                     stock_mode=mode, extra_columns=STOCK_COLUMNS)

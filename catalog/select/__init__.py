@@ -10,13 +10,15 @@ same on a catalogue file.
 
 Modules: :mod:`.envelope` (TOML → validated SI envelope), :mod:`.candidates`
 (motor × gear table, tolerance corner), :mod:`.evaluate` (vectorised kernels,
-thermal fixed point), :mod:`.checks` (margins and reason texts),
+thermal fixed point), :mod:`.registry` (every check as one declarative entry),
+:mod:`.checks` (running the registry: margins, verdicts, reason texts),
 :mod:`.result` (ranking, Pareto front, Selection).
 """
 from __future__ import annotations
 
-__all__ = ["select", "Selection", "Envelope", "load_envelope", "CHECKS", "RANK_KEYS"]
+__all__ = ["select", "Selection", "Envelope", "load_envelope", "CHECKS", "RANK_KEYS", "Check", "Margin",
+           "register", "unregister"]
 
-from .checks import CHECKS
+from .registry import CHECKS, Check, Margin, register, unregister
 from .envelope import RANK_KEYS, Envelope, load_envelope
 from .result import Selection, select

@@ -40,21 +40,17 @@ _MOTOR = ["terminal_resistance", "torque_constant", "back_emf_constant", "fricti
 _GEAR = ["ratio", "efficiency", "inertia", "max_continuous_torque", "max_intermittent_torque",
          "max_input_speed", "mass", "length", "diameter", "price"]
 
-#: candidate key -> motor-table column (gathered by the motor row)
-_BY_MOTOR = {"R": "terminal_resistance", "Kt": "torque_constant", "Ke": "back_emf_constant",
-             "Tf": "friction_torque", "J": "rotor_inertia", "Rth1": "thermal_resistance_winding_housing",
-             "Rth2": "thermal_resistance_housing_ambient", "tau_w": "thermal_time_constant_winding",
-             "tau_m": "thermal_time_constant_motor", "Tmax": "max_winding_temperature",
-             "Tref": "resistance_reference_temperature", "beta": "beta", "max_speed": "max_speed",
-             "speed_from_no_load": "speed_from_no_load", "motor": "id", "mount": "mount",
-             "commutation": "commutation", "motor_note": "note"}
-#: candidate key -> gear-option column (gathered by the option row)
-_BY_OPTION = {"ratio": "ratio", "eta": "efficiency", "Jg": "inertia", "gear": "label", "kind": "kind",
-              "gear_cont_torque": "max_continuous_torque", "gear_peak_torque": "max_intermittent_torque",
-              "gear_max_speed": "max_input_speed"}
-#: keys computed from both tables
-_COMBINED = ("id", "mass", "length", "diameter", "price", "currency", "price_note")
-#: every per-candidate key, in a stable order
+#: candidate key -> motor-table column (gathered by the motor row); the schema's field names, except
+#: the motor's id (``motor``) and its note
+_BY_MOTOR = {**{k: k for k in _MOTOR if k not in ("no_load_speed", "mass", "length", "diameter", "price")},
+             "magnet_coefficient": "magnet_coefficient", "speed_from_no_load": "speed_from_no_load",
+             "motor": "id", "mount": "mount", "commutation": "commutation", "motor_note": "note"}
+#: candidate key -> gear-option column (gathered by the option row): ``gear_`` + the gearhead schema's name
+_BY_OPTION = {"ratio": "ratio", "efficiency": "efficiency", "gear_inertia": "inertia", "gear": "label",
+              "kind": "kind", "gear_max_continuous_torque": "max_continuous_torque",
+              "gear_max_intermittent_torque": "max_intermittent_torque",
+              "gear_max_input_speed": "max_input_speed"}
+#: every per-candidate key, in a stable order (the last ones combine both tables)
 KEYS = ("id", "motor", "gear", "kind", "motor_ix", *[k for k in _BY_MOTOR if k not in ("motor",)],
         *[k for k in _BY_OPTION if k not in ("gear", "kind")], "mass", "length", "diameter", "price",
         "currency", "price_note")
@@ -110,14 +106,15 @@ def _text(frame, name) -> np.ndarray:
 class Candidates(Mapping):
     """Every candidate of an envelope: (motor row, gear-option row) pairs over two small tables.
 
-    A mapping from the per-candidate keys (:data:`KEYS`: ``R`` [Ω], ``Kt``/``Ke``
-    [N·m/A], ``Tf`` [N·m], ``J`` [kg·m²], ``Rth1``/``Rth2`` [K/W], ``tau_w``/
-    ``tau_m`` [s], ``Tmax``/``Tref`` [K], ``beta`` [1/K], ``max_speed`` [rad/s],
-    ``ratio`` [1], ``eta`` [1], ``Jg`` [kg·m²], gear ratings, totals ``mass``
-    [kg], ``length``/``diameter`` [m], ``price``, and the texts ``id``,
-    ``motor``, ``gear``, ``currency``, ``price_note``, ``mount``,
-    ``commutation``) to arrays over all candidates, each gathered on first use
-    and kept.  ``size`` is the number of candidates.
+    A mapping from the per-candidate keys (:data:`KEYS`: the motor schema's
+    field names in SI, ``magnet_coefficient`` [1/K], ``ratio`` [1],
+    ``efficiency`` [1], the gear option's ``gear_inertia`` [kg·m²] and ratings
+    ``gear_max_continuous_torque``/``gear_max_intermittent_torque`` [N·m] and
+    ``gear_max_input_speed`` [rad/s], totals ``mass`` [kg], ``length``/
+    ``diameter`` [m], ``price``, and the texts ``id``, ``motor``, ``gear``,
+    ``currency``, ``price_note``, ``mount``, ``commutation``) to arrays over all
+    candidates, each gathered on first use and kept.  ``size`` is the number of
+    candidates.
     """
 
     def __init__(self, motor_ix, option_ix, motors: dict, options: dict):
@@ -245,7 +242,7 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
         np.isnan(mv["resistance_reference_temperature"]), DEFAULT_REFERENCE_TEMPERATURE,
         mv["resistance_reference_temperature"])
     mv["price"], mv["currency"], mv["price_note"] = _prices(m, env)
-    mv["beta"] = _magnet_coefficients(_col(m, "magnet_material", object))
+    mv["magnet_coefficient"] = _magnet_coefficients(_col(m, "magnet_material", object))
     mv["speed_from_no_load"] = np.isnan(mv["max_speed"]) & ~np.isnan(mv["no_load_speed"])
     mv["max_speed"] = np.where(mv["speed_from_no_load"], mv["no_load_speed"], mv["max_speed"])
     mv["id"] = m["id"].astype(str).to_numpy(dtype=object) if len(m) else np.zeros(0, dtype=object)

@@ -331,11 +331,6 @@ def _read_toml(path: Path, source: str) -> dict:
         raise refuse(f"not valid TOML: {message[:1].lower() + message[1:]}", line) from None
 
 
-def _stage_count(ratio: float) -> int:
-    """Stages of an assumed gear: one per factor of about 7 [-]."""
-    return max(1, math.ceil(math.log(ratio) / math.log(7.0) - 1e-9))
-
-
 def _ratio_label(ratio: float) -> float:
     return round(ratio, 2) if ratio < 10 else round(ratio, 1)
 

@@ -64,11 +64,18 @@ SHORT_PERIOD = 0.02      #: period/τ_w below which a repeated cycle is judged b
 WORKERS = max(1, min(4, os.cpu_count() or 1))  #: chunks evaluated at once (threads) [-]
 FALLBACK_TEMPERATURE = 428.15  #: winding temperature assumed where thermal data is missing [K]
 
-THERMAL_FIELDS = ("Rth1", "Rth2", "Tmax")
+THERMAL_FIELDS = ("thermal_resistance_winding_housing", "thermal_resistance_housing_ambient",
+                  "max_winding_temperature")
 #: the candidate columns :func:`evaluate` reads
-EVAL_KEYS = ("motor_ix", "R", "Kt", "Ke", "Tf", "J", "Jg", "Rth1", "Rth2", "tau_w", "tau_m", "Tmax", "Tref",
-             "beta", "ratio", "eta")
-CYCLE_THERMAL_FIELDS = ("tau_w", "tau_m")
+EVAL_KEYS = ("motor_ix", "terminal_resistance", "torque_constant", "back_emf_constant", "friction_torque",
+             "rotor_inertia", "gear_inertia", "thermal_resistance_winding_housing",
+             "thermal_resistance_housing_ambient", "thermal_time_constant_winding", "thermal_time_constant_motor",
+             "max_winding_temperature", "resistance_reference_temperature", "magnet_coefficient", "ratio",
+             "efficiency")
+CYCLE_THERMAL_FIELDS = ("thermal_time_constant_winding", "thermal_time_constant_motor")
+#: the motor fields of the two-node network, in the order of :func:`catalog.physics.network_segment_maps`
+THERMAL_NETWORK_FIELDS = ("thermal_resistance_winding_housing", "thermal_resistance_housing_ambient",
+                          "thermal_time_constant_winding", "thermal_time_constant_motor")
 
 
 def _segments(env) -> dict:
@@ -125,14 +132,14 @@ def _cold_rise(env, c, t_sq, usable, motor_maps=None):
     """Peak winding rise per (N·m)² of T_em², (N,), NaN where unusable: the network is linear, so the
     rise under the losses at ambient is this times R(Ta)/Kt(Ta)².  ``t_sq`` is (S, N)."""
     n = t_sq.shape[1]
-    rth = c["Rth1"] + c["Rth2"]
+    rth = c["thermal_resistance_winding_housing"] + c["thermal_resistance_housing_ambient"]
     out = np.full(n, np.nan)
     if env.mode == "points":
         cont = env.continuous
         worst = np.max(t_sq[cont], axis=0) if cont.any() else np.zeros(n)
         return np.where(usable, worst * rth, np.nan)
     dur = env.duration
-    mean_rule = env.repeat & (env.period < SHORT_PERIOD * c["tau_w"])
+    mean_rule = env.repeat & (env.period < SHORT_PERIOD * c["thermal_time_constant_winding"])
     if mean_rule.any():
         pick = usable & mean_rule
         out[pick] = ((dur @ t_sq) / env.period * rth)[pick]
@@ -148,8 +155,7 @@ def _cold_rise(env, c, t_sq, usable, motor_maps=None):
     if motor_maps is not None:      # built once for every motor of the catalogue
         maps = NetworkMaps(*(a[mix[starts]] if a.ndim > 1 else a for a in motor_maps))
     else:
-        maps = network_segment_maps(dur, c["Rth1"][first], c["Rth2"][first], c["tau_w"][first],
-                                    c["tau_m"][first], periodic=bool(env.repeat))
+        maps = network_segment_maps(dur, *(c[k][first] for k in THERMAL_NETWORK_FIELDS), periodic=bool(env.repeat))
     if motor_maps is not None and np.all(runs == runs[0]):   # a regular block: one matmul per motor
         # (built here for the chunk's few motors: small arrays, reused memory)
         peak = network_peak_rise_grid(sub.reshape(len(dur), len(starts), int(runs[0])),
@@ -215,24 +221,27 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     per-candidate coefficients.
     """
     seg = _segments(env) if seg is None else seg
-    n = len(c["R"])
+    n = len(c["terminal_resistance"])
+    # kernel symbols (glossary in DEVELOPERS.md): R, Kt, Ke at the reference temperature t_ref, β
+    R, Kt, Ke = c["terminal_resistance"], c["torque_constant"], c["back_emf_constant"]
+    t_ref, beta = c["resistance_reference_temperature"], c["magnet_coefficient"]
     ta = env.ambient_temperature
-    ratio, eta = c["ratio"], c["eta"]
+    ratio, eta = c["ratio"], c["efficiency"]
     back = eta if env.back_drive else 1.0 / eta
     # T_em = (J + Jg)·n·α + T_out/(n·η) (driving) or T_out·η/n (back-driven) + Tf·sign(ω): linear in 4 terms
     n_seg = len(seg["w0"])
     coef = _buffer("coef", (4, n))
-    np.multiply(c["J"] + c["Jg"], ratio, out=coef[0])
+    np.multiply(c["rotor_inertia"] + c["gear_inertia"], ratio, out=coef[0])
     np.divide(1.0, ratio * eta, out=coef[1])
     np.divide(back, ratio, out=coef[2])
-    coef[3] = c["Tf"]
+    coef[3] = c["friction_torque"]
     t_em = np.matmul(seg["basis"], coef, out=_buffer("t_em", (n_seg, n)))   # (S, N)
     t_sq = np.multiply(t_em, t_em, out=_buffer("t_sq", (n_seg, n)))
 
     # cold constants and the losses at ambient
-    r_amb = resistance_at_temperature(c["R"], ta, c["Tref"])
-    kt_amb = torque_constant_at_temperature(c["Kt"], ta, c["beta"], c["Tref"])
-    ke_amb = torque_constant_at_temperature(c["Ke"], ta, c["beta"], c["Tref"])
+    r_amb = resistance_at_temperature(R, ta, t_ref)
+    kt_amb = torque_constant_at_temperature(Kt, ta, beta, t_ref)
+    ke_amb = torque_constant_at_temperature(Ke, ta, beta, t_ref)
     fields = THERMAL_FIELDS + (CYCLE_THERMAL_FIELDS if env.mode == "cycle" else ())
     missing = np.zeros(n, bool)
     for name in fields:
@@ -240,16 +249,16 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     usable = ~missing & (r_amb > 0) & (kt_amb > 0)
     rise = _cold_rise(env, c, t_sq, usable, seg.get("motor_maps")) * (r_amb / (kt_amb * kt_amb))
     # the hot fixed point: R and Kt at the peak winding temperature
-    slope_r = resistance_at_temperature(c["R"], ta + 1.0, c["Tref"]) - r_amb
-    slope_k = torque_constant_at_temperature(c["Kt"], ta + 1.0, c["beta"], c["Tref"]) - kt_amb
+    slope_r = resistance_at_temperature(R, ta + 1.0, t_ref) - r_amb
+    slope_k = torque_constant_at_temperature(Kt, ta + 1.0, beta, t_ref) - kt_amb
     hot = hot_winding_rise(rise, slope_r / r_amb, slope_k / kt_amb)
     runaway = usable & np.isinf(hot)
-    fallback = np.where(np.isnan(c["Tmax"]), FALLBACK_TEMPERATURE, c["Tmax"])
+    fallback = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE, c["max_winding_temperature"])
     tw_eval = np.where(usable & ~runaway, ta + hot, fallback)
     reported = np.where(missing, np.nan, np.where(runaway, np.inf, ta + hot))
-    r_hot = resistance_at_temperature(c["R"], tw_eval, c["Tref"])
-    kt_hot = torque_constant_at_temperature(c["Kt"], tw_eval, c["beta"], c["Tref"])
-    ke_hot = torque_constant_at_temperature(c["Ke"], tw_eval, c["beta"], c["Tref"])
+    r_hot = resistance_at_temperature(R, tw_eval, t_ref)
+    kt_hot = torque_constant_at_temperature(Kt, tw_eval, beta, t_ref)
+    ke_hot = torque_constant_at_temperature(Ke, tw_eval, beta, t_ref)
 
     # needed voltage: |R/Kt·T_em + Ke·n·ω| at the segment ends = |… at the mid speed| + Ke·n·|Δω|/2
     need, worse = None, None
@@ -307,7 +316,7 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         "gear_out_rms": np.full(n, seg["out_rms"]), "energy_per_cycle": e, **found,
     }
     if detail:   # copies: the scratch arrays are used again by the next chunk
-        t_m = t_em - np.multiply.outer(seg["friction_sign"], c["Tf"])
+        t_m = t_em - np.multiply.outer(seg["friction_sign"], c["friction_torque"])
         out.update(seg_motor_torque=t_m.T.copy(), seg_em_torque=t_em.T.copy(), seg_current=(t_em / kt_hot).T,
                    seg_voltage=need.T.copy(), seg_speed_start=np.multiply.outer(ratio, seg["w0"]),
                    seg_speed_end=np.multiply.outer(ratio, seg["w1"]),
@@ -377,9 +386,8 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
     if is_set and env.mode == "cycle":   # the network maps of every motor, once (motor_ix indexes them)
         mt = cand.motors
         with np.errstate(all="ignore"):
-            seg["motor_maps"] = network_segment_maps(
-                env.duration, mt["thermal_resistance_winding_housing"], mt["thermal_resistance_housing_ambient"],
-                mt["thermal_time_constant_winding"], mt["thermal_time_constant_motor"], periodic=bool(env.repeat))
+            seg["motor_maps"] = network_segment_maps(env.duration, *(mt[k] for k in THERMAL_NETWORK_FIELDS),
+                                                     periodic=bool(env.repeat))
     starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total)
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))

@@ -6,7 +6,7 @@ speeds in rad/s); the CLI converts for display.
 """
 from __future__ import annotations
 
-__all__ = ["Selection", "select", "MARGIN_COLUMNS"]
+__all__ = ["Selection", "select", "shortlist_columns", "PART_COLUMNS", "METRIC_COLUMNS"]
 
 import difflib
 
@@ -15,16 +15,29 @@ import pandas as pd
 
 from ..errors import NotFound
 from .candidates import GEAR_ASSUMED, GEAR_CATALOGUE, GEAR_DIRECT, build_candidates
-from .checks import CHECKS, check_keys, reason_texts
+from .checks import check_keys, reason_texts
+from .registry import CHECKS, checks, margin_columns, value_columns
 from .envelope import load_envelope
 from .evaluate import EVAL_KEYS, checked, evaluate, evaluate_all
 
 #: Who makes the parts and their part numbers (to order them); gear columns empty without a catalogue gearhead.
 PART_COLUMNS = ["manufacturer", "part_number", "gear_manufacturer", "gear_part_number"]
-#: Margin columns of the shortlist (fractions; temperature_margin in K).
-MARGIN_COLUMNS = ["voltage_margin", "peak_current_margin", "rms_current_margin", "temperature_margin",
-                  "motor_speed_margin", "gear_speed_margin", "gear_peak_torque_margin",
-                  "gear_continuous_torque_margin", "smallest_margin"]
+#: What the evaluation says of every candidate besides its margins (SI).
+METRIC_COLUMNS = ["winding_temperature", "rms_current", "peak_current", "energy_per_cycle"]
+#: Totals of motor and gear option (SI) and the price's currency.
+TOTAL_COLUMNS = ["mass", "price", "currency", "length", "diameter"]
+
+
+def shortlist_columns() -> list:
+    """The shortlist's columns, the margins and check values generated from the check registry."""
+    return ["rank", "candidate", "motor", "gear", *PART_COLUMNS, "ratio", "worst_segment", *margin_columns(),
+            *value_columns(), *METRIC_COLUMNS, "mass", "price", "currency", "pareto", "notes"]
+
+
+def table_columns() -> list:
+    """Every column of a selection's table (the shortlist's, sizes, verdict and texts)."""
+    out = shortlist_columns() + ["length", "diameter", "failed", "reasons"]
+    return list(dict.fromkeys(out))
 _RPM = 30.0 / np.pi
 _GEAR_KIND = {GEAR_DIRECT: "direct", GEAR_CATALOGUE: "catalogue", GEAR_ASSUMED: "assumed"}
 
@@ -48,6 +61,12 @@ class Selection:
     ----------
     envelope : Envelope
         The validated envelope (SI).
+    candidates : Candidates
+        Every candidate (motor and gear option) the selection evaluated.
+    catalog : Catalog or None
+        The catalogue the selection came from (exports read provenance there).
+    stock_mode : str
+        How the shelf was taken into account: ``ignore``, ``prefer`` or ``only``.
     table : DataFrame
         Every candidate with every metric, margin, ``passed`` and ``reasons``,
         passing candidates first in ranking order (built on first access).
@@ -59,12 +78,16 @@ class Selection:
     A selection keeps only the verdicts of every candidate (``passed`` and
     one ``fails_<check>`` column per check); the rows somebody reads are
     evaluated again (the same arithmetic) and become a DataFrame with every
-    number and text (ids, reasons, notes).
+    number and text (ids, reasons, notes).  ``extra_columns`` of a given
+    ``table`` (the shelf's) are kept in the shortlist.
     """
 
-    def __init__(self, envelope, candidates, table, top: int, *, lazy=None, order=None):
+    def __init__(self, envelope, candidates, table, top: int, *, lazy=None, order=None, catalog=None,
+                 stock_mode: str = "ignore", extra_columns=()):
         self.envelope = envelope
-        self._cand = candidates
+        self.candidates = candidates
+        self.catalog = catalog
+        self.stock_mode = stock_mode
         self._top = top
         self._lazy = lazy          # (candidate positions -> {column: values}) for the text columns, or None
         if isinstance(table, pd.DataFrame):
@@ -77,10 +100,7 @@ class Selection:
         self._passed = np.asarray(table["passed"], dtype=bool)
         self._n_pass = int(self._passed.sum())
         shown = self._order[self._passed[self._order]]
-        cols = ["rank", "candidate", "motor", "gear", *PART_COLUMNS, "ratio", "worst_segment", *MARGIN_COLUMNS,
-                "winding_temperature", "rms_current", "peak_current", "energy_per_cycle", "mass",
-                "price", "currency", "pareto", "notes"]
-        self.shortlist = self._rows(shown[:top])[cols].reset_index(drop=True)
+        self.shortlist = self._rows(shown[:top])[shortlist_columns() + list(extra_columns)].reset_index(drop=True)
 
     def _rows(self, rows) -> pd.DataFrame:
         """The rows at positions ``rows`` as a DataFrame, with the text columns (built only for them)."""
@@ -101,10 +121,6 @@ class Selection:
         if self._table is None:
             self._table = self._rows(self._order)
         return self._table
-
-    @table.setter
-    def table(self, value):
-        self.__init__(self.envelope, self._cand, value, self._top)
 
     @property
     def passing(self) -> pd.DataFrame:
@@ -141,15 +157,16 @@ class Selection:
 
     def explain(self, candidate_id: str) -> str:
         """The whole story of one candidate: every segment and every margin, as text."""
-        i = self._cand.find(candidate_id)
+        i = self.candidates.find(candidate_id)
         if i is None:
-            motor_ids = [str(m) for m in self._cand.motors["id"]]
+            motor_ids = [str(m) for m in self.candidates.motors["id"]]
             near = difflib.get_close_matches(candidate_id, motor_ids, n=3, cutoff=0.5)
-            ids = list(self._cand.ids(np.flatnonzero(np.isin(self._cand.motor_ix, [motor_ids.index(m) for m in near]))))
+            near_rows = np.flatnonzero(np.isin(self.candidates.motor_ix, [motor_ids.index(m) for m in near]))
+            ids = list(self.candidates.ids(near_rows))
             close = difflib.get_close_matches(candidate_id, ids, n=5, cutoff=0.5)
             hint = f"; did you mean {', '.join(close)}?" if close else ""
             raise NotFound(f"no candidate {candidate_id!r} for this envelope{hint}", suggestions=close)
-        one = self._cand.take(slice(i, i + 1))
+        one = self.candidates.take(slice(i, i + 1))
         d = evaluate(self.envelope, one, detail=True)
         if self._lazy is None and "candidate" in self._cols:   # columns given in their own order
             pos = np.flatnonzero(np.asarray(self._cols["candidate"], dtype=object) == candidate_id)[:1]
@@ -159,7 +176,7 @@ class Selection:
         env = self.envelope
         lines = [f"candidate {candidate_id}",
                  f"  motor {row['motor']}; gear {row['gear']} ({_GEAR_KIND[int(one['kind'][0])]}), ratio "
-                 f"{row['ratio']:g}, efficiency {one['eta'][0]:.3g}"]
+                 f"{row['ratio']:g}, efficiency {one['efficiency'][0]:.3g}"]
         verdict = (f"passes, rank {int(row['rank'])} of {self._n_pass}" if row["passed"]
                    else f"rejected: {row['failed']}")
         lines.append(f"  verdict: {verdict}")
@@ -179,20 +196,26 @@ class Selection:
         lines.append(f"  RMS current {row['rms_current']:.3g} A, peak {row['peak_current']:.3g} A"
                      + (f", energy per cycle {row['energy_per_cycle']:.4g} J" if env.mode == "cycle" else ""))
         lines.append("  margins (required in brackets):")
-        req = env.margins
-        need = {"voltage_margin": req["voltage"], "peak_current_margin": req["current"],
-                "rms_current_margin": req["current"], "temperature_margin": req["temperature"],
-                "motor_speed_margin": req["speed"], "gear_speed_margin": req["speed"],
-                "gear_peak_torque_margin": req["torque"], "gear_continuous_torque_margin": req["torque"]}
-        for col in MARGIN_COLUMNS:
-            value = row[col]
-            if col == "temperature_margin":
-                text = f"{value:.1f} K [{need[col]:.3g} K]" if np.isfinite(value) else "not known"
+        for check in checks():
+            margin = check.margin
+            if margin is None:
+                continue
+            value = row[margin.column]
+            need = env.margins.get(margin.required, 0.0) if margin.required else None
+            if not margin.is_fraction:
+                text = f"{value:.1f} K" + (f" [{need:.3g} K]" if need is not None else "") \
+                    if np.isfinite(value) else "not known"
             elif np.isnan(value):
                 text = "not checked"
             else:
-                text = f"{value * 100:.1f} %" + (f" [{need[col] * 100:.3g} %]" if col in need else "")
-            lines.append(f"    {col:<32} {text}")
+                text = f"{value * 100:.1f} %" + (f" [{need * 100:.3g} %]" if need is not None else "")
+            lines.append(f"    {margin.column:<32} {text}")
+        smallest = row["smallest_margin"]
+        lines.append(f"    {'smallest_margin':<32} " + (f"{smallest * 100:.1f} %" if np.isfinite(smallest)
+                                                            else "not checked"))
+        for check in checks():
+            for name in check.columns:
+                lines.append(f"    {name:<32} {row[name]:.4g}")
         if row["notes"]:
             lines.append(f"  notes: {row['notes']}")
         if not row["passed"]:
@@ -202,7 +225,7 @@ class Selection:
 
 
 def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | None = None,
-           motor_notes: dict | None = None) -> Selection:
+           motor_notes: dict | None = None, catalog=None) -> Selection:
     """Evaluate every motor × gear option against a load envelope.
 
     Parameters
@@ -216,6 +239,8 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     motor_notes : dict, optional
         motor id -> text added to the notes of its candidates (the API passes the
         consistency flags of the datasheet here).
+    catalog : Catalog, optional
+        The catalogue the frames came from, kept as ``Selection.catalog``.
 
     Returns
     -------
@@ -255,18 +280,17 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
             for column, source in parts:
                 out[column] = pd.Series(c[source], dtype=object).map(parts[(column, source)]).to_numpy(dtype=object)
             out["worst_segment"] = np.asarray(env.names, dtype=object)[r["worst_seg"]] if len(at) else []
-            for k in MARGIN_COLUMNS + ["winding_temperature", "rms_current", "peak_current", "energy_per_cycle"]:
+            for k in margin_columns() + list(value_columns()) + METRIC_COLUMNS:
                 out[k] = r[k]
-            for k in ("mass", "price", "currency", "length", "diameter"):
+            for k in TOTAL_COLUMNS:
                 out[k] = c[k]
             out.update({"pareto": pareto[at], "notes": notes, "failed": failed, "reasons": reasons})
             return out
     else:
-        for k in ["rank", "candidate", "motor", "gear", "ratio", *PART_COLUMNS, "worst_segment", *MARGIN_COLUMNS,
-                  "winding_temperature", "rms_current", "peak_current", "energy_per_cycle", "mass", "price",
-                  "currency", "length", "diameter", "pareto", "notes", "failed", "reasons"]:
+        for k in table_columns():
             table[k] = np.zeros(0, dtype=object)   # an empty catalogue: the same columns, no rows
-    return Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy, order=order)
+    return Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy, order=order,
+                     catalog=catalog)
 
 
 def _part_names(motors, gearheads) -> dict:

@@ -126,13 +126,13 @@ def test_candidate_diagram_matches_the_selection(wheel, demo_cat):
     assert detail.winding_temperature == pytest.approx(row["winding_temperature"])
     c = {k: v[i] for k, v in cand.items()}
     tw = row["winding_temperature"]
-    r = ph.resistance_at_temperature(c["R"], tw, c["Tref"])
-    kt = ph.torque_constant_at_temperature(c["Kt"], tw, c["beta"], c["Tref"])
-    ke = ph.torque_constant_at_temperature(c["Ke"], tw, c["beta"], c["Tref"])
+    r = ph.resistance_at_temperature(c["terminal_resistance"], tw, c["resistance_reference_temperature"])
+    kt = ph.torque_constant_at_temperature(c["torque_constant"], tw, c["magnet_coefficient"], c["resistance_reference_temperature"])
+    ke = ph.torque_constant_at_temperature(c["back_emf_constant"], tw, c["magnet_coefficient"], c["resistance_reference_temperature"])
     v = env.min_voltage - env.drive_voltage_drop
     stall, no_load = crossing(got["hot"])
-    assert no_load == pytest.approx(ph.speed_at_torque(0.0, v, r, kt, ke, c["Tf"] / kt), rel=1e-9)
-    assert stall == pytest.approx(ph.torque_at_speed(0.0, v, r, kt, ke, c["Tf"] / kt), rel=1e-9)
+    assert no_load == pytest.approx(ph.speed_at_torque(0.0, v, r, kt, ke, c["friction_torque"] / kt), rel=1e-9)
+    assert stall == pytest.approx(ph.torque_at_speed(0.0, v, r, kt, ke, c["friction_torque"] / kt), rel=1e-9)
 
 
 def test_comparison_and_files(wheel, demo_cat, tmp_path):

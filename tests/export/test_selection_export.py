@@ -120,8 +120,10 @@ def test_no_passing_candidate(demo_cat, tmp_path):
 
 
 def test_every_numeric_shortlist_column_has_a_known_unit(wheel, pump):
-    """A new numeric column of the selection engine must get its dimension in SELECTION_DIMENSIONS."""
-    from catalog.export.columns import SELECTION_DIMENSIONS
+    """A new numeric column of the selection engine must get its dimension in selection_dimensions()."""
+    from catalog.export.columns import selection_dimensions
+
+    SELECTION_DIMENSIONS = selection_dimensions()
 
     for sel in (wheel, pump):
         for frame in (sel.shortlist, sel.rejected):

@@ -27,25 +27,25 @@ ALPHA20 = 0.00393
 
 
 def resistance(c, tw):
-    alpha = ALPHA20 / (1 + ALPHA20 * (c["Tref"] - 293.15))
-    return c["R"] * (1 + alpha * (tw - c["Tref"]))
+    alpha = ALPHA20 / (1 + ALPHA20 * (c["resistance_reference_temperature"] - 293.15))
+    return c["terminal_resistance"] * (1 + alpha * (tw - c["resistance_reference_temperature"]))
 
 
 def kt_at(c, tw, k):
-    return c[k] * (1 + c["beta"] * (tw - c["Tref"]))
+    return c[k] * (1 + c["magnet_coefficient"] * (tw - c["resistance_reference_temperature"]))
 
 
 def motor_torque(env, c, t_load, w_load, a_load):
     out = t_load + env.load_inertia * a_load
-    n, eta = c["ratio"], c["eta"]
+    n, eta = c["ratio"], c["efficiency"]
     through = out / (n * eta) if out * w_load >= 0 or not env.back_drive else out * eta / n
-    return (c["J"] + c["Jg"]) * n * a_load + through + c["Tf"] * np.sign(w_load)
+    return (c["rotor_inertia"] + c["gear_inertia"]) * n * a_load + through + c["friction_torque"] * np.sign(w_load)
 
 
 def simulate(env, c):
     """(peak winding temperature [K], worst |V| [V], coolest winding temperature [K]) in the periodic state."""
     ta = env.ambient_temperature
-    cw, ch = c["tau_w"] / c["Rth1"], c["tau_m"] / c["Rth2"]
+    cw, ch = c["thermal_time_constant_winding"] / c["thermal_resistance_winding_housing"], c["thermal_time_constant_motor"] / c["thermal_resistance_housing_ambient"]
     segs = []
     for k in range(len(env.names)):
         w0, w1, d = env.speed_start[k], env.speed_end[k], env.duration[k]
@@ -54,16 +54,16 @@ def simulate(env, c):
 
     def rhs(_, y, t_em):
         tw, th = y
-        i = t_em / kt_at(c, tw, "Kt")
-        return [(i * i * resistance(c, tw) - (tw - th) / c["Rth1"]) / cw,
-                ((tw - th) / c["Rth1"] - (th - ta) / c["Rth2"]) / ch]
+        i = t_em / kt_at(c, tw, "torque_constant")
+        return [(i * i * resistance(c, tw) - (tw - th) / c["thermal_resistance_winding_housing"]) / cw,
+                ((tw - th) / c["thermal_resistance_winding_housing"] - (th - ta) / c["thermal_resistance_housing_ambient"]) / ch]
 
     y = np.array([ta, ta])
     if env.mode == "points":   # continuous points held until steady, the hottest counts
         peak = ta
         for d, t_em, *_rest, cont in segs:
             if cont:
-                sol = solve_ivp(rhs, (0, 20 * c["tau_m"]), [ta, ta], args=(t_em,), rtol=1e-9, atol=1e-9)
+                sol = solve_ivp(rhs, (0, 20 * c["thermal_time_constant_motor"]), [ta, ta], args=(t_em,), rtol=1e-9, atol=1e-9)
                 peak = max(peak, sol.y[0, -1])
         tw_peak = tw_low = peak
     else:
@@ -80,9 +80,9 @@ def simulate(env, c):
     v_worst = 0.0
     for tw in (ta, tw_peak):
         for d, t_em, w0, w1, _ in segs:
-            i = t_em / kt_at(c, tw, "Kt")
+            i = t_em / kt_at(c, tw, "torque_constant")
             for w in np.linspace(w0, w1, 21):   # along the ramp
-                v = resistance(c, tw) * i + kt_at(c, tw, "Ke") * c["ratio"] * w
+                v = resistance(c, tw) * i + kt_at(c, tw, "back_emf_constant") * c["ratio"] * w
                 v_worst = max(v_worst, abs(v))
     return tw_peak, v_worst, tw_low
 
@@ -93,19 +93,19 @@ def test_top_candidate_by_simulation(demo_catalog, name):
     assert len(sel.shortlist) >= 3
     assert len(sel.reason_counts()) >= 3
     top = sel.shortlist.iloc[0]
-    i = list(sel._cand["id"]).index(top["candidate"])
-    c = {k: v[i] for k, v in sel._cand.items()}
+    i = list(sel.candidates["id"]).index(top["candidate"])
+    c = {k: v[i] for k, v in sel.candidates.items()}
     tw_peak, v_worst, tw_low = simulate(sel.envelope, c)
     env = sel.envelope
     assert v_worst <= env.available_voltage * (1 - env.margins["voltage"]) + 1e-9   # speeds reachable
-    assert tw_peak <= c["Tmax"] - env.margins["temperature"]                        # winding under limit
+    assert tw_peak <= c["max_winding_temperature"] - env.margins["temperature"]                        # winding under limit
     # the selection holds R and Kt at the peak winding temperature all cycle: conservative, by at most
     # the losses' overestimate while the winding is cooler, (1 + a·ripple)/(1 − b·ripple)² − 1 of the rise
     # (a, b: relative change of R and Kt per kelvin; ripple: peak minus coolest winding temperature)
     rise = top["winding_temperature"] - env.ambient_temperature
     ripple = tw_peak - tw_low
     a = ALPHA20 / (1 + ALPHA20 * (env.ambient_temperature - 293.15))
-    b = abs(c["beta"])
+    b = abs(c["magnet_coefficient"])
     bound = ((1 + a * ripple) / (1 - b * ripple) ** 2 - 1) * rise
     assert top["winding_temperature"] - bound - 0.1 <= tw_peak <= top["winding_temperature"] + 0.1
     needed = env.available_voltage * (1 - top["voltage_margin"])

@@ -1,0 +1,354 @@
+"""The check registry: every selection check as one declarative entry.
+
+A :class:`Check` says what it checks (``key``, ``meaning``), which margin it
+yields (:class:`Margin`: column, dimension, the envelope's required-margin key,
+a short label), which candidate columns it reads (``needs``), when it applies
+to an envelope (``active``), how it computes its margin and its failures, and
+the reason text of a failed row.  A check whose data is missing fails by a data
+check of its own (``motor_data``, ``gear_data`` ...), never passes.
+
+Everything that lists checks is generated from :data:`REGISTRY`: the verdict
+columns ``fails_<key>``, the shortlist's margin columns, the command line's
+shortlist columns, ``select --explain``, the export's column units and the
+meanings of the rejection counts.  A new check is one :func:`register` call
+(or one entry below) plus its test.
+
+Fractional margins are (limit − value)/limit (voltage: (available −
+needed)/available); the temperature margin is T_max − T_w in kelvin.  A NaN
+margin (not checked) never fails its check.
+"""
+from __future__ import annotations
+
+__all__ = ["Margin", "Check", "CheckInputs", "REGISTRY", "register", "unregister", "checks", "margins",
+           "margin_columns", "value_columns", "CHECKS", "below_required", "RPM"]
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
+import pandas as pd
+
+from .candidates import GEAR_CATALOGUE
+
+RPM = 30.0 / np.pi   #: rad/s → rpm [rpm·s/rad]
+
+
+@dataclass(frozen=True)
+class Margin:
+    """The margin a check yields.
+
+    ``column`` is its name in the shortlist, ``dimension`` ``dimensionless``
+    (a fraction of the limit) or ``temperature_difference`` (kelvin),
+    ``required`` the key of the envelope's ``constraints.margins`` it must
+    reach (None: zero), ``label`` the short header of the command line.
+    """
+
+    column: str
+    dimension: str = "dimensionless"
+    required: str | None = None
+    label: str = ""
+
+    @property
+    def is_fraction(self) -> bool:
+        return self.dimension == "dimensionless"
+
+
+@dataclass(frozen=True)
+class Check:
+    """One selection check.
+
+    Parameters
+    ----------
+    key : str
+        Verdict name (``fails_<key>`` column, the ``failed`` list).
+    meaning : str
+        One line for the rejection counts.
+    margin : Margin, optional
+        The margin it yields; data checks and limits yield none.
+    needs : tuple of str
+        Candidate columns the margin and failure functions read.
+    compute : callable, optional
+        ``compute(x) -> margin array (N,)`` of :class:`CheckInputs` ``x``.
+    fails : callable, optional
+        ``fails(x, margin) -> bool array (N,)``; default: margin below the
+        required margin (NaN never fails).
+    reason : callable
+        ``reason(x, margin) -> text Series or str`` for the failed rows.
+    active : callable, optional
+        ``active(env) -> bool``: an inactive check never fails (limits and
+        allowed lists the envelope does not set).
+    columns : dict, optional
+        Extra shortlist columns: name -> (``fn(x) -> array``, dimension).
+    normalise : callable, optional
+        ``normalise(x, margin)`` → the fraction compared in ``smallest_margin``
+        (default: the margin itself for fractions; no contribution otherwise).
+    """
+
+    key: str
+    meaning: str
+    reason: Callable
+    margin: Margin | None = None
+    needs: tuple = ()
+    compute: Callable | None = None
+    fails: Callable | None = None
+    active: Callable | None = None
+    columns: dict = field(default_factory=dict)
+    normalise: Callable | None = None
+
+    def applies(self, env) -> bool:
+        return True if self.active is None else bool(self.active(env))
+
+
+class CheckInputs:
+    """What a check reads: the envelope, the candidate columns ``c``, the evaluation ``r``."""
+
+    def __init__(self, env, c, r: dict, n: int):
+        self.env, self.c, self.r, self.n = env, c, r, n
+        self.check: Check | None = None     # the check being run (set by the runner)
+
+    def required(self) -> float:
+        """The required margin of the current check (0 without one)."""
+        margin = self.check.margin
+        return float(self.env.margins.get(margin.required, 0.0)) if margin and margin.required else 0.0
+
+    def names(self, ix) -> pd.Series:
+        """Segment names at segment indices ``ix``."""
+        return pd.Series(np.asarray(self.env.names, dtype=object)[np.asarray(ix, dtype=int)])
+
+    @staticmethod
+    def fmt(values, spec: str = "{:.3g}") -> pd.Series:
+        return pd.Series([spec.format(v) for v in np.asarray(values, dtype=float)])
+
+    def note(self, margin_value) -> pd.Series:
+        """``, margin 3.2 % < 10 %`` where a required margin was missed while the limit itself was kept."""
+        required = self.required()
+        need = required > 0
+        if self.check.margin.is_fraction:
+            text = ", margin " + self.fmt(margin_value * 100, "{:.1f}") + " % < " + f"{required * 100:.3g} %"
+        else:
+            text = ", margin " + self.fmt(margin_value, "{:.1f}") + " K < " + f"{required:.3g} K"
+        return text.where(pd.Series(need & (np.asarray(margin_value) >= 0), dtype=bool), "")
+
+
+def below_required(x: CheckInputs, margin) -> np.ndarray:
+    """The default failure: the margin below the required margin (NaN, not checked, never fails)."""
+    with np.errstate(invalid="ignore"):
+        return np.asarray(margin < x.required(), dtype=bool)
+
+
+def _ratio_margin(limit, value):
+    """(limit − value)/limit, NaN where either is missing or the limit is not finite."""
+    limit = np.asarray(limit, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(np.isfinite(limit), (limit - value) / limit, np.nan)
+
+
+def _catalogue(x: CheckInputs) -> np.ndarray:
+    return np.asarray(x.c["kind"]) == GEAR_CATALOGUE
+
+
+def _gear_margin(limit_key: str, value: Callable) -> Callable:
+    def compute(x):
+        with np.errstate(invalid="ignore", divide="ignore"):
+            return np.where(_catalogue(x), (x.c[limit_key] - value(x)) / x.c[limit_key], np.nan)
+    return compute
+
+
+def _duty(x: CheckInputs, cycle: str, points: str) -> str:
+    return cycle if x.env.mode == "cycle" else points
+
+
+# -- the registry ---------------------------------------------------------------------------------
+REGISTRY: list[Check] = [
+    Check("motor_data", "no motor constants: cannot check voltage",
+          fails=lambda x, m: np.isnan(x.r["voltage_margin"]),
+          reason=lambda x, m: "no motor constants: cannot check voltage (R, Kt or rotor inertia missing)"),
+    Check("voltage", "needs more voltage than the supply gives after the drive drop",
+          margin=Margin("voltage_margin", required="voltage", label="V %"),
+          compute=lambda x: x.r["voltage_margin"],
+          reason=lambda x, m: (
+              "segment " + x.names(x.r["voltage_seg"]) + ": needs " + x.fmt(x.r["voltage_need"], "{:.1f}")
+              + " V at " + x.fmt(x.r["voltage_speed"] * RPM, "{:.0f}") + " rpm"
+              + pd.Series(np.where(x.r["voltage_hot"], " (hot)", " (cold)"))
+              + f", has {x.env.available_voltage:.1f} V after the drive drop"
+              + x.note(m))),
+    Check("peak_current", "a segment needs more current than the drive's peak limit",
+          margin=Margin("peak_current_margin", required="current", label="Ipk %"),
+          compute=lambda x: _ratio_margin(np.full(x.n, x.env.drive_peak_current), x.r["peak_current"]),
+          reason=lambda x, m: (
+              "segment " + x.names(x.r["peak_current_seg"]) + ": needs " + x.fmt(x.r["peak_current"]) + " A"
+              + f", drive gives {x.env.drive_peak_current:.3g} A peak"
+              + x.note(m))),
+    Check("rms_current", "RMS current above the drive's continuous limit",
+          margin=Margin("rms_current_margin", required="current", label="Irms %"),
+          compute=lambda x: _ratio_margin(np.full(x.n, x.env.drive_continuous_current), x.r["rms_current"]),
+          reason=lambda x, m: (
+              _duty(x, "RMS current", "continuous current") + " " + x.fmt(x.r["rms_current"])
+              + f" A, drive gives {x.env.drive_continuous_current:.3g} A continuous"
+              + x.note(m))),
+    Check("thermal_data", "no thermal data: cannot check temperature",
+          fails=lambda x, m: x.r["thermal_missing"],
+          reason=lambda x, m: "no thermal data: cannot check temperature"),
+    Check("thermal_runaway", "thermal runaway (no steady winding temperature)",
+          fails=lambda x, m: x.r["runaway"] & ~x.r["thermal_missing"],
+          reason=lambda x, m: "thermal runaway: no steady winding temperature at " + x.fmt(x.r["rms_current"])
+          + " A RMS"),
+    Check("temperature", "winding too hot",
+          margin=Margin("temperature_margin", "temperature_difference", required="temperature", label="ΔT K"),
+          needs=("max_winding_temperature",),
+          compute=lambda x: x.c["max_winding_temperature"] - x.r["winding_temperature"],
+          # runaway (margin −inf) is a check of its own
+          fails=lambda x, m: np.isfinite(x.r["winding_temperature"]) & (m < x.required()),
+          normalise=lambda x, m: m / (x.c["max_winding_temperature"] - x.env.ambient_temperature),
+          reason=lambda x, m: (
+              "winding reaches " + x.fmt(x.r["winding_temperature"] - 273.15, "{:.0f}") + " °C, limit "
+              + x.fmt(x.c["max_winding_temperature"] - 273.15, "{:.0f}") + " °C"
+              + x.note(m))),
+    Check("speed_data", "no motor speed limit: cannot check speed", needs=("max_speed",),
+          fails=lambda x, m: np.isnan(x.c["max_speed"]),
+          reason=lambda x, m: "no motor speed limit: cannot check speed"),
+    Check("motor_speed", "motor speed above its limit",
+          margin=Margin("motor_speed_margin", required="speed", label="speed %"), needs=("max_speed",),
+          compute=lambda x: _ratio_margin(x.c["max_speed"], x.r["motor_speed"]),
+          reason=lambda x, m: (
+              "segment " + x.names(x.r["speed_seg"]) + ": motor at " + x.fmt(x.r["motor_speed"] * RPM, "{:.0f}")
+              + " rpm, limit " + x.fmt(x.c["max_speed"] * RPM, "{:.0f}") + " rpm"
+              + x.note(m))),
+    Check("gear_data", "no gearhead rating: cannot check the gearhead",
+          needs=("kind", "gear_max_input_speed", "gear_max_intermittent_torque", "gear_max_continuous_torque"),
+          fails=lambda x, m: _catalogue(x) & (np.isnan(x.c["gear_max_input_speed"])
+                                              | np.isnan(x.c["gear_max_intermittent_torque"])
+                                              | np.isnan(x.c["gear_max_continuous_torque"])),
+          reason=lambda x, m: "no gearhead rating: cannot check the gearhead (speed or torque rating missing)"),
+    Check("gear_speed", "gearhead input speed above its limit",
+          margin=Margin("gear_speed_margin", required="speed", label="gear speed %"),
+          needs=("kind", "gear_max_input_speed"),
+          compute=_gear_margin("gear_max_input_speed", lambda x: x.r["motor_speed"]),
+          reason=lambda x, m: (
+              "segment " + x.names(x.r["speed_seg"]) + ": gearhead input at "
+              + x.fmt(x.r["motor_speed"] * RPM, "{:.0f}") + " rpm, limit "
+              + x.fmt(x.c["gear_max_input_speed"] * RPM, "{:.0f}") + " rpm"
+              + x.note(m))),
+    Check("gear_peak_torque", "gearhead output torque above its intermittent rating",
+          margin=Margin("gear_peak_torque_margin", required="torque", label="gear Tpk %"),
+          needs=("kind", "gear_max_intermittent_torque"),
+          compute=_gear_margin("gear_max_intermittent_torque", lambda x: x.r["gear_out_peak"]),
+          reason=lambda x, m: (
+              "segment " + x.names(x.r["gear_out_seg"]) + ": gearhead output " + x.fmt(x.r["gear_out_peak"])
+              + " N·m, intermittent rating " + x.fmt(x.c["gear_max_intermittent_torque"]) + " N·m"
+              + x.note(m))),
+    Check("gear_continuous_torque", "RMS gearhead output torque above its continuous rating",
+          margin=Margin("gear_continuous_torque_margin", required="torque", label="gear Trms %"),
+          needs=("kind", "gear_max_continuous_torque"),
+          compute=_gear_margin("gear_max_continuous_torque", lambda x: x.r["gear_out_rms"]),
+          reason=lambda x, m: (
+              _duty(x, "RMS", "continuous") + " gearhead output " + x.fmt(x.r["gear_out_rms"])
+              + " N·m, continuous rating " + x.fmt(x.c["gear_max_continuous_torque"]) + " N·m"
+              + x.note(m))),
+]
+
+
+def _limit(key: str, unit: str, scale: float) -> Check:
+    """A size, mass or price limit of the envelope (``constraints.max_<key>``)."""
+    name = f"max_{key}"
+
+    def limit(env):
+        return env.limits.get(name)
+
+    return Check(key, f"{key} above the limit", needs=(key,), active=lambda env: limit(env) is not None,
+                 fails=lambda x, m: ~np.isnan(x.c[key]) & (x.c[key] > limit(x.env)),
+                 reason=lambda x, m: key + " " + x.fmt(x.c[key] * scale, "{:.4g}") + f" {unit} > "
+                 + f"{limit(x.env) * scale:.4g} {unit}".rstrip())
+
+
+LIMITS = (("diameter", "mm", 1e3), ("length", "mm", 1e3), ("mass", "g", 1e3), ("price", "", 1.0))
+
+
+def _limit_gaps(x: CheckInputs) -> dict:
+    """Limit key -> rows without data, for the limits the envelope sets."""
+    return {k: np.isnan(x.c[k]) for k, _, _ in LIMITS if x.env.limits.get(f"max_{k}") is not None}
+
+
+def _size_data_text(x: CheckInputs, m):
+    gaps = _limit_gaps(x)
+    text = pd.Series([""] * x.n, dtype=object)
+    for k, gap in gaps.items():
+        text = text + np.where(gap, " " + k, "")
+    return "no data for a limit:" + text
+
+
+def _allowed(key: str) -> Check:
+    """A list of allowed values of the envelope (``constraints.<key>``)."""
+    return Check(key, f"{key} not allowed", needs=(key,), active=lambda env: getattr(env, key) is not None,
+                 fails=lambda x, m: ~pd.Series(x.c[key]).isin(getattr(x.env, key)).to_numpy(),
+                 reason=lambda x, m: key + " " + pd.Series(x.c[key]).replace("", "unknown")
+                 + f" not in {', '.join(getattr(x.env, key))}")
+
+
+REGISTRY += [_limit(*spec) for spec in LIMITS]
+REGISTRY.append(Check(
+    "size_data", "no size, mass or price data for a limit", needs=tuple(k for k, _, _ in LIMITS),
+    active=lambda env: any(env.limits.get(f"max_{k}") is not None for k, _, _ in LIMITS),
+    fails=lambda x, m: np.logical_or.reduce([np.zeros(x.n, bool), *_limit_gaps(x).values()]),
+    reason=_size_data_text))
+REGISTRY += [_allowed("commutation"), _allowed("mount")]
+
+
+class _Meanings(Mapping):
+    """check key -> one-line meaning, a live view of :data:`REGISTRY` in verdict order."""
+
+    def __getitem__(self, key):
+        for c in REGISTRY:
+            if c.key == key:
+                return c.meaning
+        raise KeyError(key)
+
+    def __iter__(self):
+        return iter([c.key for c in REGISTRY])
+
+    def __len__(self):
+        return len(REGISTRY)
+
+    def __repr__(self):
+        return f"CHECKS({dict(self)!r})"
+
+
+#: check key -> meaning of every registered check (the rejection counts' explanations)
+CHECKS = _Meanings()
+
+
+def register(check: Check, before: str | None = None) -> Check:
+    """Add a check to the registry (at the end, or before the check ``before``); returns it."""
+    if any(c.key == check.key for c in REGISTRY):
+        raise ValueError(f"a check {check.key!r} is registered already")
+    at = next((i for i, c in enumerate(REGISTRY) if c.key == before), len(REGISTRY))
+    REGISTRY.insert(at, check)
+    return check
+
+
+def unregister(key: str) -> None:
+    """Remove the check ``key`` from the registry."""
+    REGISTRY[:] = [c for c in REGISTRY if c.key != key]
+
+
+def checks() -> list[Check]:
+    """The registered checks, in verdict order."""
+    return list(REGISTRY)
+
+
+def margins() -> list[Margin]:
+    """The margins of the registered checks, in verdict order."""
+    return [c.margin for c in REGISTRY if c.margin is not None]
+
+
+def margin_columns() -> list[str]:
+    """The shortlist's margin columns: every check's margin, then ``smallest_margin``."""
+    return [m.column for m in margins()] + ["smallest_margin"]
+
+
+def value_columns() -> dict:
+    """Extra shortlist columns of the checks: name -> dimension."""
+    return {name: dim for c in REGISTRY for name, (_, dim) in c.columns.items()}
+
+
