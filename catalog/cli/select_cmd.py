@@ -8,7 +8,8 @@ import sys
 import click
 
 from . import Context, cli, handle_errors
-from .output import FORMAT_OPTION, print_frame, echo
+from .options import FORMAT_OPTION
+from .output import echo, print_frame
 
 
 def display_shortlist(shortlist):

@@ -31,13 +31,15 @@ from a selection.
 from __future__ import annotations
 
 __all__ = ["MotorModel", "Conditions", "OperatingPoint", "characteristics", "plot_speed_torque",
-           "plot_comparison", "save_figure", "to_side", "temperature_text", "PALETTE"]
+           "plot_comparison", "save_figure", "to_side", "temperature_text", "PALETTE", "IMAGE_FORMATS"]
 
 import math
 from pathlib import Path
 
 from .lines import Conditions, MotorModel, OperatingPoint, characteristics, mirror, rms_point, to_side
 
+#: Image formats a diagram is written in (the extension without its dot; the first is the default).
+IMAGE_FORMATS = ("png", "svg")
 #: Colours of the diagram elements (our own scheme).
 PALETTE = {"hot": "#B0412E", "cold": "#5E8799", "thermal": "#C98512", "peak": "#7D4E9F",
            "max_speed": "#4A4A4A", "gear_max_speed": "#9A9A9A", "point": "#1F4E5F", "rms": "#B0412E",
@@ -318,11 +320,11 @@ def plot_comparison(entries, units: str = "datasheet", side: str = "load", title
 
 
 def save_figure(fig, path, fmt: str | None = None) -> Path:
-    """Save ``fig`` as PNG or SVG (from the extension unless ``fmt``); returns the path."""
+    """Save ``fig`` in one of :data:`IMAGE_FORMATS` (from the extension unless ``fmt``); returns the path."""
     path = Path(path)
     fmt = fmt or path.suffix.lower().lstrip(".")
-    if fmt not in ("png", "svg"):
-        raise ValueError(f"plots are written as .png or .svg, got {path.name!r}")
+    if fmt not in IMAGE_FORMATS:
+        raise ValueError(f"plots are written as {' or '.join('.' + f for f in IMAGE_FORMATS)}, got {path.name!r}")
     import matplotlib
 
     with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": path.stem}):

@@ -1,6 +1,9 @@
 """Writers: :class:`~catalog.export.columns.Table` lists to CSV, XLSX, JSON, Parquet.
 
-The format follows the file extension (:func:`format_for`).
+The format follows the file extension: :data:`FORMATS` maps each extension to
+its writer and says whether the format keeps SI; help texts and checks are
+made from it (:func:`extension_list`, :func:`keeps_si_text`, :func:`check_out`).
+A new format is one :class:`ExportFormat` entry and its writer function.
 
 * **XLSX** (the spreadsheet-safe format): one sheet per table plus ``about``;
   numbers are number cells with a number format per column, text is written
@@ -25,32 +28,24 @@ characters at all: they are written as their escapes (:func:`xlsx_text`).
 """
 from __future__ import annotations
 
-__all__ = ["FORMATS", "format_for", "write_tables", "neutralise", "xlsx_text", "number_format",
+__all__ = ["FORMATS", "ExportFormat", "format_for", "export_format", "check_out", "units_written",
+           "extension_list", "keeps_si_text", "write_tables_to_file", "neutralise", "xlsx_text", "number_format",
            "FORMULA_PREFIXES"]
 
 import json
 import math
 from copy import copy
+from dataclasses import dataclass
 from pathlib import Path
+from typing import Callable
 
 from ..errors import InputError, Problem
 
-#: File extension → format name.
-FORMATS = {".csv": "csv", ".xlsx": "xlsx", ".json": "json", ".parquet": "parquet"}
 #: First characters that make a spreadsheet read a text cell as a formula.
 FORMULA_PREFIXES = ("=", "+", "-", "@", "\t", "\r")
 
 _HEADER_FILL = "E4ECE8"   # pale sage
 _MAX_WIDTH = 48
-
-
-def format_for(path) -> str:
-    """The export format of ``path`` from its extension; unknown → InputError."""
-    ext = Path(path).suffix.lower()
-    if ext not in FORMATS:
-        msg = f"unknown file extension {ext or '(none)'!r}, expected one of {', '.join(FORMATS)}"
-        raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
-    return FORMATS[ext]
 
 
 def xlsx_text(value) -> str:
@@ -109,7 +104,7 @@ def _csv_cell(col, v) -> str:
     return neutralise(str(v))
 
 
-def _write_csv(tables, path: Path) -> None:
+def _write_csv(tables, path: Path, about: dict) -> None:  # noqa: ARG001 (CSV has no place for it)
     import csv
 
     table = tables[0]
@@ -279,8 +274,10 @@ def _about_text(v) -> str:
     return "" if v is None else str(v)
 
 
-def write_tables(tables, path, about: dict | None = None, fmt: str | None = None) -> Path:
-    """Write ``tables`` (a list of :class:`Table`, the main one first) to ``path``.
+def write_tables_to_file(tables, path, about: dict | None = None, fmt: str | None = None) -> Path:
+    """Write ``tables`` (a list of :class:`Table`, the main one first) to the file ``path``.
+
+    (Writing imported records into the catalogue is :func:`catalog.ingest.writer.write_tables`.)
 
     Parameters
     ----------
@@ -292,7 +289,7 @@ def write_tables(tables, path, about: dict | None = None, fmt: str | None = None
         Run details (program version, catalogue, preset, date ...): the XLSX
         ``about`` sheet, the JSON ``about`` object, Parquet file metadata.
     fmt : str, optional
-        ``csv``, ``xlsx``, ``json`` or ``parquet``; default from the extension.
+        A format name of :data:`FORMATS` (``xlsx``, ``csv``, ...); default from the extension.
 
     Returns
     -------
@@ -300,25 +297,103 @@ def write_tables(tables, path, about: dict | None = None, fmt: str | None = None
         The file written.
     """
     path = Path(path)
-    fmt = fmt or format_for(path)
+    fmt = export_format(fmt or format_for(path))
     about = dict(about or {})
     if not path.parent.exists():
-        msg = f"folder {str(path.parent)!r} does not exist"
+        msg = _missing_folder(path)
         raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
     tmp = path.with_name(f".{path.name}.part")
     try:
-        if fmt == "csv":
-            _write_csv(tables, tmp)
-        elif fmt == "json":
-            _write_json(tables, tmp, about)
-        elif fmt == "parquet":
-            _write_parquet(tables, tmp, about)
-        elif fmt == "xlsx":
-            _write_xlsx(tables, tmp, about)
-        else:
-            raise ValueError(f"unknown format {fmt!r}")
+        fmt.writer(tables, tmp, about)
         tmp.replace(path)
     finally:
         if tmp.exists():
             tmp.unlink()
     return path
+
+
+@dataclass(frozen=True)
+class ExportFormat:
+    """One file format of the table exports: what writes it and what it keeps."""
+
+    name: str            #: format name, e.g. ``xlsx``
+    label: str           #: as people write it, e.g. ``XLSX``
+    extension: str       #: file extension with its dot
+    writer: Callable     #: ``writer(tables, path, about)`` writes the file
+    keeps_si: bool       #: values are written in SI whatever the display preset asks
+    holds: str           #: what the file holds, for help texts and docs
+
+
+#: File extension → format: the one table of export formats (help texts and checks are made from it).
+FORMATS = {f.extension: f for f in (
+    ExportFormat("xlsx", "XLSX", ".xlsx", _write_xlsx, False,
+                 "every table as a sheet plus an about sheet; ids and part numbers as text cells"),
+    ExportFormat("csv", "CSV", ".csv", _write_csv, False, "the first table (RFC 4180, UTF-8)"),
+    ExportFormat("json", "JSON", ".json", _write_json, False,
+                 "the first table as records with the units stated once, the others under tables"),
+    ExportFormat("parquet", "Parquet", ".parquet", _write_parquet, True,
+                 "the first table in SI, the unit in each column's metadata"),
+)}
+
+
+def extension_list(extensions=None, last: str = "or") -> str:
+    """``.xlsx, .csv, .json or .parquet``: the extensions (default: of :data:`FORMATS`) for a help text."""
+    items = list(FORMATS if extensions is None else extensions)
+    return items[0] if len(items) == 1 else f"{', '.join(items[:-1])} {last} {items[-1]}"
+
+
+def keeps_si_text() -> str:
+    """``Parquet always keeps SI``: the formats that ignore the display preset, for a help text."""
+    labels = [f.label for f in FORMATS.values() if f.keeps_si]
+    if not labels:
+        return "every format writes the units asked for"
+    return f"{extension_list(labels, 'and')} always keep{'s' if len(labels) == 1 else ''} SI"
+
+
+def _unknown_extension(path, extensions) -> str:
+    ext = Path(path).suffix.lower()
+    return f"unknown file extension {ext or '(none)'!r}, expected one of {', '.join(extensions)}"
+
+
+def _missing_folder(path: Path) -> str:
+    return f"folder {str(path.parent)!r} does not exist"
+
+
+def format_for(path) -> str:
+    """The export format name of ``path`` from its extension; unknown → InputError."""
+    ext = Path(path).suffix.lower()
+    if ext not in FORMATS:
+        msg = _unknown_extension(path, FORMATS)
+        raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
+    return FORMATS[ext].name
+
+
+def export_format(name: str) -> ExportFormat:
+    """The :class:`ExportFormat` called ``name`` (``xlsx``, ``csv``, ...); unknown → ValueError."""
+    for f in FORMATS.values():
+        if f.name == name:
+            return f
+    raise ValueError(f"unknown export format {name!r}, expected one of {', '.join(f.name for f in FORMATS.values())}")
+
+
+def units_written(path, units: str) -> str:
+    """The units a file at ``path`` is written in: ``si`` for a format that keeps SI, else ``units``."""
+    return "si" if FORMATS[Path(path).suffix.lower()].keeps_si else units
+
+
+def check_out(path, extensions=None) -> Path:
+    """``path`` checked as an output file before any work: a known extension, an existing folder.
+
+    ``extensions`` defaults to those of :data:`FORMATS`.  A mistake is an
+    :class:`~catalog.errors.InputError` on ``--out`` (the option of every
+    command that writes a file, and the keyword of the matching API method).
+    """
+    out = Path(path)
+    extensions = tuple(FORMATS if extensions is None else extensions)
+    if out.suffix.lower() not in extensions:
+        msg = f"{path}: {_unknown_extension(path, extensions)}"
+    elif not out.parent.exists():
+        msg = f"{path}: {_missing_folder(out)}"
+    else:
+        return out
+    raise InputError(f"--out: {msg}", [Problem("--out", None, None, msg)])
