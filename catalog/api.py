@@ -25,9 +25,6 @@ from .store import Store, default_path, one
 
 #: ``list``/``export`` kind → (view, record type); the view name never comes from a caller's text.
 _KINDS = {"motors": ("motors", "motor"), "gearheads": ("gearheads", "gearhead")}
-#: Columns of a record's stored values, as ``record_values`` keeps them.
-_VALUE_COLUMNS = ("field", "value_num", "value_text", "raw_text", "raw_unit", "origin", "relation", "inputs",
-                  "source_file", "source_row", "batch_id")
 
 
 class RecordView(NamedTuple):
@@ -367,8 +364,8 @@ def open_catalog(path=None, wait: float = 30.0) -> Catalog:
 
 # -- queries behind the methods ---------------------------------------------------------
 def _stored_values(con, record_id: str):
-    """The ``record_values`` rows of one record (columns :data:`_VALUE_COLUMNS`)."""
-    return con.sql(f"SELECT {', '.join(_VALUE_COLUMNS)} FROM record_values WHERE record_id = $id",
+    """The ``record_values`` rows of one record, every column but ``record_id``."""
+    return con.sql("SELECT * EXCLUDE (record_id) FROM record_values WHERE record_id = $id",
                    params={"id": record_id}).to_arrow_table().to_pandas()
 
 

@@ -52,8 +52,6 @@ _BY_MOTOR = {"R": "terminal_resistance", "Kt": "torque_constant", "Ke": "back_em
 _BY_OPTION = {"ratio": "ratio", "eta": "efficiency", "Jg": "inertia", "gear": "label", "kind": "kind",
               "gear_cont_torque": "max_continuous_torque", "gear_peak_torque": "max_intermittent_torque",
               "gear_max_speed": "max_input_speed"}
-#: keys computed from both tables
-_COMBINED = ("id", "mass", "length", "diameter", "price", "currency", "price_note")
 #: every per-candidate key, in a stable order
 KEYS = ("id", "motor", "gear", "kind", "motor_ix", *[k for k in _BY_MOTOR if k not in ("motor",)],
         *[k for k in _BY_OPTION if k not in ("gear", "kind")], "mass", "length", "diameter", "price",
