@@ -86,6 +86,22 @@ def test_env_var_default_path(tmp_path, good, monkeypatch):
     assert db.exists()
 
 
+def test_history_of_a_record(tmp_path, good):
+    db = tmp_path / "c.duckdb"
+    run("--db", db, "import", good)
+    again = tmp_path / "again.csv"
+    again.write_text(CSV.replace("Acme Test,M-1,24,350,180", "Acme Test,M-1,24,360,180"), encoding="utf-8")
+    run("--db", db, "import", again)
+    r = run("--db", db, "history", "acme-m-1")
+    assert r.exit_code == 0, r.output
+    changes = [line for line in r.output.splitlines() if " -> " in line]
+    assert len(changes) == 1 and re.search(r"stall_torque\s+0\.35 \(350 mNm\) -> 0\.36 \(360 mNm\)", changes[0]), r.output
+    every = run("--db", db, "history", "acme-m-1", "--all", "--format", "csv").output.splitlines()
+    assert len(every) == 1 + 3   # stall torque changed; voltage and mass written again unchanged
+    r = run("--db", db, "history", "acme-m-9")
+    assert r.exit_code == 2 and r.output.startswith("error: no record with id 'acme-m-9'; did you mean")
+
+
 def test_console_script_help_starts_without_heavy_imports():
     code = ("import sys; from catalog.cli import cli; "
             "heavy = [m for m in ('pandas', 'pint', 'duckdb', 'numpy', 'matplotlib') if m in sys.modules]; "
