@@ -280,7 +280,7 @@ class Catalog(StockMethods):
                units: str = "datasheet"):
         """Write the ``motors`` or ``gearheads`` (all, or those matching ``where``) to the file ``out``.
 
-        The format follows the extension (:data:`catalog.export.writers.FORMATS`);
+        The format follows the extension (:data:`catalog.export.formats.FORMATS`);
         ``where`` is a SQL condition on the view (SI units) with named values in
         ``params`` (``where="mass < $m", params={"m": 0.2}``); values in the
         display preset ``units``.  Returns ``(path, number of records)``; see
@@ -302,7 +302,8 @@ class Catalog(StockMethods):
         :class:`~catalog.select.Selection` (the report is written whether or not
         a candidate passes); see :func:`catalog.export.write_report`.
         """
-        from .export.report import REPORT_EXTENSIONS, write_report
+        from .export.formats import REPORT_EXTENSIONS
+        from .export.report import write_report
         from .export.writers import check_out
 
         path = check_out(out, REPORT_EXTENSIONS)
@@ -316,11 +317,11 @@ class Catalog(StockMethods):
 
         One file per candidate (or per id of ``candidates``) and ``compare.<format>``
         in the folder ``out``; ``format`` is one of
-        :data:`catalog.export.plots.IMAGE_FORMATS`.  Returns the paths written
+        :data:`catalog.export.formats.IMAGE_FORMATS`.  Returns the paths written
         (none when no candidate passes); see :func:`catalog.export.write_plots`.
         """
         from .export.figures import write_plots
-        from .export.plots import IMAGE_FORMATS
+        from .export.formats import IMAGE_FORMATS
 
         if format not in IMAGE_FORMATS:
             raise _input_problem("format", f"{format!r} is not an image format, expected one of "

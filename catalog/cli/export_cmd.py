@@ -7,9 +7,7 @@ import sys
 
 import click
 
-from ..export.plots import IMAGE_FORMATS
-from ..export.report import REPORT_EXTENSIONS
-from ..export.writers import FORMATS, extension_list
+from ..export.formats import FORMATS, IMAGE_FORMATS, REPORT_EXTENSIONS, extension_list
 from . import Context, cli, handle_errors
 from .options import OUT_UNITS_OPTION, SIDE_OPTION, TOP_OPTION
 from .output import echo

@@ -14,13 +14,12 @@ Where a name changed, the old spelling still works for a while: it is listed in
 """
 from __future__ import annotations
 
-__all__ = ["Command", "Group", "OutputOption", "RENAMED_OPTIONS", "DB_OPTION", "FORMAT_OPTION", "UNITS_OPTION",
-           "OUT_UNITS_OPTION", "TOP_OPTION", "SIDE_OPTION"]
+__all__ = ["Command", "Group", "OutputOption", "LazyChoice", "RENAMED_OPTIONS", "DB_OPTION", "FORMAT_OPTION",
+           "UNITS_OPTION", "OUT_UNITS_OPTION", "TOP_OPTION", "SIDE_OPTION"]
 
 import click
 
-from ..export.writers import keeps_si_text
-from ..units.dimensions import PRESETS
+from ..export.formats import keeps_si_text
 
 #: Old option spellings still read: old spelling → the parameters it may stand for (a command
 #: that has one of them reads the old spelling as that option, with a deprecation note).
@@ -31,6 +30,32 @@ RENAMED_OPTIONS = {
     "--from": ("from_location",),
     "--all": ("include_empty",),
 }
+
+
+class LazyChoice(click.Choice):
+    """A choice among the values ``load()`` returns when first needed (parsing, help).
+
+    The tables the choices come from (the units presets) live in packages that
+    take a while to import; reading them lazily keeps ``motorshelf --help`` fast.
+    """
+
+    def __init__(self, load, case_sensitive: bool = True):
+        self._load = load
+        super().__init__((), case_sensitive)
+
+    @property
+    def choices(self):
+        return tuple(self._load())
+
+    @choices.setter
+    def choices(self, value):   # click.Choice.__init__ sets it; the values come from load()
+        pass
+
+
+def _presets():
+    from ..units.dimensions import PRESETS
+
+    return PRESETS
 
 
 class OutputOption(click.Option):
@@ -88,9 +113,9 @@ DB_OPTION = click.option("--db", "db", type=click.Path(dir_okay=False), default=
                          help="Catalogue file (default: $MOTORSHELF_DB, else ./motorshelf.duckdb).")
 FORMAT_OPTION = click.option("--format", "fmt", cls=OutputOption, type=click.Choice(["table", "csv", "json"]),
                              default="table", show_default=True, help="Output format.")
-UNITS_OPTION = click.option("--units", "units", type=click.Choice(PRESETS), default="datasheet",
+UNITS_OPTION = click.option("--units", "units", type=LazyChoice(_presets), default="datasheet",
                             show_default=True, help="Units to display values in.")
-OUT_UNITS_OPTION = click.option("--units", "units", type=click.Choice(PRESETS), default="datasheet",
+OUT_UNITS_OPTION = click.option("--units", "units", type=LazyChoice(_presets), default="datasheet",
                                 show_default=True, help=f"Units of the values written ({keeps_si_text()}).")
 TOP_OPTION = click.option("--top", type=click.IntRange(min=1), default=None, metavar="N",
                           help="Shortlist length (default: the envelope's ranking.top, else 10).")

@@ -19,17 +19,18 @@ from __future__ import annotations
 __all__ = ["write_selection", "export_catalogue", "write_report", "render_report", "candidate_figure",
            "comparison_figure", "plot_speed_torque", "plot_comparison", "save_figure", "MotorModel",
            "Conditions", "OperatingPoint", "characteristics", "candidate_detail", "FORMATS", "CAUTION",
-           "write_plots", "write_tables_to_file", "IMAGE_FORMATS"]
+           "write_plots", "write_tables_to_file", "IMAGE_FORMATS", "REPORT_EXTENSIONS"]
 
 _WHERE = {
     "write_selection": "selection", "CAUTION": "selection",
     "export_catalogue": "catalogue",
     "write_report": "report", "render_report": "report",
     "candidate_figure": "figures", "comparison_figure": "figures", "write_plots": "figures",
-    "plot_speed_torque": "plots", "plot_comparison": "plots", "save_figure": "plots", "IMAGE_FORMATS": "plots",
+    "plot_speed_torque": "plots", "plot_comparison": "plots", "save_figure": "plots", 
     "MotorModel": "lines", "Conditions": "lines", "OperatingPoint": "lines", "characteristics": "lines",
     "candidate_detail": "detail",
-    "FORMATS": "writers", "write_tables_to_file": "writers",
+    "FORMATS": "formats", "IMAGE_FORMATS": "formats", "REPORT_EXTENSIONS": "formats",
+    "write_tables_to_file": "writers",
 }
 
 

@@ -176,7 +176,7 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
     kind : str
         ``motors`` or ``gearheads``.
     path : str or Path
-        The file; its extension picks the format (:data:`catalog.export.writers.FORMATS`).
+        The file; its extension picks the format (:data:`catalog.export.formats.FORMATS`).
     where : str, optional
         SQL condition on the view (SI units), e.g. ``"mass < $m AND mount = 'F22'"``.
     params : dict, optional

@@ -31,15 +31,14 @@ from a selection.
 from __future__ import annotations
 
 __all__ = ["MotorModel", "Conditions", "OperatingPoint", "characteristics", "plot_speed_torque",
-           "plot_comparison", "save_figure", "to_side", "temperature_text", "PALETTE", "IMAGE_FORMATS"]
+           "plot_comparison", "save_figure", "to_side", "temperature_text", "PALETTE"]
 
 import math
 from pathlib import Path
 
+from .formats import IMAGE_FORMATS
 from .lines import Conditions, MotorModel, OperatingPoint, characteristics, mirror, rms_point, to_side
 
-#: Image formats a diagram is written in (the extension without its dot; the first is the default).
-IMAGE_FORMATS = ("png", "svg")
 #: Colours of the diagram elements (our own scheme).
 PALETTE = {"hot": "#B0412E", "cold": "#5E8799", "thermal": "#C98512", "peak": "#7D4E9F",
            "max_speed": "#4A4A4A", "gear_max_speed": "#9A9A9A", "point": "#1F4E5F", "rms": "#B0412E",

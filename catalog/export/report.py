@@ -9,7 +9,7 @@ opens offline and prints cleanly (print style sheet, one diagram per page).
 """
 from __future__ import annotations
 
-__all__ = ["write_report", "render_report", "REPORT_COLUMNS", "USED_FIELDS", "REPORT_EXTENSIONS"]
+__all__ = ["write_report", "render_report", "REPORT_COLUMNS", "USED_FIELDS"]
 
 from pathlib import Path
 
@@ -32,8 +32,6 @@ USED_FIELDS = {
                  "max_input_speed", "mount", "mass", "length", "diameter", "price", "currency"],
 }
 _EXAMPLES = 8
-#: File extensions of the report (one self-contained HTML file).
-REPORT_EXTENSIONS = (".html", ".htm")
 
 
 def _envelope(selection, units: str) -> str:

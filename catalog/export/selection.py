@@ -4,7 +4,7 @@
 The XLSX holds every sheet (``shortlist``, ``rejected``, ``rejection counts``,
 ``envelope``, ``provenance``, ``cautions``, ``about``); JSON holds the same
 tables (the shortlist at the top level); CSV and Parquet hold the shortlist
-only (what each format holds: :data:`catalog.export.writers.FORMATS`).
+only (what each format holds: :data:`catalog.export.formats.FORMATS`).
 """
 from __future__ import annotations
 
@@ -171,7 +171,7 @@ def _about(selection, cat, preset) -> dict:
 
 
 def write_selection(selection, path, units: str = "datasheet", catalog=None):
-    """Write a selection to ``path``, the format by its extension (:data:`catalog.export.writers.FORMATS`).
+    """Write a selection to ``path``, the format by its extension (:data:`catalog.export.formats.FORMATS`).
 
     Parameters
     ----------

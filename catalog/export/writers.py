@@ -1,9 +1,9 @@
 """Writers: :class:`~catalog.export.columns.Table` lists to CSV, XLSX, JSON, Parquet.
 
-The format follows the file extension: :data:`FORMATS` maps each extension to
-its writer and says whether the format keeps SI; help texts and checks are
-made from it (:func:`extension_list`, :func:`keeps_si_text`, :func:`check_out`).
-A new format is one :class:`ExportFormat` entry and its writer function.
+The format follows the file extension: :data:`catalog.export.formats.FORMATS`
+maps each extension to its writer here and says whether the format keeps SI.
+A new format is one entry there and its writer function here, called
+``writer(tables, path, about)``.
 
 * **XLSX** (the spreadsheet-safe format): one sheet per table plus ``about``;
   numbers are number cells with a number format per column, text is written
@@ -28,18 +28,16 @@ characters at all: they are written as their escapes (:func:`xlsx_text`).
 """
 from __future__ import annotations
 
-__all__ = ["FORMATS", "ExportFormat", "format_for", "export_format", "check_out", "units_written",
-           "extension_list", "keeps_si_text", "write_tables_to_file", "neutralise", "xlsx_text", "number_format",
-           "FORMULA_PREFIXES"]
+__all__ = ["format_for", "check_out", "units_written", "write_tables_to_file", "write_xlsx", "write_csv",
+           "write_json", "write_parquet", "neutralise", "xlsx_text", "number_format", "FORMULA_PREFIXES"]
 
 import json
 import math
 from copy import copy
-from dataclasses import dataclass
 from pathlib import Path
-from typing import Callable
 
 from ..errors import InputError, Problem
+from .formats import FORMATS, export_format
 
 #: First characters that make a spreadsheet read a text cell as a formula.
 FORMULA_PREFIXES = ("=", "+", "-", "@", "\t", "\r")
@@ -104,7 +102,8 @@ def _csv_cell(col, v) -> str:
     return neutralise(str(v))
 
 
-def _write_csv(tables, path: Path, about: dict) -> None:  # noqa: ARG001 (CSV has no place for it)
+def write_csv(tables, path: Path, about: dict) -> None:  # noqa: ARG001 (CSV has no place for it)
+    """The first of ``tables`` as CSV (RFC 4180, UTF-8, CRLF); ``about`` has no place in CSV."""
     import csv
 
     table = tables[0]
@@ -127,7 +126,8 @@ def _json_table(table) -> dict:
             "records": [{k: _json_value(v) for k, v in r.items()} for r in table.records()]}
 
 
-def _write_json(tables, path: Path, about: dict) -> None:
+def write_json(tables, path: Path, about: dict) -> None:
+    """``{"about", "table", "units", "records", "tables"}``: the first table at the top, the others under ``tables``."""
     doc = {"about": about, "table": tables[0].name, **_json_table(tables[0])}
     if len(tables) > 1:
         doc["tables"] = {t.name: _json_table(t) for t in tables[1:]}
@@ -135,7 +135,8 @@ def _write_json(tables, path: Path, about: dict) -> None:
 
 
 # -- Parquet ---------------------------------------------------------------------
-def _write_parquet(tables, path: Path, about: dict) -> None:
+def write_parquet(tables, path: Path, about: dict) -> None:
+    """The first of ``tables`` in SI, the unit in each column's field metadata, ``about`` in the file metadata."""
     import pyarrow as pa
     import pyarrow.parquet as pq
 
@@ -248,7 +249,8 @@ def _xlsx_sheet(wb, table, used: set) -> None:
     ws.row_dimensions[1].height = 32 if any(len(c.header) > 18 for c in table.columns) else 18
 
 
-def _write_xlsx(tables, path: Path, about: dict) -> None:
+def write_xlsx(tables, path: Path, about: dict) -> None:
+    """One sheet per table and an ``about`` sheet (spreadsheet-safe text cells, number formats, filters)."""
     from openpyxl import Workbook
 
     from .columns import Table, text_column
@@ -304,50 +306,12 @@ def write_tables_to_file(tables, path, about: dict | None = None, fmt: str | Non
         raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
     tmp = path.with_name(f".{path.name}.part")
     try:
-        fmt.writer(tables, tmp, about)
+        globals()[fmt.writer](tables, tmp, about)   # the writer the format table names, in this module
         tmp.replace(path)
     finally:
         if tmp.exists():
             tmp.unlink()
     return path
-
-
-@dataclass(frozen=True)
-class ExportFormat:
-    """One file format of the table exports: what writes it and what it keeps."""
-
-    name: str            #: format name, e.g. ``xlsx``
-    label: str           #: as people write it, e.g. ``XLSX``
-    extension: str       #: file extension with its dot
-    writer: Callable     #: ``writer(tables, path, about)`` writes the file
-    keeps_si: bool       #: values are written in SI whatever the display preset asks
-    holds: str           #: what the file holds, for help texts and docs
-
-
-#: File extension → format: the one table of export formats (help texts and checks are made from it).
-FORMATS = {f.extension: f for f in (
-    ExportFormat("xlsx", "XLSX", ".xlsx", _write_xlsx, False,
-                 "every table as a sheet plus an about sheet; ids and part numbers as text cells"),
-    ExportFormat("csv", "CSV", ".csv", _write_csv, False, "the first table (RFC 4180, UTF-8)"),
-    ExportFormat("json", "JSON", ".json", _write_json, False,
-                 "the first table as records with the units stated once, the others under tables"),
-    ExportFormat("parquet", "Parquet", ".parquet", _write_parquet, True,
-                 "the first table in SI, the unit in each column's metadata"),
-)}
-
-
-def extension_list(extensions=None, last: str = "or") -> str:
-    """``.xlsx, .csv, .json or .parquet``: the extensions (default: of :data:`FORMATS`) for a help text."""
-    items = list(FORMATS if extensions is None else extensions)
-    return items[0] if len(items) == 1 else f"{', '.join(items[:-1])} {last} {items[-1]}"
-
-
-def keeps_si_text() -> str:
-    """``Parquet always keeps SI``: the formats that ignore the display preset, for a help text."""
-    labels = [f.label for f in FORMATS.values() if f.keeps_si]
-    if not labels:
-        return "every format writes the units asked for"
-    return f"{extension_list(labels, 'and')} always keep{'s' if len(labels) == 1 else ''} SI"
 
 
 def _unknown_extension(path, extensions) -> str:
@@ -366,14 +330,6 @@ def format_for(path) -> str:
         msg = _unknown_extension(path, FORMATS)
         raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
     return FORMATS[ext].name
-
-
-def export_format(name: str) -> ExportFormat:
-    """The :class:`ExportFormat` called ``name`` (``xlsx``, ``csv``, ...); unknown → ValueError."""
-    for f in FORMATS.values():
-        if f.name == name:
-            return f
-    raise ValueError(f"unknown export format {name!r}, expected one of {', '.join(f.name for f in FORMATS.values())}")
 
 
 def units_written(path, units: str) -> str:

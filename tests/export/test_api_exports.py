@@ -7,7 +7,8 @@ import json
 import pytest
 
 from catalog.errors import InputError
-from catalog.export.writers import FORMATS, check_out, extension_list, keeps_si_text, units_written
+from catalog.export.formats import FORMATS, extension_list, keeps_si_text
+from catalog.export.writers import check_out, units_written
 from tests.conftest import table_snapshot
 from tests.export.conftest import QUERIES
 
