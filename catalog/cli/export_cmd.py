@@ -91,8 +91,8 @@ def report_cmd(obj: Context, envelope, out, top, plots, units, side):
 @click.option("--candidate", "candidates", multiple=True, metavar="ID",
               help="Draw this candidate (repeat for several; default the shortlist).")
 @TOP_OPTION
-@click.option("--format", "format", type=click.Choice(IMAGE_FORMATS), default=IMAGE_FORMATS[0], show_default=True,
-              help="Image format.")
+@click.option("--format", "format", type=click.Choice(list(IMAGE_FORMATS)), default=next(iter(IMAGE_FORMATS)),
+              show_default=True, help="Image format.")
 @OUT_UNITS_OPTION
 @SIDE_OPTION
 @click.pass_obj

@@ -38,8 +38,9 @@ FORMATS = {f.extension: f for f in (
     ExportFormat("parquet", "Parquet", ".parquet", "write_parquet", True,
                  "the first table in SI, the unit in each column's metadata"),
 )}
-#: Image formats of the diagrams (the extension without its dot; the first is the default).
-IMAGE_FORMATS = ("png", "svg")
+#: Image formats of the diagrams (the extension without its dot; the first is the default) → the
+#: keyword arguments matplotlib's ``savefig`` gets for it (SVG: no date, so that a file is reproducible).
+IMAGE_FORMATS = {"png": {"dpi": 150}, "svg": {"metadata": {"Date": None}}}
 #: File extensions of the HTML report.
 REPORT_EXTENSIONS = (".html", ".htm")
 

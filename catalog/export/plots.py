@@ -327,6 +327,5 @@ def save_figure(fig, path, fmt: str | None = None) -> Path:
     import matplotlib
 
     with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": path.stem}):
-        fig.savefig(path, format=fmt, dpi=150 if fmt == "png" else None,
-                    metadata={"Date": None} if fmt == "svg" else None)
+        fig.savefig(path, format=fmt, **IMAGE_FORMATS[fmt])
     return path
