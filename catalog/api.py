@@ -382,6 +382,7 @@ def _shown_values(stored, record_type: str, units: str):
 
     fields = {n: f for n, f in fields_for(record_type).items() if n not in ("id", "manufacturer", "part_number")}
     frame = pd.DataFrame({"field": list(fields)}).merge(stored, on="field", how="left")
+    frame = frame.astype({"source_row": "Int64", "batch_id": "Int64"})   # whole numbers, empty where no value
     shown, labels = [], []
     for name, num in zip(frame["field"], frame["value_num"]):
         f = fields[name]
