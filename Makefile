@@ -6,7 +6,7 @@ STAMP  := $(VENV)/.installed
 TSTAMP := $(VENV)/.installed-test
 DEMO_DB ?= demo/motorshelf-demo.duckdb
 
-.PHONY: demo test bench clean
+.PHONY: demo test bench docs clean
 
 $(PY):
 	$(PYTHON) -m venv $(VENV)
@@ -28,6 +28,10 @@ test: $(TSTAMP)
 
 bench: $(TSTAMP)
 	$(PY) -m benchmarks
+
+# Regenerate every generated document of docs/ (the list: catalog/docs.py:GENERATED).
+docs: $(STAMP)
+	$(PY) -m catalog.docs
 
 clean:
 	rm -rf $(VENV) demo build *.egg-info

@@ -55,7 +55,7 @@ def main() -> int:
            f"median of 3, columns in memory; baseline: record by record on {N_LOOP} rows, scaled")
     with tempfile.TemporaryDirectory() as d:
         d = Path(d)
-        catalog.open(d / "c.duckdb").import_files([write_motor_csv(d / "big.csv", N)], derive=False)
+        catalog.open(d / "c.duckdb").import_([write_motor_csv(d / "big.csv", N)], derive=False)
         copies = iter(range(RUNS))
 
         def first():  # a catalogue holding given values only: every derived value and flag is written

@@ -2,24 +2,69 @@
 
 Every method is one operation on the catalogue file (opened, used, closed), so a
 notebook and the command line can share one file.  DataFrames are in SI units with
-the canonical field names as columns.
+the canonical field names as columns, unless a method takes ``units`` (a display
+preset: ``si``, ``datasheet`` or ``imperial``).
+
+The command line mirrors this class: ``motorshelf CMD`` calls ``Catalog.CMD``
+(``stock take`` calls ``stock_take``; ``import``, a Python keyword, calls
+``import_``) and every option is named like the keyword argument it fills
+(``--keep-valid`` is ``keep_valid``; a repeatable option is named for one item:
+``--candidate`` fills ``candidates``).  ``tests/cli/test_mirror.py`` checks it.
 """
 from __future__ import annotations
 
-__all__ = ["Catalog", "open_catalog"]
+__all__ = ["Catalog", "RecordView", "open_catalog"]
 
-import difflib
+import warnings
 from pathlib import Path
+from typing import NamedTuple
 
-from .errors import InputError, NotFound, Problem
+from .errors import InputError, Problem
 from .inventory.methods import StockMethods
 from .store import Store, default_path, one
 
-_VIEWS = {"motors": "motors", "gearheads": "gearheads", "motor": "motors", "gearhead": "gearheads"}
+#: ``list``/``export`` kind → (view, record type); the view name never comes from a caller's text.
+_KINDS = {"motors": ("motors", "motor"), "gearheads": ("gearheads", "gearhead")}
+
+
+class RecordView(NamedTuple):
+    """One catalogue record as :meth:`Catalog.show` returns it."""
+
+    record_type: str
+    manufacturer: str
+    part_number: str
+    values: object   #: DataFrame, one row per schema field (see :meth:`Catalog.show`)
+    flags: list      #: the record's consistency flags (:class:`catalog.derive.Flag`)
+
+
+def _input_problem(key: str, message: str) -> InputError:
+    return InputError(f"{key}: {message}", [Problem(key, None, None, message)])
+
+
+def _kind(kind: str) -> tuple[str, str]:
+    if kind not in _KINDS:
+        raise _input_problem("kind", f"{kind!r} is not {' or '.join(_KINDS)}")
+    return _KINDS[kind]
+
+
+def _preset(units: str) -> str:
+    from .units import PRESETS
+
+    if units not in PRESETS:
+        raise _input_problem("units", f"{units!r} is not a units preset, expected one of {', '.join(PRESETS)}")
+    return units
+
+
+def _as_list(paths) -> list:
+    return [paths] if isinstance(paths, (str, Path)) else list(paths)
+
+
+def _renamed(old: str, new: str) -> None:
+    warnings.warn(f"Catalog.{old} is deprecated, use Catalog.{new}", DeprecationWarning, stacklevel=3)
 
 
 class Catalog(StockMethods):
-    """One catalogue file (the shelf methods ``stock_*`` and ``history``: :mod:`catalog.inventory.methods`).
+    """One catalogue file (the shelf methods ``stock_*``: :mod:`catalog.inventory.methods`).
 
     Parameters
     ----------
@@ -37,26 +82,30 @@ class Catalog(StockMethods):
         return f"Catalog({str(self.path)!r})"
 
     # -- import ----------------------------------------------------------------
-    def import_files(self, paths, mapping=None, keep_valid: bool = False, rejects=None,
-                     derive: bool = True, progress=None):
-        """Import datasheet files (CSV, XLSX, JSON, YAML); see :func:`catalog.ingest.import_files`."""
+    def import_(self, files, mapping=None, keep_valid: bool = False, rejects=None, derive: bool = True,
+                progress=None):
+        """Import datasheet files (CSV, XLSX, JSON, YAML) in one transaction; see :func:`catalog.ingest.import_files`.
+
+        ``mapping`` is a mapping profile for a supplier's own headers; with
+        ``keep_valid`` the valid rows are imported and the rejected ones written
+        to ``rejects`` (CSV).  Returns an :class:`~catalog.ingest.ImportReport`.
+        """
         from .ingest import import_files
 
-        paths = [paths] if isinstance(paths, (str, Path)) else list(paths)
-        return import_files(self.store, paths, mapping=mapping, keep_valid=keep_valid,
+        return import_files(self.store, _as_list(files), mapping=mapping, keep_valid=keep_valid,
                             rejects=rejects, derive=derive, progress=progress)
 
-    def validate_files(self, paths, mapping=None):
-        """Check files as an import would; writes nothing."""
+    def validate(self, files, mapping=None):
+        """Check datasheet files as :meth:`import_` would; writes nothing.  Returns an ImportReport."""
         from .ingest import validate_files
 
-        paths = [paths] if isinstance(paths, (str, Path)) else list(paths)
-        return validate_files(paths, mapping=mapping)
+        return validate_files(_as_list(files), mapping=mapping)
 
     # -- reading ---------------------------------------------------------------
-    def _view(self, name: str):
-        with self.store.read() as con:  # the view name comes from _VIEWS, never from a caller's text
-            return con.sql(f"SELECT * FROM {_VIEWS[name]} ORDER BY id").to_arrow_table().to_pandas()
+    def _view(self, kind: str):
+        view, _ = _kind(kind)
+        with self.store.read() as con:
+            return con.sql(f"SELECT * FROM {view} ORDER BY id").to_arrow_table().to_pandas()
 
     def motors(self):
         """Every motor as a pandas DataFrame, one SI column per canonical field."""
@@ -65,6 +114,19 @@ class Catalog(StockMethods):
     def gearheads(self):
         """Every gearhead as a pandas DataFrame, one SI column per canonical field."""
         return self._view("gearheads")
+
+    def list(self, kind: str, units: str = "datasheet"):
+        """The ``motors`` or ``gearheads`` as ``motorshelf list`` shows them.
+
+        The main columns (:data:`catalog.present.LIST_COLUMNS`) in the display
+        preset ``units``, each quantity header carrying its unit
+        (``stall_torque [mN·m]``).  :meth:`motors` and :meth:`gearheads` give every
+        column in SI.
+        """
+        from .present import LIST_COLUMNS, display_frame
+
+        _, rtype = _kind(kind)
+        return display_frame(self._view(kind), rtype, _preset(units), columns=LIST_COLUMNS[rtype])
 
     def sql(self, query: str, params=None):
         """Run a read-only SQL query; returns a pandas DataFrame."""
@@ -84,93 +146,80 @@ class Catalog(StockMethods):
                 raise InputError(f"sql: {first}", [Problem("sql", None, None, first)]) from None
 
     def ids(self) -> list[str]:
+        """Every record id of the catalogue, sorted."""
         with self.store.read() as con:
             return [r[0] for r in con.execute("SELECT record_id FROM records ORDER BY record_id").fetchall()]
 
-    def record(self, record_id: str):
-        """One record: (record_type, manufacturer, part_number, values DataFrame).
+    def show(self, record_id: str, units: str = "datasheet") -> RecordView:
+        """One record: every field with its value, unit and origin, and the record's consistency flags.
 
-        The values frame has one row per stored field with the SI value, the raw text
-        and unit, the origin (given or derived), the relation and its inputs, and the
-        source file and row.  An unknown id raises :class:`NotFound` with suggestions.
+        Returns a :class:`RecordView`.  Its ``values`` frame has one row per field
+        of the record type's schema (but ``id``, ``manufacturer`` and
+        ``part_number``, which the view holds), in schema order: ``value`` and
+        ``unit`` in the display preset ``units`` (numbers only), ``value_num``
+        in SI, ``value_text``, the raw text and unit as written, ``origin``
+        (given, derived, or empty for a field without a value), the relation and
+        its inputs of a derived value, and the source file and row of a given one.
+        An unknown id raises :class:`~catalog.errors.NotFound` with suggestions.
         """
-        with self.store.read() as con:
-            head = one(con.execute(
-                "SELECT record_type, manufacturer, part_number FROM records WHERE record_id = ?",
-                [record_id]))
-            if head is None:
-                ids = [r[0] for r in con.execute("SELECT record_id FROM records").fetchall()]
-                close = difflib.get_close_matches(record_id, ids, n=5, cutoff=0.5)
-                hint = f"; did you mean {', '.join(close)}?" if close else "; `motorshelf list motors` shows the ids"
-                raise NotFound(f"no record with id {record_id!r}{hint}", suggestions=close)
-            values = con.sql(
-                "SELECT field, value_num, value_text, raw_text, raw_unit, origin, relation, inputs, "
-                "source_file, source_row, batch_id FROM record_values WHERE record_id = $id",
-                params={"id": record_id}).to_arrow_table().to_pandas()
-        return head[0], head[1], head[2], values
+        from .derive import DEFAULT_TOLERANCE
+        from .inventory.ledger import require_record
 
-    def flags(self, tolerance: float | None = None, record_id: str | None = None) -> list:
-        """Consistency flags: over-determined relations whose residual exceeds ``tolerance``."""
-        from .derive import DEFAULT_TOLERANCE, Flag
-
-        tol = DEFAULT_TOLERANCE if tolerance is None else float(tolerance)
-        sql = ("SELECT record_id, relation, field, given, given_value, implied_value, residual FROM flags "
-               "WHERE abs(residual) > $tol")
-        params = {"tol": tol}
-        if record_id is not None:
-            sql += " AND record_id = $rid"
-            params["rid"] = record_id
+        _preset(units)
         with self.store.read() as con:
-            rows = con.execute(sql.replace("$tol", "?").replace("$rid", "?") + " ORDER BY record_id, relation",
-                               list(params.values())).fetchall()
-            out = []
-            for r in rows:  # the flagged few: show the given values of the relation's fields
-                names = [f.strip() for f in (r[3] or "").split(",") if f.strip()]
-                given = {}
-                if names:
-                    vals = con.execute(
-                        "SELECT field, value_num FROM record_values WHERE record_id = ? AND origin = 'given'",
-                        [r[0]]).fetchall()
-                    given = {f: v for f, v in vals if f in names}
-                text = ", ".join(f"{f}={given[f]:.6g}" for f in names if f in given)
-                out.append(Flag(r[0], r[1], r[2], text, r[4], r[5], r[6]))
-        return out
+            rtype, manufacturer, part_number = require_record(con, record_id)
+            stored = _stored_values(con, record_id)
+            flags = _flags(con, DEFAULT_TOLERANCE, record_id)
+        return RecordView(rtype, manufacturer, part_number, _shown_values(stored, rtype, units), flags)
+
+    def check(self, tolerance: float | None = None, record_id: str | None = None) -> list:
+        """Consistency flags: over-determined relations whose relative residual exceeds ``tolerance``.
+
+        ``tolerance`` defaults to :data:`catalog.derive.DEFAULT_TOLERANCE`;
+        ``record_id`` keeps one record's flags.  Returns a list of
+        :class:`catalog.derive.Flag`, by record and relation.
+        """
+        from .derive import DEFAULT_TOLERANCE
+
+        with self.store.read() as con:
+            return _flags(con, DEFAULT_TOLERANCE if tolerance is None else float(tolerance), record_id)
 
     def derive(self, tolerance: float | None = None):
-        """Recompute every derived value and consistency residual of the catalogue."""
+        """Recompute every derived value and consistency residual of the catalogue.
+
+        ``tolerance`` (default :data:`catalog.derive.DEFAULT_TOLERANCE`) is the
+        relative residual above which a relation is flagged.  Returns the
+        number of values derived and the flags.
+        """
         from .derive import DEFAULT_TOLERANCE, derive_in_store
 
+        tolerance = DEFAULT_TOLERANCE if tolerance is None else float(tolerance)
         with self.store.write() as con:
             batch = self.store.new_batch(con, "derive")
-            outcome = derive_in_store(con, batch, record_ids=None,
-                                      tolerance=DEFAULT_TOLERANCE if tolerance is None else tolerance)
+            outcome = derive_in_store(con, batch, record_ids=None, tolerance=tolerance)
         return outcome
 
-    def select(self, envelope, stock=None, **kw):
-        """Evaluate every motor × gear option against a load envelope; see :func:`catalog.select.select`.
+    def history(self, record_id: str, changed_only: bool = True):
+        """Every replaced value of a catalogue record: old and new value, when, and by which batch.
 
-        ``envelope`` is a TOML path or a parsed dict; returns a :class:`catalog.select.Selection`.
-        ``stock`` (``only``, ``prefer``, ``ignore``; default the envelope's ``ranking.stock``)
-        takes the shelf into account, see :mod:`catalog.inventory.selection`.
+        One row per value a re-import or a derivation replaced (``value_history``):
+        ``old_*`` the value replaced, ``new_*`` the one that followed it (the next
+        replaced one, else the current value, empty when the field was removed),
+        the batches and their files, and ``changed`` (false where a re-import
+        wrote the same value again; such rows are left out unless
+        ``changed_only`` is false).  ``frame.attrs["record"]`` holds the record's
+        type, maker, part number and its creating and last updating batch.
         """
-        from .inventory import select_with_stock, stock_mode
-        from .select import load_envelope, select
+        from .inventory.ledger import require_record
 
-        envelope = load_envelope(envelope)   # envelope mistakes first, before reading the file
-        kw.setdefault("motor_notes", self._flag_notes())
-        kw["catalog"] = self  # exports read the provenance of the values used from here
-        if stock_mode(envelope, stock) != "ignore":
-            return select_with_stock(self.motors(), self.gearheads(), envelope, self.stock_available(),
-                                     stock, **kw)
-        return select(self.motors(), self.gearheads(), envelope, **kw)
-
-    def _flag_notes(self) -> dict:
-        """motor id -> a warning for datasheets that contradict themselves (selection notes)."""
-        counts: dict = {}
-        for flag in self.flags():
-            counts[flag.record_id] = counts.get(flag.record_id, 0) + 1
-        return {rid: f"datasheet contradicts itself in {n} relation(s) (see motorshelf check)"
-                for rid, n in counts.items()}
+        with self.store.read() as con:
+            head = require_record(con, record_id)
+            frame = _value_history(con, record_id, head)
+        if changed_only:
+            kept = frame[frame["changed"]].reset_index(drop=True)
+            kept.attrs = frame.attrs
+            return kept
+        return frame
 
     def summary(self) -> dict:
         """Counts: suppliers, motors, gearheads, values, derived values."""
@@ -184,7 +233,226 @@ class Catalog(StockMethods):
         return {"suppliers": row[0], "motors": row[1], "gearheads": row[2],
                 "given_values": vals[0], "derived_values": vals[1]}
 
+    # -- selection and what comes out of it -------------------------------------
+    def select(self, envelope, top: int | None = None, stock: str | None = None, out=None,
+               units: str = "datasheet", **kw):
+        """Evaluate every motor × gear option against a load envelope; see :func:`catalog.select.select`.
+
+        ``envelope`` is a TOML path or a parsed dict; ``top`` the shortlist length
+        (default the envelope's ``ranking.top``).  ``stock`` (``only``, ``prefer``,
+        ``ignore``; default the envelope's ``ranking.stock``) takes the shelf into
+        account, see :mod:`catalog.inventory.selection`.  ``out`` also writes the
+        selection to a file (the format by its extension, values in ``units``;
+        see :func:`catalog.export.write_selection`).  Returns a
+        :class:`catalog.select.Selection`.
+        """
+        from .inventory import select_with_stock, stock_mode
+        from .select import load_envelope, select
+
+        if out is not None:
+            from .export.writers import check_out
+
+            check_out(out)   # a wrong file name is an input error before any work
+            _preset(units)
+        envelope = load_envelope(envelope)   # envelope mistakes first, before reading the file
+        kw.setdefault("motor_notes", self._flag_notes())
+        kw["catalog"] = self  # exports read the provenance of the values used from here
+        if stock_mode(envelope, stock) != "ignore":
+            sel = select_with_stock(self.motors(), self.gearheads(), envelope, self.stock_available(),
+                                    stock, top=top, **kw)
+        else:
+            sel = select(self.motors(), self.gearheads(), envelope, top=top, **kw)
+        if out is not None:
+            from .export.selection import write_selection
+
+            write_selection(sel, out, units=units, catalog=self)
+        return sel
+
+    def _flag_notes(self) -> dict:
+        """motor id -> a warning for datasheets that contradict themselves (selection notes)."""
+        counts: dict = {}
+        for flag in self.check():
+            counts[flag.record_id] = counts.get(flag.record_id, 0) + 1
+        return {rid: f"datasheet contradicts itself in {n} relation(s) (see motorshelf check)"
+                for rid, n in counts.items()}
+
+    def export(self, kind: str, out, where: str | None = None, params: dict | None = None,
+               units: str = "datasheet"):
+        """Write the ``motors`` or ``gearheads`` (all, or those matching ``where``) to the file ``out``.
+
+        The format follows the extension (:data:`catalog.export.formats.FORMATS`);
+        ``where`` is a SQL condition on the view (SI units) with named values in
+        ``params`` (``where="mass < $m", params={"m": 0.2}``); values in the
+        display preset ``units``.  Returns ``(path, number of records)``; see
+        :func:`catalog.export.export_catalogue`.
+        """
+        from .export.catalogue import export_catalogue
+        from .export.writers import check_out
+
+        _kind(kind)
+        path = check_out(out)
+        return export_catalogue(self, kind, path, where=where, params=params, units=_preset(units))
+
+    def report(self, envelope, out, top: int | None = None, plots: int | None = None, units: str = "datasheet",
+               side: str = "motor", stock: str | None = None):
+        """Select against ``envelope`` and write the self-contained HTML report to ``out``.
+
+        ``plots`` draws the first N shortlisted candidates (default all);
+        ``side`` is ``motor`` (motor shaft) or ``load`` (gear output).  Returns the
+        :class:`~catalog.select.Selection` (the report is written whether or not
+        a candidate passes); see :func:`catalog.export.write_report`.
+        """
+        from .export.formats import REPORT_EXTENSIONS
+        from .export.report import write_report
+        from .export.writers import check_out
+
+        path = check_out(out, REPORT_EXTENSIONS)
+        sel = self.select(envelope, top=top, stock=stock)
+        write_report(sel, path, units=_preset(units), catalog=self, side=side, plots=plots)
+        return sel
+
+    def plot(self, envelope, out, candidates=None, top: int | None = None, format: str = "png",  # noqa: A002
+             units: str = "datasheet", side: str = "motor", stock: str | None = None) -> list:
+        """Select against ``envelope`` and draw the speed-torque diagram of each shortlisted candidate.
+
+        One file per candidate (or per id of ``candidates``) and ``compare.<format>``
+        in the folder ``out``; ``format`` is one of
+        :data:`catalog.export.formats.IMAGE_FORMATS`.  Returns the paths written
+        (none when no candidate passes); see :func:`catalog.export.write_plots`.
+        """
+        from .export.figures import write_plots
+        from .export.formats import IMAGE_FORMATS
+
+        if format not in IMAGE_FORMATS:
+            raise _input_problem("format", f"{format!r} is not an image format, expected one of "
+                                           f"{', '.join(IMAGE_FORMATS)}")
+        sel = self.select(envelope, top=top, stock=stock)
+        return write_plots(sel, out, catalog=self, units=_preset(units), side=side, fmt=format,
+                           candidates=list(candidates) if candidates else None)
+
+    # -- old names -----------------------------------------------------------------
+    def import_files(self, paths, mapping=None, keep_valid: bool = False, rejects=None, derive: bool = True,
+                     progress=None):
+        """Deprecated name of :meth:`import_`."""
+        _renamed("import_files", "import_")
+        return self.import_(paths, mapping=mapping, keep_valid=keep_valid, rejects=rejects, derive=derive,
+                            progress=progress)
+
+    def validate_files(self, paths, mapping=None):
+        """Deprecated name of :meth:`validate`."""
+        _renamed("validate_files", "validate")
+        return self.validate(paths, mapping=mapping)
+
+    def record(self, record_id: str):
+        """Deprecated: ``(record_type, manufacturer, part_number, stored values)``; use :meth:`show`."""
+        _renamed("record", "show")
+        from .inventory.ledger import require_record
+
+        with self.store.read() as con:
+            head = require_record(con, record_id)
+            return (*head, _stored_values(con, record_id))
+
+    def flags(self, tolerance: float | None = None, record_id: str | None = None) -> list:
+        """Deprecated name of :meth:`check`."""
+        _renamed("flags", "check")
+        return self.check(tolerance=tolerance, record_id=record_id)
+
 
 def open_catalog(path=None, wait: float = 30.0) -> Catalog:
     """Open (or prepare to create) the catalogue file at ``path``."""
     return Catalog(path, wait=wait)
+
+
+# -- queries behind the methods ---------------------------------------------------------
+def _stored_values(con, record_id: str):
+    """The ``record_values`` rows of one record, every column but ``record_id``."""
+    return con.sql("SELECT * EXCLUDE (record_id) FROM record_values WHERE record_id = $id",
+                   params={"id": record_id}).to_arrow_table().to_pandas()
+
+
+def _shown_values(stored, record_type: str, units: str):
+    """One row per schema field of ``record_type`` (but the record's own columns), stored values
+    joined, numbers also in the display preset ``units`` (``value``, ``unit``)."""
+    import math
+
+    import pandas as pd
+
+    from .fields import fields_for
+    from .present import display_value
+
+    fields = {n: f for n, f in fields_for(record_type).items() if n not in ("id", "manufacturer", "part_number")}
+    frame = pd.DataFrame({"field": list(fields)}).merge(stored, on="field", how="left")
+    frame = frame.astype({"source_row": "Int64", "batch_id": "Int64"})   # whole numbers, empty where no value
+    shown, labels = [], []
+    for name, num in zip(frame["field"], frame["value_num"]):
+        f = fields[name]
+        if f.is_numeric and num is not None and not math.isnan(num):
+            v, label = display_value(float(num), f.dimension, units, field=f)
+        else:
+            v, label = math.nan, None
+        shown.append(v)
+        labels.append(label)
+    frame.insert(1, "value", shown)
+    frame.insert(2, "unit", labels)
+    return frame
+
+
+def _flags(con, tolerance: float, record_id: str | None) -> list:
+    """The flags above ``tolerance`` (of one record, or all), with the given values of each relation."""
+    from .derive import Flag
+
+    sql = ("SELECT record_id, relation, field, given, given_value, implied_value, residual FROM flags "
+           "WHERE abs(residual) > ?")
+    params: list = [tolerance]
+    if record_id is not None:
+        sql += " AND record_id = ?"
+        params.append(record_id)
+    rows = con.execute(sql + " ORDER BY record_id, relation", params).fetchall()
+    out = []
+    for r in rows:  # the flagged few: show the given values of the relation's fields
+        names = [f.strip() for f in (r[3] or "").split(",") if f.strip()]
+        given = {}
+        if names:
+            vals = con.execute(
+                "SELECT field, value_num FROM record_values WHERE record_id = ? AND origin = 'given'",
+                [r[0]]).fetchall()
+            given = {f: v for f, v in vals if f in names}
+        text = ", ".join(f"{f}={given[f]:.6g}" for f in names if f in given)
+        out.append(Flag(r[0], r[1], r[2], text, r[4], r[5], r[6]))
+    return out
+
+
+def _value_history(con, record_id: str, head: tuple):
+    """The replaced values of one record (see :meth:`Catalog.history`); ``head`` is its
+    (record_type, manufacturer, part_number)."""
+    batches = con.execute(
+        "SELECT r.created_batch, cb.started_at, cb.files, r.updated_batch, ub.started_at, ub.kind, ub.files "
+        "FROM records r LEFT JOIN batches cb ON cb.batch_id = r.created_batch "
+        "LEFT JOIN batches ub ON ub.batch_id = r.updated_batch WHERE r.record_id = ?", [record_id]).fetchall()[0]
+    frame = con.execute(
+        "WITH h AS (SELECT *, row_number() OVER (PARTITION BY field ORDER BY replaced_at, replaced_by_batch) "
+        "AS n FROM value_history WHERE record_id = ?), "
+        "nxt AS (SELECT h.field, h.n, coalesce(h2.value_num, CASE WHEN h2.field IS NULL THEN v.value_num END) "
+        "AS new_num, coalesce(h2.value_text, CASE WHEN h2.field IS NULL THEN v.value_text END) AS new_text, "
+        "coalesce(h2.raw_text, CASE WHEN h2.field IS NULL THEN v.raw_text END) AS new_raw, "
+        "coalesce(h2.raw_unit, CASE WHEN h2.field IS NULL THEN v.raw_unit END) AS new_unit, "
+        "coalesce(h2.origin, CASE WHEN h2.field IS NULL THEN v.origin END) AS new_origin "
+        "FROM h LEFT JOIN h h2 ON h2.field = h.field AND h2.n = h.n + 1 "
+        "LEFT JOIN record_values v ON v.record_id = ? AND v.field = h.field) "
+        "SELECT h.replaced_at, h.field, h.value_num AS old_value, h.value_text AS old_text, "
+        "h.raw_text AS old_raw, h.raw_unit AS old_unit, h.origin AS old_origin, "
+        "nxt.new_num AS new_value, nxt.new_text, nxt.new_raw, nxt.new_unit, nxt.new_origin, "
+        "h.batch_id AS old_batch, ob.started_at AS old_batch_at, ob.files AS old_files, "
+        "h.replaced_by_batch, nb.kind AS replaced_by_kind, nb.files AS replaced_by_files, "
+        "nb.user_name AS replaced_by_user "
+        "FROM h JOIN nxt USING (field, n) LEFT JOIN batches ob ON ob.batch_id = h.batch_id "
+        "LEFT JOIN batches nb ON nb.batch_id = h.replaced_by_batch ORDER BY h.replaced_at, h.field",
+        [record_id, record_id]).fetchdf()
+    same = lambda a, b: (a.isna() & b.isna()) | (a == b)  # noqa: E731
+    frame["changed"] = ~(same(frame["old_value"], frame["new_value"]) & same(frame["old_text"], frame["new_text"])
+                         & same(frame["old_raw"], frame["new_raw"]) & same(frame["old_origin"], frame["new_origin"]))
+    frame.attrs["record"] = {"id": record_id, "record_type": head[0], "manufacturer": head[1],
+                             "part_number": head[2], "created_batch": batches[0], "created_at": batches[1],
+                             "created_files": batches[2], "updated_batch": batches[3], "updated_at": batches[4],
+                             "updated_kind": batches[5], "updated_files": batches[6]}
+    return frame

@@ -43,7 +43,7 @@ def build(db: Path, folder: Path = SAMPLE, out=print) -> dict:
         path = _short(folder / entry["file"])
         mapping = _short(folder / entry["mapping"]) if entry.get("mapping") else None
         try:
-            report = cat.import_files([path], mapping=mapping)
+            report = cat.import_([path], mapping=mapping)
         except InputError as exc:
             rejected.append((path, exc.problems))
             out(f"  rejected {path}: {len(exc.problems)} problem(s)")

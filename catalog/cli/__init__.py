@@ -1,6 +1,8 @@
 """The ``motorshelf`` command: a thin mirror of the Python API.
 
-Each command parses its options, calls one API method and prints the result.
+Each command parses its options, calls the :class:`~catalog.api.Catalog` method of
+its name with options named like its keyword arguments, and prints the result.
+Shared options come from :mod:`catalog.cli.options`.
 User mistakes print one ``error: ...`` line per problem and exit with code 2.
 Heavy libraries are imported inside the commands, so ``--help`` starts fast.
 """
@@ -14,6 +16,7 @@ import sys
 import click
 
 from .. import __version__
+from .options import DB_OPTION, Group
 
 
 class Context:
@@ -47,9 +50,8 @@ def handle_errors(func):
     return wrapper
 
 
-@click.group(context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
-@click.option("--db", "db", type=click.Path(dir_okay=False), default=None, metavar="PATH",
-              help="Catalogue file (default: $MOTORSHELF_DB, else ./motorshelf.duckdb).")
+@click.group(cls=Group, context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
+@DB_OPTION
 @click.version_option(__version__, prog_name="motorshelf")
 @click.pass_context
 def cli(ctx, db):
@@ -59,7 +61,7 @@ def cli(ctx, db):
 
 
 from . import catalogue  # noqa: E402,F401  (registers the commands)
-from . import select_cmd  # noqa
+from . import select_cmd  # noqa: E402,F401
 from . import stock_cmd  # noqa: E402,F401
 from . import export_cmd  # noqa: E402,F401
 

@@ -1,4 +1,4 @@
-"""Catalogue commands: import, validate, list, show, sql."""
+"""Catalogue commands: import, validate, list, show, sql, derive, check, history."""
 from __future__ import annotations
 
 import sys
@@ -6,7 +6,8 @@ import sys
 import click
 
 from . import Context, cli, handle_errors
-from .output import FORMAT_OPTION, UNITS_OPTION, format_number, print_frame, echo
+from .options import FORMAT_OPTION, UNITS_OPTION
+from .output import echo, format_number, print_frame
 
 
 def _echo_problems(problems, prefix="error"):
@@ -37,7 +38,7 @@ def import_cmd(obj: Context, files, mapping, keep_valid, rejects):
 
     cat = obj.catalog()
     try:
-        report = cat.import_files(list(files), mapping=mapping, keep_valid=keep_valid, rejects=rejects)
+        report = cat.import_(list(files), mapping=mapping, keep_valid=keep_valid, rejects=rejects)
     except ImportRejected as exc:
         _print_report(exc.report, "importable")
         _echo_problems(exc.problems)
@@ -64,7 +65,7 @@ def import_cmd(obj: Context, files, mapping, keep_valid, rejects):
 @handle_errors
 def validate_cmd(obj: Context, files, mapping):
     """Check datasheet files as an import would, writing nothing."""
-    report = obj.catalog().validate_files(list(files), mapping=mapping)
+    report = obj.catalog().validate(list(files), mapping=mapping)
     _print_report(report, "valid")
     if report.problems:
         _echo_problems(report.problems)
@@ -81,12 +82,8 @@ def validate_cmd(obj: Context, files, mapping):
 @handle_errors
 def list_cmd(obj: Context, kind, units, fmt):
     """List the motors or gearheads of the catalogue (main columns, in display units)."""
-    from ..present import LIST_COLUMNS, display_frame
-
     cat = obj.catalog()
-    rtype = kind[:-1]
-    df = cat.motors() if kind == "motors" else cat.gearheads()
-    out = display_frame(df, rtype, units, columns=LIST_COLUMNS[rtype])
+    out = cat.list(kind, units=units)
     print_frame(out, fmt, title=f"{len(out)} {kind} in {cat.path}")
 
 
@@ -96,23 +93,15 @@ def list_cmd(obj: Context, kind, units, fmt):
 @click.pass_obj
 @handle_errors
 def show_cmd(obj: Context, record_id, units):
-    """Show every field of one record with its value, unit and origin."""
-    from ..fields import fields_for
-    from ..present import display_value
-
-    rtype, manufacturer, part_number, values = obj.catalog().record(record_id)
-    by_field = {row.field: row for row in values.itertuples(index=False)}
-    echo(f"{record_id}  ({rtype}: {manufacturer} {part_number})")
-    for name, f in fields_for(rtype).items():
-        if name in ("id", "manufacturer", "part_number"):
+    """Show every field of one record with its value, unit and origin, then its consistency flags."""
+    rec = obj.catalog().show(record_id, units=units)
+    echo(f"{record_id}  ({rec.record_type}: {rec.manufacturer} {rec.part_number})")
+    for row in rec.values.itertuples(index=False):
+        if not isinstance(row.origin, str):
+            echo(f"  {row.field:<36} -")
             continue
-        row = by_field.get(name)
-        if row is None:
-            echo(f"  {name:<36} -")
-            continue
-        if f.is_numeric:
-            v, label = display_value(row.value_num, f.dimension, units, field=f)
-            text = f"{format_number(v, 5)} {label}".strip()
+        if row.value == row.value:   # a number, in the display units
+            text = f"{format_number(row.value, 5)} {row.unit}".strip()
         else:
             text = str(row.value_text)
         if row.origin == "derived":
@@ -123,9 +112,8 @@ def show_cmd(obj: Context, record_id, units):
             unit = row.raw_unit if isinstance(row.raw_unit, str) and row.raw_unit and row.raw_unit not in raw else ""
             written = f"{raw!r}" + (f" [{unit}]" if unit else "")
             origin = f"given: {written} ({where})"
-        echo(f"  {name:<36} {text:<22} {origin}")
-    flags = obj.catalog().flags(record_id=record_id)
-    for flag in flags:
+        echo(f"  {row.field:<36} {text:<22} {origin}")
+    for flag in rec.flags:
         echo(f"flag: {flag}")
 
 
@@ -140,9 +128,19 @@ def sql_cmd(obj: Context, query, fmt):
     print_frame(df, fmt)
 
 
+TOLERANCE_OPTION = click.option(
+    "--tolerance", type=float, default=None, metavar="FRACTION",
+    help="Relative residual above which an over-determined relation is flagged (default 0.1: 10 %).")
+
+
+def _tolerance(tolerance):
+    from ..derive import DEFAULT_TOLERANCE
+
+    return DEFAULT_TOLERANCE if tolerance is None else tolerance
+
+
 @cli.command("derive")
-@click.option("--tolerance", type=float, default=0.10, show_default=True,
-              help="Relative residual above which an over-determined relation is flagged.")
+@TOLERANCE_OPTION
 @click.pass_obj
 @handle_errors
 def derive_cmd(obj: Context, tolerance):
@@ -150,14 +148,13 @@ def derive_cmd(obj: Context, tolerance):
     cat = obj.catalog()
     outcome = cat.derive(tolerance=tolerance)
     echo(f"{cat.path}: {outcome.derived} value(s) derived, {len(outcome.flags)} flag(s) "
-               f"above {tolerance:.0%}")
+         f"above {_tolerance(tolerance):.0%}")
     for flag in outcome.flags:
         echo(f"flag: {flag}")
 
 
 @cli.command("check")
-@click.option("--tolerance", type=float, default=0.10, show_default=True,
-              help="Relative residual above which an over-determined relation is flagged.")
+@TOLERANCE_OPTION
 @FORMAT_OPTION
 @click.pass_obj
 @handle_errors
@@ -165,16 +162,53 @@ def check_cmd(obj: Context, tolerance, fmt):
     """List every consistency flag; exit code 1 when any residual exceeds the tolerance."""
     import pandas as pd
 
-    flags = obj.catalog().flags(tolerance=tolerance)
-    df = pd.DataFrame([{
-        "id": f.record_id, "relation": f.relation, "field": f.field, "given_si": f.given_value,
-        "implied_si": f.implied_value, "residual": f.residual, "given_values_si": f.given,
-    } for f in flags], columns=["id", "relation", "field", "given_si", "implied_si", "residual", "given_values_si"])
+    flags = obj.catalog().check(tolerance=tolerance)
     if fmt == "table":
         if not flags:
-            echo(f"no flags above {tolerance:.0%}")
+            echo(f"no flags above {_tolerance(tolerance):.0%}")
         for f in flags:
             echo(f"flag: {f}")
     else:
-        print_frame(df, fmt)
+        print_frame(pd.DataFrame([{
+            "id": f.record_id, "relation": f.relation, "field": f.field, "given_si": f.given_value,
+            "implied_si": f.implied_value, "residual": f.residual, "given_values_si": f.given,
+        } for f in flags], columns=["id", "relation", "field", "given_si", "implied_si", "residual",
+                                    "given_values_si"]), fmt)
     sys.exit(1 if flags else 0)
+
+
+@cli.command("history")
+@click.argument("record_id", metavar="ID")
+@click.option("--changed-only/--all", "changed_only", default=True, show_default=True,
+              help="Only values that changed, or also values a re-import wrote again unchanged.")
+@FORMAT_OPTION
+@click.pass_obj
+@handle_errors
+def history_cmd(obj: Context, record_id, changed_only, fmt):
+    """Every change of catalogue record ID: old and new value, when, and by which batch (file)."""
+    df = obj.catalog().history(record_id, changed_only=changed_only)
+    rec = df.attrs["record"]
+    if fmt != "table":
+        print_frame(df, fmt)
+        return
+    when = lambda t: t.strftime("%Y-%m-%d %H:%M") if t is not None and t == t else "?"  # noqa: E731
+    echo(f"{record_id}  ({rec['record_type']}: {rec['manufacturer']} {rec['part_number']})")
+    echo(f"  created {when(rec['created_at'])} by batch {rec['created_batch']} ({rec['created_files'] or '-'}); "
+         f"last changed {when(rec['updated_at'])} by batch {rec['updated_batch']} ({rec['updated_kind']}"
+         + (f": {rec['updated_files']}" if rec["updated_files"] else "") + ")")
+    if df.empty:
+        hint = " (--all also shows values written again unchanged)" if changed_only else ""
+        echo("  no value was changed since" + hint)
+        return
+
+    def shown(num, text, raw, unit, origin):
+        written = "" if raw is None or raw != raw else f" ({raw}{' ' + unit if isinstance(unit, str) and unit else ''})"
+        value = f"{num:.6g}" if num is not None and num == num else (text if isinstance(text, str) else "-")
+        return value + (written or (f" ({origin})" if isinstance(origin, str) else ""))
+
+    for r in df.itertuples(index=False):
+        old = shown(r.old_value, r.old_text, r.old_raw, r.old_unit, r.old_origin)
+        new = shown(r.new_value, r.new_text, r.new_raw, r.new_unit, r.new_origin)
+        by = f"{r.replaced_by_kind} {r.replaced_by_files or ''}".strip()
+        echo(f"  {when(r.replaced_at)}  {r.field:<34} {old} -> {new}  "
+             f"[batch {r.old_batch} -> {r.replaced_by_batch}: {by}]")

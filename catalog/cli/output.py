@@ -1,18 +1,12 @@
-"""Shared output helpers of the CLI: tables in the terminal, CSV and JSON."""
+"""Shared output helpers of the CLI: tables in the terminal, CSV and JSON (the options: :mod:`.options`)."""
 from __future__ import annotations
 
-__all__ = ["FORMAT_OPTION", "UNITS_OPTION", "print_frame", "format_number", "safe_text", "echo"]
+__all__ = ["print_frame", "format_number", "safe_text", "echo"]
 
 import math
 import re
 
 import click
-
-FORMAT_OPTION = click.option("--format", "fmt", type=click.Choice(["table", "csv", "json"]), default="table",
-                             show_default=True, help="Output format.")
-UNITS_OPTION = click.option("--units", "units", type=click.Choice(["si", "datasheet", "imperial"]),
-                            default="datasheet", show_default=True, help="Units to display values in.")
-
 
 #: Characters a terminal acts on rather than shows: C0 controls but tab and newline, DEL, C1
 #: controls (escape sequences start with ESC or CSI), bidirectional overrides and isolates

@@ -8,7 +8,9 @@ import sys
 import click
 
 from . import Context, cli, handle_errors
-from .output import FORMAT_OPTION, print_frame, echo
+from ..export.formats import extension_list
+from .options import FORMAT_OPTION, OUT_UNITS_OPTION, TOP_OPTION
+from .output import echo, print_frame
 
 
 def display_shortlist(shortlist):
@@ -55,8 +57,7 @@ def display_shortlist(shortlist):
 
 @cli.command("select")
 @click.argument("envelope", type=click.Path(dir_okay=False))
-@click.option("--top", type=click.IntRange(min=1), default=None, metavar="N",
-              help="Shortlist length (default: the envelope's ranking.top, else 10).")
+@TOP_OPTION
 @FORMAT_OPTION
 @click.option("--explain", "explain", default=None, metavar="ID",
               help="Print every segment and every margin of one candidate instead of the shortlist.")
@@ -64,9 +65,8 @@ def display_shortlist(shortlist):
               help="The shelf: only stocked parts, stocked first, or ignore it (default: the envelope's ranking.stock).")
 @click.option("--out", "out", type=click.Path(dir_okay=False), default=None, metavar="FILE",
               help="Also write the shortlist (XLSX: with rejected, envelope, provenance, cautions) to FILE: "
-                   ".xlsx, .csv, .json or .parquet.")
-@click.option("--units", "units", type=click.Choice(["si", "datasheet", "imperial"]), default="datasheet",
-              show_default=True, help="Units of the --out file (Parquet always keeps SI).")
+                   f"{extension_list()}.")
+@OUT_UNITS_OPTION
 @click.pass_obj
 @handle_errors
 def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
@@ -74,20 +74,13 @@ def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
 
     Exit code 0 when at least one candidate passes, 1 when none does, 2 on input errors.
     """
-    if out:
-        from ..export.writers import format_for
-
-        format_for(out)   # a wrong extension is an input error before any work
     cat = obj.catalog()
-    sel = cat.select(envelope, top=top, stock=stock)
+    sel = cat.select(envelope, top=top, stock=stock, out=None if explain else out, units=units)
     if explain:
         echo(sel.explain(explain))
         return
     if out:
-        from ..export.selection import write_selection
-
-        written = write_selection(sel, out, units=units, catalog=cat)
-        echo(f"{written}: shortlist of {len(sel.shortlist)} written ({units} units)", err=fmt != "table")
+        echo(f"{out}: shortlist of {len(sel.shortlist)} written ({units} units)", err=fmt != "table")
     env = sel.envelope
     n_pass, n_rej = sel.counts
     if fmt != "table":

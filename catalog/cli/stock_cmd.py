@@ -1,24 +1,25 @@
-"""The shelf commands: ``stock ...`` (movements, reservations, lists, stock files) and ``history``.
+"""The shelf commands: ``stock ...`` (movements, reservations, lists, stock files).
 
-Each command parses its options, calls one ``Catalog.stock_*`` method and prints
-the result; quantities are validated by the API, so a wrong one is one
-``error:`` line like every other mistake.
+``stock CMD`` calls ``Catalog.stock_CMD`` with options named like its keyword
+arguments and prints the result; quantities are validated by the API, so a
+wrong one is one ``error:`` line like every other mistake.
 """
 from __future__ import annotations
 
-__all__ = ["stock", "history_cmd"]
+__all__ = ["stock"]
 
 import sys
 
 import click
 
 from . import Context, cli, handle_errors
-from .output import FORMAT_OPTION, print_frame, echo
+from .options import FORMAT_OPTION
+from .output import echo, print_frame
 
 _CONDITIONS = click.Choice(["new", "used", "needs-testing", "faulty"])
-_BY = click.option("--by", "person", default=None, metavar="PERSON", help="Who does it (free text).")
+_PERSON = click.option("--person", default=None, metavar="PERSON", help="Who does it (free text).")
 _REASON = click.option("--reason", default=None, metavar="TEXT", help="Why (free text).")
-_SERIAL = click.option("--serial", "serials", multiple=True, metavar="SN",
+_SERIAL = click.option("--serial", "serial_numbers", multiple=True, metavar="SN",
                        help="Serial or lot number of a piece (repeat, or separate with ';').")
 
 
@@ -49,16 +50,17 @@ def stock():
 @_where(required=True, default_condition="new")
 @_SERIAL
 @click.option("--notes", default=None, metavar="TEXT", help="Notes about the pieces (replace the item's notes).")
-@click.option("--min", "min_quantity", default=None, metavar="N",
+@click.option("--min-quantity", default=None, metavar="N",
               help="Reorder level of the record: `stock list --low` shows it below N usable pieces.")
-@_BY
+@_PERSON
 @_REASON
 @click.pass_obj
 @handle_errors
-def receive_cmd(obj: Context, record_id, quantity, location, condition, serials, notes, min_quantity, person, reason):
+def receive_cmd(obj: Context, record_id, quantity, location, condition, serial_numbers, notes, min_quantity, person,
+                reason):
     """Record QTY pieces of catalogue record ID arriving at --location."""
-    _done(obj.catalog().stock_receive(record_id, quantity, location, condition, ";".join(serials) or None, notes,
-                                      person, reason, min_quantity))
+    _done(obj.catalog().stock_receive(record_id, quantity, location, condition, ";".join(serial_numbers) or None,
+                                      notes, person, reason, min_quantity))
 
 
 @stock.command("take")
@@ -69,16 +71,17 @@ def receive_cmd(obj: Context, record_id, quantity, location, condition, serials,
 @click.option("--reservation", default=None, type=int, metavar="N",
               help="Take the pieces of reservation N (all that is left, or QTY of them).")
 @_SERIAL
-@_BY
+@_PERSON
 @_REASON
 @click.pass_obj
 @handle_errors
-def take_cmd(obj: Context, record_id, quantity, location, condition, project, reservation, serials, person, reason):
-    """Take QTY pieces of ID off the shelf for a --project (--by whom), or turn a --reservation into a take."""
+def take_cmd(obj: Context, record_id, quantity, location, condition, project, reservation, serial_numbers, person,
+             reason):
+    """Take QTY pieces of ID off the shelf for a --project (by a --person), or turn a --reservation into a take."""
     if reservation is not None and quantity is None and record_id is not None and record_id.isdigit():
         record_id, quantity = None, record_id  # `take --reservation 3 1`: the one argument is the quantity
     _done(obj.catalog().stock_take(record_id, quantity, location, condition, person, project, reason, reservation,
-                                   ";".join(serials) or None))
+                                   ";".join(serial_numbers) or None))
 
 
 @stock.command("return")
@@ -87,42 +90,42 @@ def take_cmd(obj: Context, record_id, quantity, location, condition, project, re
 @_where(required=True, default_condition="used")
 @click.option("--project", default=None, metavar="PROJECT", help="The project the pieces come back from.")
 @_SERIAL
-@_BY
+@_PERSON
 @_REASON
 @click.pass_obj
 @handle_errors
-def return_cmd(obj: Context, record_id, quantity, location, condition, project, serials, person, reason):
+def return_cmd(obj: Context, record_id, quantity, location, condition, project, serial_numbers, person, reason):
     """Put QTY pieces of ID back on the shelf at --location (condition used unless given)."""
     _done(obj.catalog().stock_return(record_id, quantity, location, condition, person, project, reason,
-                                     ";".join(serials) or None))
+                                     ";".join(serial_numbers) or None))
 
 
 @stock.command("move")
 @click.argument("record_id", metavar="ID")
 @click.argument("quantity", metavar="QTY")
-@click.option("--to", "to_location", required=True, metavar="LOCATION", help="Where the pieces go.")
-@click.option("--from", "from_location", default=None, metavar="LOCATION",
+@click.option("--to-location", required=True, metavar="LOCATION", help="Where the pieces go.")
+@click.option("--from-location", default=None, metavar="LOCATION",
               help="Where they lie now (needed when the record is stocked in several places).")
 @click.option("--condition", type=_CONDITIONS, default=None, help="Condition of the pieces now.")
 @click.option("--to-condition", type=_CONDITIONS, default=None,
               help="New condition, e.g. used after testing or faulty (default: unchanged).")
 @_SERIAL
-@_BY
+@_PERSON
 @_REASON
 @click.pass_obj
 @handle_errors
-def move_cmd(obj: Context, record_id, quantity, to_location, from_location, condition, to_condition, serials,
+def move_cmd(obj: Context, record_id, quantity, to_location, from_location, condition, to_condition, serial_numbers,
              person, reason):
     """Move QTY pieces of ID to another location (or re-classify them with --to-condition)."""
     _done(obj.catalog().stock_move(record_id, quantity, to_location, from_location, condition, to_condition,
-                                   person, reason, ";".join(serials) or None))
+                                   person, reason, ";".join(serial_numbers) or None))
 
 
 @stock.command("adjust")
 @click.argument("record_id", metavar="ID")
 @click.argument("counted", metavar="COUNTED")
 @_where()
-@_BY
+@_PERSON
 @_REASON
 @click.pass_obj
 @handle_errors
@@ -137,13 +140,13 @@ def adjust_cmd(obj: Context, record_id, counted, location, condition, person, re
 @click.option("--reason", required=True, metavar="TEXT", help="Why the pieces leave the books (required).")
 @_where()
 @_SERIAL
-@_BY
+@_PERSON
 @click.pass_obj
 @handle_errors
-def write_off_cmd(obj: Context, record_id, quantity, reason, location, condition, serials, person):
+def write_off_cmd(obj: Context, record_id, quantity, reason, location, condition, serial_numbers, person):
     """Take QTY pieces of ID off the books for good (scrapped, lost, given away)."""
     _done(obj.catalog().stock_write_off(record_id, quantity, reason, location, condition, person,
-                                        ";".join(serials) or None))
+                                        ";".join(serial_numbers) or None))
 
 
 @stock.command("reserve")
@@ -151,7 +154,7 @@ def write_off_cmd(obj: Context, record_id, quantity, reason, location, condition
 @click.argument("quantity", metavar="QTY")
 @click.option("--project", required=True, metavar="PROJECT", help="The project the pieces are held for.")
 @_where()
-@_BY
+@_PERSON
 @_REASON
 @click.pass_obj
 @handle_errors
@@ -161,32 +164,33 @@ def reserve_cmd(obj: Context, record_id, quantity, project, location, condition,
 
 
 @stock.command("release")
-@click.argument("reservation", metavar="RESERVATION")
+@click.argument("reservation_id", metavar="RESERVATION")
 @click.option("--quantity", default=None, metavar="N", help="Release only N pieces (default: all that are left).")
-@_BY
+@_PERSON
 @_REASON
 @click.pass_obj
 @handle_errors
-def release_cmd(obj: Context, reservation, quantity, person, reason):
+def release_cmd(obj: Context, reservation_id, quantity, person, reason):
     """Give the pieces of a reservation (its number, see `stock reservations`) back to everyone."""
     from ..errors import InputError
 
-    if not str(reservation).isdigit():
-        raise InputError(f"reservation {reservation!r} is not a reservation number, expected e.g. 3")
-    _done(obj.catalog().stock_release(int(reservation), quantity, person, reason))
+    if not str(reservation_id).isdigit():
+        raise InputError(f"reservation {reservation_id!r} is not a reservation number, expected e.g. 3")
+    _done(obj.catalog().stock_release(int(reservation_id), quantity, person, reason))
 
 
 @stock.command("reservations")
-@click.option("--all", "show_all", is_flag=True, help="Also list released and taken reservations.")
+@click.option("--open-only/--all", "open_only", default=True, show_default=True,
+              help="Only open reservations, or also released and taken ones.")
 @click.option("--project", default=None, metavar="PROJECT", help="Only this project's reservations.")
 @FORMAT_OPTION
 @click.pass_obj
 @handle_errors
-def reservations_cmd(obj: Context, show_all, project, fmt):
+def reservations_cmd(obj: Context, open_only, project, fmt):
     """List the open reservations (number, record, location, pieces left, project)."""
-    df = obj.catalog().stock_reservations(open_only=not show_all, project=project)
+    df = obj.catalog().stock_reservations(open_only=open_only, project=project)
     if fmt == "table" and df.empty:
-        echo("no open reservations" if not show_all else "no reservations")
+        echo("no open reservations" if open_only else "no reservations")
         return
     if fmt == "table":
         df = df.assign(reserved_at=df["reserved_at"].dt.strftime("%Y-%m-%d %H:%M"),
@@ -197,18 +201,16 @@ def reservations_cmd(obj: Context, show_all, project, fmt):
 @stock.command("list")
 @click.option("--location", default=None, metavar="TEXT", help="Only locations containing TEXT (ignoring case).")
 @click.option("--low", is_flag=True, help="Records with fewer usable pieces available than their reorder level.")
-@click.option("--all", "show_all", is_flag=True, help="Also items with nothing left on hand.")
+@click.option("--include-empty", is_flag=True, help="Also items with nothing left on hand.")
 @FORMAT_OPTION
 @click.pass_obj
 @handle_errors
-def list_cmd(obj: Context, location, low, show_all, fmt):
+def list_cmd(obj: Context, location, low, include_empty, fmt):
     """List the stock items: record, location, condition, on hand, reserved, available."""
-    cat = obj.catalog()
+    df = obj.catalog().stock_list(location, include_empty=include_empty, low=low)
     if low:
-        df = cat.stock_low(location)
         title = f"{len(df)} record(s) below their reorder level"
     else:
-        df = cat.stock_list(location, include_empty=show_all)
         if fmt == "table":
             df = df.drop(columns=["record_type", "manufacturer", "part_number", "last_movement"])
         title = f"{len(df)} stock item(s), {int(df['on_hand'].sum()) if len(df) else 0} piece(s)"
@@ -238,7 +240,7 @@ def stock_history_cmd(obj: Context, record_id, fmt):
 
 @stock.command("import")
 @click.argument("files", nargs=-1, required=True, type=click.Path())
-@_BY
+@_PERSON
 @click.pass_obj
 @handle_errors
 def import_cmd(obj: Context, files, person):
@@ -257,21 +259,21 @@ def import_cmd(obj: Context, files, person):
 
 
 @stock.command("count")
-@click.argument("file", type=click.Path())
-@click.option("--apply", "apply_", is_flag=True, help="Write the differences as adjust movements.")
+@click.argument("path", metavar="FILE", type=click.Path())
+@click.option("--apply", is_flag=True, help="Write the differences as adjust movements.")
 @click.option("--keep-unlisted", is_flag=True,
               help="Leave items the file does not list alone (default: at a counted location they count as 0).")
-@_BY
+@_PERSON
 @FORMAT_OPTION
 @click.pass_obj
 @handle_errors
-def count_cmd(obj: Context, file, apply_, keep_unlisted, person, fmt):
+def count_cmd(obj: Context, path, apply, keep_unlisted, person, fmt):  # noqa: A002
     """Reconcile a counted shelf (a stock file) with the records: show the differences, --apply writes them."""
     from ..errors import ImportRejected
 
     cat = obj.catalog()
     try:
-        diff, applied, batch = cat.stock_count(file, apply=apply_, keep_unlisted=keep_unlisted, person=person)
+        diff, applied, batch = cat.stock_count(path, apply=apply, keep_unlisted=keep_unlisted, person=person)
     except ImportRejected as exc:
         for p in exc.problems:
             echo(f"error: {p}", err=True)
@@ -282,48 +284,10 @@ def count_cmd(obj: Context, file, apply_, keep_unlisted, person, fmt):
         print_frame(shown, fmt)
         return
     if diff.empty:
-        echo(f"{file}: the count matches the records")
+        echo(f"{path}: the count matches the records")
         return
-    print_frame(shown, "table", title=f"{len(diff)} difference(s) between {file} and the records")
+    print_frame(shown, "table", title=f"{len(diff)} difference(s) between {path} and the records")
     if applied:
         echo(f"{cat.path}: {len(diff)} adjust movement(s) written (batch {batch})")
     else:
-        echo(f"nothing written; `motorshelf stock count {file} --apply` writes these as adjust movements")
-
-
-@cli.command("history")
-@click.argument("record_id", metavar="ID")
-@click.option("--all", "show_all", is_flag=True, help="Also values a re-import wrote again unchanged.")
-@FORMAT_OPTION
-@click.pass_obj
-@handle_errors
-def history_cmd(obj: Context, record_id, show_all, fmt):
-    """Every change of catalogue record ID: old and new value, when, and by which batch (file)."""
-    df = obj.catalog().history(record_id)
-    rec = df.attrs["record"]
-    if not show_all:
-        df = df[df["changed"]]
-    if fmt != "table":
-        print_frame(df, fmt)
-        return
-    when = lambda t: t.strftime("%Y-%m-%d %H:%M") if t is not None and t == t else "?"  # noqa: E731
-    echo(f"{record_id}  ({rec['record_type']}: {rec['manufacturer']} {rec['part_number']})")
-    echo(f"  created {when(rec['created_at'])} by batch {rec['created_batch']} ({rec['created_files'] or '-'}); "
-               f"last changed {when(rec['updated_at'])} by batch {rec['updated_batch']} ({rec['updated_kind']}"
-               + (f": {rec['updated_files']}" if rec["updated_files"] else "") + ")")
-    if df.empty:
-        hint = "" if show_all else " (--all also shows values written again unchanged)"
-        echo("  no value was changed since" + hint)
-        return
-
-    def shown(num, text, raw, unit, origin):
-        written = "" if raw is None or raw != raw else f" ({raw}{' ' + unit if isinstance(unit, str) and unit else ''})"
-        value = f"{num:.6g}" if num is not None and num == num else (text if isinstance(text, str) else "-")
-        return value + (written or (f" ({origin})" if isinstance(origin, str) else ""))
-
-    for r in df.itertuples(index=False):
-        old = shown(r.old_value, r.old_text, r.old_raw, r.old_unit, r.old_origin)
-        new = shown(r.new_value, r.new_text, r.new_raw, r.new_unit, r.new_origin)
-        by = f"{r.replaced_by_kind} {r.replaced_by_files or ''}".strip()
-        echo(f"  {when(r.replaced_at)}  {r.field:<34} {old} -> {new}  "
-                   f"[batch {r.old_batch} -> {r.replaced_by_batch}: {by}]")
+        echo(f"nothing written; `motorshelf stock count {path} --apply` writes these as adjust movements")

@@ -89,7 +89,7 @@ def provenance_table(values, record_types: dict, preset: str = "datasheet", name
 
     from ..fields import fields_for
     from ..units import get_dimension
-    from .columns import UNITLESS, Column, Table, _clean_number, text_column, unit_conversion
+    from .columns import UNITLESS, Column, Table, clean_number, text_column, unit_conversion
 
     values = values.reset_index(drop=True)
     n = len(values)
@@ -113,8 +113,8 @@ def provenance_table(values, record_types: dict, preset: str = "datasheet", name
             label = label or UNITLESS
         for k, p in enumerate(pos):
             i = int(p)
-            shown[i] = _clean_number(disp[k], f.kind == "integer")
-            si_vals[i] = _clean_number(nums[k])
+            shown[i] = clean_number(disp[k], f.kind == "integer")
+            si_vals[i] = clean_number(nums[k])
             unit[i] = label
             si_unit[i] = si_label or label
     src = [f"{a}:{int(b)}" if isinstance(a, str) and a and b == b and b is not None else (a or None)
@@ -176,23 +176,23 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
     kind : str
         ``motors`` or ``gearheads``.
     path : str or Path
-        ``.csv``, ``.xlsx``, ``.json`` or ``.parquet``.
+        The file; its extension picks the format (:data:`catalog.export.formats.FORMATS`).
     where : str, optional
         SQL condition on the view (SI units), e.g. ``"mass < $m AND mount = 'F22'"``.
     params : dict, optional
         Named parameters of ``where`` (``{"m": 0.2}``).
     units : str
-        Display preset ``si``, ``datasheet`` or ``imperial`` (Parquet is always SI).
+        Display preset ``si``, ``datasheet`` or ``imperial`` (a format that keeps SI ignores it).
 
     Returns
     -------
     (Path, int)
         The file written and the number of records in it.
     """
-    from .writers import format_for, write_tables
+    from .writers import format_for, units_written, write_tables_to_file
 
-    format_for(path)
+    format_for(path)   # a wrong extension is an input error before any work
     tables = catalogue_tables(cat, kind, where, params, units)
-    about = about_block(cat, units if format_for(path) != "parquet" else "si", export=kind,
+    about = about_block(cat, units_written(path, units), export=kind,
                         where=where or "", parameters=dict(params or {}), records=len(tables[0]))
-    return write_tables(tables, path, about), len(tables[0])
+    return write_tables_to_file(tables, path, about), len(tables[0])

@@ -13,7 +13,7 @@ Nothing here writes a file; :mod:`catalog.export.writers` does.
 from __future__ import annotations
 
 __all__ = ["Column", "Table", "table_from_frame", "quantity_column", "text_column",
-           "selection_dimensions", "unit_conversion", "UNITLESS", "PRICE_UNIT"]
+           "selection_dimensions", "unit_conversion", "clean_number", "UNITLESS", "PRICE_UNIT"]
 
 import math
 from dataclasses import dataclass, field
@@ -132,8 +132,9 @@ def _missing(v) -> bool:
         return True
 
 
-def _clean_number(v, integer: bool = False):
-    """A plain Python number, None for missing; display values rounded to 12 digits."""
+def clean_number(v, integer: bool = False):
+    """``v`` as a plain Python number for a table cell: None for missing, ``integer`` rounded to an int,
+    any other rounded to 12 significant digits (infinities kept)."""
     if _missing(v):
         return None
     f = float(v)
@@ -184,10 +185,10 @@ def quantity_column(name: str, si_values, dimension: str | None, preset: str = "
     si = np.asarray([np.nan if _missing(v) else float(v) for v in si_values], dtype=float)
     kind = "integer" if integer else "number"
     if dimension in (None, "count"):
-        vals = [_clean_number(v, integer) for v in si]
+        vals = [clean_number(v, integer) for v in si]
         return Column(name, kind, vals, list(vals), UNITLESS, UNITLESS, dimension)
     if dimension == "price":
-        vals = [_clean_number(v) for v in si]
+        vals = [clean_number(v) for v in si]
         return Column(name, kind, vals, list(vals), PRICE_UNIT, PRICE_UNIT, dimension)
     dim = get_dimension(dimension)
     convert, label = unit_conversion(dimension, preset, name)
@@ -196,8 +197,8 @@ def quantity_column(name: str, si_values, dimension: str | None, preset: str = "
     shown = convert(si)
     si_label = dim.display["si"][0] or UNITLESS
     label = label or UNITLESS
-    return Column(name, kind, [_clean_number(v, integer) for v in shown],
-                  [_clean_number(v) for v in si], label, si_label, dimension)
+    return Column(name, kind, [clean_number(v, integer) for v in shown],
+                  [clean_number(v) for v in si], label, si_label, dimension)
 
 
 def text_column(name: str, values, kind: str = "text") -> Column:

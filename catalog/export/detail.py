@@ -11,7 +11,7 @@ functions the selection ran, and returns a
 """
 from __future__ import annotations
 
-__all__ = ["CandidateDetail", "candidate_detail", "catalog_of", "records_used", "load_points"]
+__all__ = ["CandidateDetail", "candidate_detail", "catalog_of", "catalog_or_none", "records_used", "load_points"]
 
 import math
 from dataclasses import dataclass
@@ -32,9 +32,14 @@ class CandidateDetail:
     winding_temperature: float   # as the selection reports it (NaN unknown, inf runaway) [K]
 
 
+def catalog_or_none(selection, catalog=None):
+    """The catalogue a selection came from: ``catalog``, else ``selection.catalog``, else None."""
+    return catalog if catalog is not None else getattr(selection, "catalog", None)
+
+
 def catalog_of(selection, catalog=None):
-    """The catalogue a selection came from: ``catalog`` or ``selection.catalog``."""
-    cat = catalog if catalog is not None else getattr(selection, "catalog", None)
+    """The catalogue a selection came from (see :func:`catalog_or_none`); none → InputError."""
+    cat = catalog_or_none(selection, catalog)
     if cat is None:
         msg = "this needs the catalogue the selection came from: pass catalog=catalog.open(path)"
         raise InputError(msg, [Problem("catalog", None, None, msg)])

@@ -36,6 +36,7 @@ __all__ = ["MotorModel", "Conditions", "OperatingPoint", "characteristics", "plo
 import math
 from pathlib import Path
 
+from .formats import IMAGE_FORMATS
 from .lines import Conditions, MotorModel, OperatingPoint, characteristics, mirror, rms_point, to_side
 
 #: Colours of the diagram elements (our own scheme).
@@ -318,14 +319,13 @@ def plot_comparison(entries, units: str = "datasheet", side: str = "load", title
 
 
 def save_figure(fig, path, fmt: str | None = None) -> Path:
-    """Save ``fig`` as PNG or SVG (from the extension unless ``fmt``); returns the path."""
+    """Save ``fig`` in one of :data:`IMAGE_FORMATS` (from the extension unless ``fmt``); returns the path."""
     path = Path(path)
     fmt = fmt or path.suffix.lower().lstrip(".")
-    if fmt not in ("png", "svg"):
-        raise ValueError(f"plots are written as .png or .svg, got {path.name!r}")
+    if fmt not in IMAGE_FORMATS:
+        raise ValueError(f"plots are written as {' or '.join('.' + f for f in IMAGE_FORMATS)}, got {path.name!r}")
     import matplotlib
 
     with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": path.stem}):
-        fig.savefig(path, format=fmt, dpi=150 if fmt == "png" else None,
-                    metadata={"Date": None} if fmt == "svg" else None)
+        fig.savefig(path, format=fmt, **IMAGE_FORMATS[fmt])
     return path

@@ -37,7 +37,7 @@ _EXAMPLES = 8
 def _envelope(selection, units: str) -> str:
     """The envelope: one small table per group, the segments (or points) as one table."""
     from ..select.envelope import envelope_schema
-    from .selection import _key, _leaves, envelope_table
+    from .selection import envelope_leaves, envelope_table, key_text
 
     env = selection.envelope
     table = envelope_table(env, units)
@@ -45,13 +45,13 @@ def _envelope(selection, units: str) -> str:
                                                      table.column("value").values, table.column("unit").values,
                                                      table.column("meaning").values)))
     groups, out = {}, []
-    for path, _, _ in _leaves(env.raw, envelope_schema(), []):
-        key = _key(path)
+    for path, _, _ in envelope_leaves(env.raw, envelope_schema(), []):
+        key = key_text(path)
         if path[0] in ("name", "description"):
             continue
         if path[0] in ("cycle", "points") and any(isinstance(p, int) for p in path):
             continue
-        groups.setdefault(path[0], []).append((_key(path[1:]) or path[0], key))
+        groups.setdefault(path[0], []).append((key_text(path[1:]) or path[0], key))
     for group, keys in groups.items():
         rows = "".join(
             f'<tr><td title="{esc(shown[k][3])}">{esc(name)}</td><td>{esc(shown[k][0])}</td>'
@@ -208,13 +208,10 @@ def render_report(selection, units: str = "datasheet", catalog=None, side: str =
                   plots: int | None = None, compare: int = 4) -> str:
     """The report as an HTML string (see :func:`write_report`)."""
     from .catalogue import about_block
-    from .detail import candidate_detail, catalog_of, records_used
+    from .detail import candidate_detail, catalog_or_none, records_used
     from .selection import CAUTION, caution_lines, selection_tables
 
-    try:
-        cat = catalog_of(selection, catalog)
-    except Exception:
-        cat = None
+    cat = catalog_or_none(selection, catalog)
     tables = {t.name: t for t in selection_tables(selection, units, cat)}
     ids = list(selection.shortlist["candidate"])[: (len(selection.shortlist) if plots is None else plots)]
     details = []

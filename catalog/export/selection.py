@@ -4,11 +4,12 @@
 The XLSX holds every sheet (``shortlist``, ``rejected``, ``rejection counts``,
 ``envelope``, ``provenance``, ``cautions``, ``about``); JSON holds the same
 tables (the shortlist at the top level); CSV and Parquet hold the shortlist
-only (Parquet in SI).
+only (what each format holds: :data:`catalog.export.formats.FORMATS`).
 """
 from __future__ import annotations
 
-__all__ = ["CAUTION", "selection_tables", "write_selection", "envelope_table", "caution_lines"]
+__all__ = ["CAUTION", "selection_tables", "write_selection", "envelope_table", "caution_lines",
+           "envelope_leaves", "key_text"]
 
 #: The caution every selection export and report carries.
 CAUTION = ("Catalogue-based selection is a first pass: verify with a prototype under the real load and "
@@ -17,21 +18,28 @@ CAUTION = ("Catalogue-based selection is a first pass: verify with a prototype u
            "moving machinery needs guarding. Local codes and a qualified engineer have the last word.")
 
 
-def _leaves(node, sch, path):
-    """(key path, value as given, schema node) of every leaf of the envelope."""
+def envelope_leaves(node, sch, path):
+    """(key path, value as given, schema node) of every leaf of an envelope.
+
+    ``node`` is the envelope as parsed from its TOML file (or a part of it),
+    ``sch`` the matching node of the envelope schema, ``path`` the key path of
+    ``node`` (``[]`` at the top); lists of tables are walked item by item.
+    """
     if isinstance(node, dict):
         props = sch.get("properties", {})
         for k, v in node.items():
-            yield from _leaves(v, props.get(k, {}), path + [k])
+            yield from envelope_leaves(v, props.get(k, {}), path + [k])
     elif isinstance(node, list) and any(isinstance(v, dict) for v in node):
         items = sch.get("items", {})
         for i, v in enumerate(node):
-            yield from _leaves(v, items, path + [i])
+            yield from envelope_leaves(v, items, path + [i])
     else:
         yield path, node, sch
 
 
-def _key(path) -> str:
+def key_text(path) -> str:
+    """A key path as written in messages and sheets: ``["cycle", "segments", 2, "torque"]`` →
+    ``cycle.segments[2].torque``."""
     out = ""
     for p in path:
         out += f"[{p}]" if isinstance(p, int) else (f".{p}" if out else str(p))
@@ -42,11 +50,11 @@ def envelope_table(envelope, preset: str = "datasheet"):
     """The envelope as given: one row per input with its value in display units and in SI."""
     from ..select.envelope import envelope_schema
     from ..units import UnitError, get_dimension, parse_quantity
-    from .columns import UNITLESS, Column, Table, _clean_number, text_column, unit_conversion
+    from .columns import UNITLESS, Column, Table, clean_number, text_column, unit_conversion
 
     keys, given, shown, unit, si, si_unit, desc = [], [], [], [], [], [], []
-    for path, value, sch in _leaves(envelope.raw, envelope_schema(), []):
-        keys.append(_key(path))
+    for path, value, sch in envelope_leaves(envelope.raw, envelope_schema(), []):
+        keys.append(key_text(path))
         if isinstance(value, list):
             given.append(", ".join(map(str, value)))
         elif isinstance(value, bool):
@@ -63,15 +71,15 @@ def envelope_table(envelope, preset: str = "datasheet"):
                 v_si = None
         if v_si is None:
             if isinstance(value, (int, float)) and not isinstance(value, bool):
-                shown.append(_clean_number(value)); si.append(_clean_number(value))
+                shown.append(clean_number(value)); si.append(clean_number(value))
                 unit.append(UNITLESS); si_unit.append(UNITLESS)
             else:
                 shown.append(None); si.append(None); unit.append(None); si_unit.append(None)
             continue
         convert, label = unit_conversion(dim, preset)
         label = label or convert.label_for([v_si]) or UNITLESS
-        shown.append(_clean_number(float(convert([v_si])[0])))
-        si.append(_clean_number(v_si))
+        shown.append(clean_number(float(convert([v_si])[0])))
+        si.append(clean_number(v_si))
         unit.append(label)
         si_unit.append(get_dimension(dim).display["si"][0] or UNITLESS)
     cols = [text_column("key", keys), text_column("as given", given),
@@ -104,7 +112,7 @@ def caution_lines(selection, catalog=None) -> list[tuple[str, str]]:
     rows += [("note", n) for n in notes]
     if catalog is not None and len(selection.shortlist):
         used = set(selection.shortlist["motor"]) | set(selection.shortlist["gear"])
-        for flag in catalog.flags():
+        for flag in catalog.check():
             if flag.record_id in used:
                 rows.append(("consistency flag", str(flag)))
     elif catalog is None:
@@ -118,12 +126,9 @@ def selection_tables(selection, preset: str = "datasheet", catalog=None) -> list
 
     from .catalogue import provenance_table
     from .columns import Table, quantity_column, selection_dimensions, table_from_frame, text_column
-    from .detail import catalog_of
+    from .detail import catalog_or_none
 
-    try:
-        cat = catalog_of(selection, catalog)
-    except Exception:
-        cat = None
+    cat = catalog_or_none(selection, catalog)
     short = selection.shortlist
     dims = selection_dimensions()
     tables = [table_from_frame(short, "shortlist", preset, dimensions=dims, freeze_columns=2)]
@@ -167,7 +172,7 @@ def _about(selection, cat, preset) -> dict:
 
 
 def write_selection(selection, path, units: str = "datasheet", catalog=None):
-    """Write a selection to ``path`` (``.xlsx``, ``.csv``, ``.json`` or ``.parquet``).
+    """Write a selection to ``path``, the format by its extension (:data:`catalog.export.formats.FORMATS`).
 
     Parameters
     ----------
@@ -176,7 +181,7 @@ def write_selection(selection, path, units: str = "datasheet", catalog=None):
     path : str or Path
         Output file; the format follows the extension.
     units : str
-        Display preset ``si``, ``datasheet`` or ``imperial`` (Parquet is always SI).
+        Display preset ``si``, ``datasheet`` or ``imperial`` (a format that keeps SI ignores it).
     catalog : Catalog, optional
         The catalogue the selection came from, for the provenance sheet
         (default ``selection.catalog`` when the selection carries it).
@@ -185,15 +190,12 @@ def write_selection(selection, path, units: str = "datasheet", catalog=None):
     -------
     Path
     """
-    from .detail import catalog_of
-    from .writers import format_for, write_tables
+    from .detail import catalog_or_none
+    from .writers import format_for, units_written, write_tables_to_file
 
     fmt = format_for(path)
-    try:
-        cat = catalog_of(selection, catalog)
-    except Exception:
-        cat = None
+    cat = catalog_or_none(selection, catalog)
     tables = selection_tables(selection, units, cat)
-    return write_tables(tables, path, _about(selection, cat, "si" if fmt == "parquet" else units), fmt)
+    return write_tables_to_file(tables, path, _about(selection, cat, units_written(path, units)), fmt)
 
 

@@ -1,6 +1,9 @@
 """Writers: :class:`~catalog.export.columns.Table` lists to CSV, XLSX, JSON, Parquet.
 
-The format follows the file extension (:func:`format_for`).
+The format follows the file extension: :data:`catalog.export.formats.FORMATS`
+maps each extension to its writer here and says whether the format keeps SI.
+A new format is one entry there and its writer function here, called
+``writer(tables, path, about)``.
 
 * **XLSX** (the spreadsheet-safe format): one sheet per table plus ``about``;
   numbers are number cells with a number format per column, text is written
@@ -25,8 +28,8 @@ characters at all: they are written as their escapes (:func:`xlsx_text`).
 """
 from __future__ import annotations
 
-__all__ = ["FORMATS", "format_for", "write_tables", "neutralise", "xlsx_text", "number_format",
-           "FORMULA_PREFIXES"]
+__all__ = ["format_for", "check_out", "units_written", "write_tables_to_file", "write_xlsx", "write_csv",
+           "write_json", "write_parquet", "neutralise", "xlsx_text", "number_format", "FORMULA_PREFIXES"]
 
 import json
 import math
@@ -34,23 +37,13 @@ from copy import copy
 from pathlib import Path
 
 from ..errors import InputError, Problem
+from .formats import FORMATS, export_format
 
-#: File extension → format name.
-FORMATS = {".csv": "csv", ".xlsx": "xlsx", ".json": "json", ".parquet": "parquet"}
 #: First characters that make a spreadsheet read a text cell as a formula.
 FORMULA_PREFIXES = ("=", "+", "-", "@", "\t", "\r")
 
 _HEADER_FILL = "E4ECE8"   # pale sage
 _MAX_WIDTH = 48
-
-
-def format_for(path) -> str:
-    """The export format of ``path`` from its extension; unknown → InputError."""
-    ext = Path(path).suffix.lower()
-    if ext not in FORMATS:
-        msg = f"unknown file extension {ext or '(none)'!r}, expected one of {', '.join(FORMATS)}"
-        raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
-    return FORMATS[ext]
 
 
 def xlsx_text(value) -> str:
@@ -109,7 +102,8 @@ def _csv_cell(col, v) -> str:
     return neutralise(str(v))
 
 
-def _write_csv(tables, path: Path) -> None:
+def write_csv(tables, path: Path, about: dict) -> None:  # noqa: ARG001 (CSV has no place for it)
+    """The first of ``tables`` as CSV (RFC 4180, UTF-8, CRLF); ``about`` has no place in CSV."""
     import csv
 
     table = tables[0]
@@ -132,7 +126,8 @@ def _json_table(table) -> dict:
             "records": [{k: _json_value(v) for k, v in r.items()} for r in table.records()]}
 
 
-def _write_json(tables, path: Path, about: dict) -> None:
+def write_json(tables, path: Path, about: dict) -> None:
+    """``{"about", "table", "units", "records", "tables"}``: the first table at the top, the others under ``tables``."""
     doc = {"about": about, "table": tables[0].name, **_json_table(tables[0])}
     if len(tables) > 1:
         doc["tables"] = {t.name: _json_table(t) for t in tables[1:]}
@@ -140,7 +135,8 @@ def _write_json(tables, path: Path, about: dict) -> None:
 
 
 # -- Parquet ---------------------------------------------------------------------
-def _write_parquet(tables, path: Path, about: dict) -> None:
+def write_parquet(tables, path: Path, about: dict) -> None:
+    """The first of ``tables`` in SI, the unit in each column's field metadata, ``about`` in the file metadata."""
     import pyarrow as pa
     import pyarrow.parquet as pq
 
@@ -253,7 +249,8 @@ def _xlsx_sheet(wb, table, used: set) -> None:
     ws.row_dimensions[1].height = 32 if any(len(c.header) > 18 for c in table.columns) else 18
 
 
-def _write_xlsx(tables, path: Path, about: dict) -> None:
+def write_xlsx(tables, path: Path, about: dict) -> None:
+    """One sheet per table and an ``about`` sheet (spreadsheet-safe text cells, number formats, filters)."""
     from openpyxl import Workbook
 
     from .columns import Table, text_column
@@ -279,8 +276,10 @@ def _about_text(v) -> str:
     return "" if v is None else str(v)
 
 
-def write_tables(tables, path, about: dict | None = None, fmt: str | None = None) -> Path:
-    """Write ``tables`` (a list of :class:`Table`, the main one first) to ``path``.
+def write_tables_to_file(tables, path, about: dict | None = None, fmt: str | None = None) -> Path:
+    """Write ``tables`` (a list of :class:`Table`, the main one first) to the file ``path``.
+
+    (Writing imported records into the catalogue is :func:`catalog.ingest.writer.write_tables`.)
 
     Parameters
     ----------
@@ -292,7 +291,7 @@ def write_tables(tables, path, about: dict | None = None, fmt: str | None = None
         Run details (program version, catalogue, preset, date ...): the XLSX
         ``about`` sheet, the JSON ``about`` object, Parquet file metadata.
     fmt : str, optional
-        ``csv``, ``xlsx``, ``json`` or ``parquet``; default from the extension.
+        A format name of :data:`FORMATS` (``xlsx``, ``csv``, ...); default from the extension.
 
     Returns
     -------
@@ -300,25 +299,57 @@ def write_tables(tables, path, about: dict | None = None, fmt: str | None = None
         The file written.
     """
     path = Path(path)
-    fmt = fmt or format_for(path)
+    fmt = export_format(fmt or format_for(path))
     about = dict(about or {})
     if not path.parent.exists():
-        msg = f"folder {str(path.parent)!r} does not exist"
+        msg = _missing_folder(path)
         raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
     tmp = path.with_name(f".{path.name}.part")
     try:
-        if fmt == "csv":
-            _write_csv(tables, tmp)
-        elif fmt == "json":
-            _write_json(tables, tmp, about)
-        elif fmt == "parquet":
-            _write_parquet(tables, tmp, about)
-        elif fmt == "xlsx":
-            _write_xlsx(tables, tmp, about)
-        else:
-            raise ValueError(f"unknown format {fmt!r}")
+        globals()[fmt.writer](tables, tmp, about)   # the writer the format table names, in this module
         tmp.replace(path)
     finally:
         if tmp.exists():
             tmp.unlink()
     return path
+
+
+def _unknown_extension(path, extensions) -> str:
+    ext = Path(path).suffix.lower()
+    return f"unknown file extension {ext or '(none)'!r}, expected one of {', '.join(extensions)}"
+
+
+def _missing_folder(path: Path) -> str:
+    return f"folder {str(path.parent)!r} does not exist"
+
+
+def format_for(path) -> str:
+    """The export format name of ``path`` from its extension; unknown → InputError."""
+    ext = Path(path).suffix.lower()
+    if ext not in FORMATS:
+        msg = _unknown_extension(path, FORMATS)
+        raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
+    return FORMATS[ext].name
+
+
+def units_written(path, units: str) -> str:
+    """The units a file at ``path`` is written in: ``si`` for a format that keeps SI, else ``units``."""
+    return "si" if FORMATS[Path(path).suffix.lower()].keeps_si else units
+
+
+def check_out(path, extensions=None) -> Path:
+    """``path`` checked as an output file before any work: a known extension, an existing folder.
+
+    ``extensions`` defaults to those of :data:`FORMATS`.  A mistake is an
+    :class:`~catalog.errors.InputError` on ``--out`` (the option of every
+    command that writes a file, and the keyword of the matching API method).
+    """
+    out = Path(path)
+    extensions = tuple(FORMATS if extensions is None else extensions)
+    if out.suffix.lower() not in extensions:
+        msg = f"{path}: {_unknown_extension(path, extensions)}"
+    elif not out.parent.exists():
+        msg = f"{path}: {_missing_folder(out)}"
+    else:
+        return out
+    raise InputError(f"--out: {msg}", [Problem("--out", None, None, msg)])

@@ -1,4 +1,4 @@
-"""The in-house shelf: stock items, movements, reservations, stock files, history.
+"""The in-house shelf: stock items, movements, reservations, stock files.
 
 Tables (layout version 2, :mod:`catalog.store.schema`): ``stock_items`` (one
 per catalogue record, location and condition; serial numbers and notes),
@@ -10,19 +10,19 @@ item, all derived from the movements).
 Modules: :mod:`.ledger` (items, balance checks, bulk posting),
 :mod:`.operations` (receive, take, return, move, adjust, write off, reserve,
 release: one transaction each), :mod:`.stockfile` (stock file import and count
-reconciliation), :mod:`.queries` (lists, history, reservations, catalogue value
-history, :func:`available_stock` for selection), :mod:`.selection` (stocked-only
+reconciliation), :mod:`.queries` (lists, movement history, reservations,
+:func:`available_stock` for selection), :mod:`.selection` (stocked-only
 or stocked-first selection).
 """
 from __future__ import annotations
 
 from .ledger import CONDITIONS, KINDS, USABLE
 from .operations import StockChange, adjust, move, receive, release, reserve, return_, take, write_off
-from .queries import available_stock, low_stock, record_history, reservations, stock_history, stock_list
+from .queries import available_stock, low_stock, reservations, stock_history, stock_list
 from .selection import STOCK_COLUMNS, STOCK_MODES, select_with_stock, stock_columns, stock_mode
 from .stockfile import count_stock, import_stock, read_stock_files
 
 __all__ = ["CONDITIONS", "KINDS", "USABLE", "StockChange", "receive", "take", "return_", "move", "adjust",
-           "write_off", "reserve", "release", "available_stock", "low_stock", "record_history", "reservations",
+           "write_off", "reserve", "release", "available_stock", "low_stock", "reservations",
            "stock_history", "stock_list", "STOCK_COLUMNS", "STOCK_MODES", "select_with_stock", "stock_columns",
            "stock_mode", "count_stock", "import_stock", "read_stock_files"]

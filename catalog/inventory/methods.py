@@ -1,4 +1,4 @@
-"""The shelf part of the Python API: ``Catalog.stock_*`` and ``Catalog.history``.
+"""The shelf part of the Python API: ``Catalog.stock_*`` (the ``motorshelf stock ...`` commands).
 
 :class:`StockMethods` is a base class of :class:`catalog.api.Catalog`; every
 method is one operation on the catalogue file (``self.store``), writes in one
@@ -11,7 +11,7 @@ __all__ = ["StockMethods"]
 
 
 class StockMethods:
-    """Stock items, movements, reservations, stock files and value history of a catalogue."""
+    """Stock items, movements, reservations and stock files of a catalogue."""
 
     store = None  # set by Catalog.__init__
 
@@ -75,7 +75,7 @@ class StockMethods:
         return release(self.store, reservation_id, quantity, person, reason, at)
 
     # -- stock files -----------------------------------------------------------
-    def stock_import(self, paths, person=None, reason=None, at=None):
+    def stock_import(self, files, person=None, reason=None, at=None):
         """Receive every row of stock files (schema ``stock``) in one transaction.
 
         Returns ``(rows, pieces, batch_id)``; a file with any problem raises
@@ -85,8 +85,8 @@ class StockMethods:
 
         from . import import_stock
 
-        paths = [paths] if isinstance(paths, (str, Path)) else list(paths)
-        return import_stock(self.store, paths, person=person, reason=reason, at=at)
+        files = [files] if isinstance(files, (str, Path)) else list(files)
+        return import_stock(self.store, files, person=person, reason=reason, at=at)
 
     def stock_count(self, path, apply: bool = False, keep_unlisted: bool = False, person=None):
         """Reconcile a counted shelf file; see :func:`catalog.inventory.count_stock`.
@@ -98,10 +98,16 @@ class StockMethods:
         return count_stock(self.store, path, apply=apply, keep_unlisted=keep_unlisted, person=person)
 
     # -- reading -----------------------------------------------------------------
-    def stock_list(self, location=None, record_id=None, include_empty: bool = False):
-        """Stock items with on hand, reserved and available pieces (``location``: text it contains)."""
+    def stock_list(self, location=None, record_id=None, include_empty: bool = False, low: bool = False):
+        """Stock items with on hand, reserved and available pieces (``location``: text it contains).
+
+        ``include_empty`` also lists items with nothing left on hand; ``low``
+        lists instead the records below their reorder level (:meth:`stock_low`).
+        """
         from . import stock_list
 
+        if low:
+            return self.stock_low(location)
         with self.store.read() as con:
             return stock_list(con, location, record_id, include_empty)
 
@@ -132,10 +138,3 @@ class StockMethods:
 
         with self.store.read() as con:
             return available_stock(con)
-
-    def history(self, record_id):
-        """Every replaced value of a catalogue record with old and new value, time and batch."""
-        from . import record_history
-
-        with self.store.read() as con:
-            return record_history(con, record_id)

@@ -164,7 +164,7 @@ def take(store, record_id=None, quantity=None, location=None, condition=None, pe
                 raise InputError("take needs a record id and a quantity (or --reservation N)")
             q = check_quantity(quantity)
             if not person or not project:
-                raise InputError("take needs who takes the pieces (--by) and for which project (--project)")
+                raise InputError("take needs who takes the pieces (--person) and for which project (--project)")
             item = find_item(con, record_id, location, condition, usable_only=True, verb="take")
             if q > item["available"]:
                 held = f", {item['reserved']} reserved for others" if item["reserved"] else ""

@@ -1,12 +1,12 @@
 """Reading the shelf: stock lists, low stock, movement history, reservations,
-the value history of catalogue records, and what selection may use.
+and what selection may use.
 
 Every function takes an open (read-only is enough) connection and returns a
 pandas DataFrame; quantities are counts of pieces.
 """
 from __future__ import annotations
 
-__all__ = ["stock_list", "low_stock", "stock_history", "reservations", "record_history", "available_stock"]
+__all__ = ["stock_list", "low_stock", "stock_history", "reservations", "available_stock"]
 
 from .ledger import USABLE, require_record
 
@@ -76,49 +76,6 @@ def reservations(con, open_only: bool = True, project: str | None = None):
            "AND (? IS NULL OR lower(project) = lower(?)) GROUP BY reservation_id "
            "HAVING NOT ? OR sum(reserved_change) > 0 ORDER BY reservation_id")
     return _frame(con, sql, [project, project, bool(open_only)])
-
-
-def record_history(con, record_id: str):
-    """Every replaced value of a catalogue record: what it was, what replaced it, when and by which batch.
-
-    Built on ``value_history`` (values moved aside by a re-import or an edit) and
-    ``batches``; ``new_*`` is the value that followed (the next replaced one, else
-    the current value, empty when the field was removed); ``changed`` is false
-    where a re-import wrote the same value again.  ``frame.attrs["record"]`` holds
-    the record's creating and last updating batch.
-    """
-    rtype, manufacturer, part_number = require_record(con, record_id)
-    head = con.execute(
-        "SELECT r.created_batch, cb.started_at, cb.files, r.updated_batch, ub.started_at, ub.kind, ub.files "
-        "FROM records r LEFT JOIN batches cb ON cb.batch_id = r.created_batch "
-        "LEFT JOIN batches ub ON ub.batch_id = r.updated_batch WHERE r.record_id = ?", [record_id]).fetchall()[0]
-    frame = _frame(con, (
-        "WITH h AS (SELECT *, row_number() OVER (PARTITION BY field ORDER BY replaced_at, replaced_by_batch) "
-        "AS n FROM value_history WHERE record_id = ?), "
-        "nxt AS (SELECT h.field, h.n, coalesce(h2.value_num, CASE WHEN h2.field IS NULL THEN v.value_num END) "
-        "AS new_num, coalesce(h2.value_text, CASE WHEN h2.field IS NULL THEN v.value_text END) AS new_text, "
-        "coalesce(h2.raw_text, CASE WHEN h2.field IS NULL THEN v.raw_text END) AS new_raw, "
-        "coalesce(h2.raw_unit, CASE WHEN h2.field IS NULL THEN v.raw_unit END) AS new_unit, "
-        "coalesce(h2.origin, CASE WHEN h2.field IS NULL THEN v.origin END) AS new_origin "
-        "FROM h LEFT JOIN h h2 ON h2.field = h.field AND h2.n = h.n + 1 "
-        "LEFT JOIN record_values v ON v.record_id = ? AND v.field = h.field) "
-        "SELECT h.replaced_at, h.field, h.value_num AS old_value, h.value_text AS old_text, "
-        "h.raw_text AS old_raw, h.raw_unit AS old_unit, h.origin AS old_origin, "
-        "nxt.new_num AS new_value, nxt.new_text, nxt.new_raw, nxt.new_unit, nxt.new_origin, "
-        "h.batch_id AS old_batch, ob.started_at AS old_batch_at, ob.files AS old_files, "
-        "h.replaced_by_batch, nb.kind AS replaced_by_kind, nb.files AS replaced_by_files, "
-        "nb.user_name AS replaced_by_user "
-        "FROM h JOIN nxt USING (field, n) LEFT JOIN batches ob ON ob.batch_id = h.batch_id "
-        "LEFT JOIN batches nb ON nb.batch_id = h.replaced_by_batch ORDER BY h.replaced_at, h.field"),
-        [record_id, record_id])
-    same = lambda a, b: (a.isna() & b.isna()) | (a == b)  # noqa: E731
-    frame["changed"] = ~(same(frame["old_value"], frame["new_value"]) & same(frame["old_text"], frame["new_text"])
-                         & same(frame["old_raw"], frame["new_raw"]) & same(frame["old_origin"], frame["new_origin"]))
-    frame.attrs["record"] = {"id": record_id, "record_type": rtype, "manufacturer": manufacturer,
-                             "part_number": part_number, "created_batch": head[0], "created_at": head[1],
-                             "created_files": head[2], "updated_batch": head[3], "updated_at": head[4],
-                             "updated_kind": head[5], "updated_files": head[6]}
-    return frame
 
 
 def available_stock(con, conditions=USABLE):

@@ -23,7 +23,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-__all__ = ["vectorised", "as_float_array"]
+__all__ = ["vectorised"]
 
 
 def _is_series(value: Any) -> bool:
@@ -77,8 +77,3 @@ def vectorised(function: Callable) -> Callable:
         return _finish(result, template)
 
     return wrapper
-
-
-def as_float_array(value: Any) -> np.ndarray:
-    """Return ``value`` as a float ndarray (helper for array-only code paths)."""
-    return np.asarray(value, dtype=float)

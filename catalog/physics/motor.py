@@ -46,8 +46,6 @@ __all__ = [
     "motor_constant",
 ]
 
-_SOURCE = "Textbook chapter on DC machines (armature and torque equations)."
-
 
 @vectorised
 def torque_constant_from_back_emf_constant(back_emf_constant):

@@ -43,7 +43,7 @@ def run(*args):
 
 
 def test_derived_rows_carry_relation_and_inputs(cat, csv_file):
-    report = cat.import_files([csv_file])
+    report = cat.import_([csv_file])
     v = rows(cat, "testwerk-ta-1")
     given = v[v.origin == "given"]
     derived = v[v.origin == "derived"]
@@ -77,7 +77,7 @@ def test_derived_rows_carry_relation_and_inputs(cat, csv_file):
 
 
 def test_derive_twice_leaves_record_values_identical(cat, csv_file):
-    cat.import_files([csv_file])
+    cat.import_([csv_file])
     first = cat.derive()
     before = cat.sql(VALUE_SQL)
     flags_sql = "SELECT * EXCLUDE (batch_id) FROM flags ORDER BY record_id, relation"
@@ -92,9 +92,9 @@ def test_derive_twice_leaves_record_values_identical(cat, csv_file):
 
 
 def test_reimport_with_new_given_value_recomputes_dependents(cat, write):
-    first = cat.import_files([write("a.csv", CONSISTENT)])
+    first = cat.import_([write("a.csv", CONSISTENT)])
     assert rows(cat, "testwerk-ta-1").loc["stall_current", "value_num"] == 12.0
-    second = cat.import_files([write("b.csv", CONSISTENT.replace("24,2,20,50", "24,3,20,50"))])
+    second = cat.import_([write("b.csv", CONSISTENT.replace("24,2,20,50", "24,3,20,50"))])
     assert second.updated == 1 and second.created == 0
     v = rows(cat, "testwerk-ta-1")
     assert v.loc["terminal_resistance", "value_num"] == 3.0
@@ -108,10 +108,10 @@ def test_reimport_with_new_given_value_recomputes_dependents(cat, write):
 
 
 def test_partial_reimport_adds_a_given_value_and_derives_from_it(cat, write):
-    cat.import_files([write("a.csv", "manufacturer,part_number,nominal_voltage [V],terminal_resistance [Ohm]\n"
+    cat.import_([write("a.csv", "manufacturer,part_number,nominal_voltage [V],terminal_resistance [Ohm]\n"
                                      "Testwerk Antriebe,TA-1,24,2\n")])
     assert "no_load_speed" not in rows(cat, "testwerk-ta-1").index
-    cat.import_files([write("b.csv", "manufacturer,part_number,torque_constant [mNm/A],no_load_current [mA]\n"
+    cat.import_([write("b.csv", "manufacturer,part_number,torque_constant [mNm/A],no_load_current [mA]\n"
                                      "Testwerk Antriebe,TA-1,20,50\n")])
     v = rows(cat, "testwerk-ta-1")
     assert v.loc["nominal_voltage", "origin"] == "given" and v.loc["nominal_voltage", "value_num"] == 24.0
@@ -119,7 +119,7 @@ def test_partial_reimport_adds_a_given_value_and_derives_from_it(cat, write):
 
 
 def test_given_value_is_never_overwritten(cat, csv_file, write):
-    cat.import_files([csv_file])
+    cat.import_([csv_file])
     for _ in range(2):  # after the import and after an explicit derive
         v = rows(cat, "testwerk-ta-2")
         row = v.loc["stall_current"]
@@ -129,7 +129,7 @@ def test_given_value_is_never_overwritten(cat, csv_file, write):
         cat.derive()
     # a value derived before becomes given (and wins) when a later file states it
     assert rows(cat, "testwerk-ta-1").loc["stall_torque", "origin"] == "derived"
-    cat.import_files([write("c.csv", "manufacturer,part_number,stall_torque [mNm]\nTestwerk Antriebe,TA-1,250\n")])
+    cat.import_([write("c.csv", "manufacturer,part_number,stall_torque [mNm]\nTestwerk Antriebe,TA-1,250\n")])
     cat.derive()
     row = rows(cat, "testwerk-ta-1").loc["stall_torque"]
     assert (row.value_num, row.origin) == (0.25, "given")
@@ -138,13 +138,13 @@ def test_given_value_is_never_overwritten(cat, csv_file, write):
 
 def test_cli_check_exit_codes_and_flag_line(tmp_path, write):
     good = tmp_path / "good.duckdb"
-    catalog.open(good).import_files([write("a.csv", CONSISTENT)])
+    catalog.open(good).import_([write("a.csv", CONSISTENT)])
     r = run("--db", good, "check")
     assert r.exit_code == 0, r.output
     assert r.output.strip() == "no flags above 10%"
 
     bad = tmp_path / "bad.duckdb"
-    catalog.open(bad).import_files([write("b.csv", CSV)])
+    catalog.open(bad).import_([write("b.csv", CSV)])
     r = run("--db", bad, "check")
     assert r.exit_code == 1, r.output
     assert r.output.splitlines() == [
@@ -156,7 +156,7 @@ def test_cli_check_exit_codes_and_flag_line(tmp_path, write):
 
 def test_cli_show_prints_derived_from_lines(tmp_path, write):
     db = tmp_path / "c.duckdb"
-    catalog.open(db).import_files([write("a.csv", CSV)])
+    catalog.open(db).import_([write("a.csv", CSV)])
     r = run("--db", db, "show", "testwerk-ta-1")
     assert r.exit_code == 0, r.output
     lines = r.output.splitlines()
@@ -191,7 +191,7 @@ def test_demo_flags_exactly_the_documented_inconsistent_record(demo):
     bad = _manifest()["inconsistent_record"]  # sample_catalog/manifest.yaml
     bad_id = default_id(bad["manufacturer"], bad["part_number"])
     assert bad_id == "vaskeline-vk-c2232-24"
-    flags = demo.flags(tolerance=0.10)
+    flags = demo.check(tolerance=0.10)
     assert {f.record_id for f in flags} == {bad_id}, [str(f) for f in flags]
     # the manifest: Kt printed 30 % too high contradicts 1/Ke (from Kv) and Ts/(Is − I0)
     assert all("torque_constant" in f.given for f in flags)

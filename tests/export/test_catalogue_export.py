@@ -150,11 +150,11 @@ def test_libreoffice_runs_no_formula_from_text(tmp_path, need):
     import openpyxl
 
     from catalog.export.columns import Table, text_column
-    from catalog.export.writers import write_tables
+    from catalog.export.writers import write_tables_to_file
 
     soffice = need("soffice", "libreoffice")
     traps = ["=1+2", "+3+4", "-5+6", "@SUM(1;2)", "=HYPERLINK(\"x\")"]
-    path = write_tables([Table("t", [text_column("notes", traps)])], tmp_path / "t.xlsx")
+    path = write_tables_to_file([Table("t", [text_column("notes", traps)])], tmp_path / "t.xlsx")
     assert [c.value for c in openpyxl.load_workbook(path)["t"]["A"]][1:] == traps
     rows = lo_first_sheet(soffice, path, tmp_path)
     assert [r[0] for r in rows[1:]] == traps

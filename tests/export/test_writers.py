@@ -7,7 +7,7 @@ import json
 import pytest
 
 from catalog.export.columns import Table, quantity_column, table_from_frame, text_column
-from catalog.export.writers import FORMULA_PREFIXES, neutralise, number_format, write_tables
+from catalog.export.writers import FORMULA_PREFIXES, neutralise, number_format, write_tables_to_file
 
 TRAPS = ["=1+2", "+SUM(A1)", "-3+4", "@SUM(A1:A2)", "\tTAB", "plain"]
 
@@ -61,7 +61,7 @@ def test_number_format():
 
 
 def test_csv_is_rfc4180_utf8_numbers_plain(tmp_path):
-    path = write_tables([small_table()], tmp_path / "m.csv")
+    path = write_tables_to_file([small_table()], tmp_path / "m.csv")
     raw = path.read_bytes()
     assert not raw.startswith(b"\xef\xbb\xbf")
     assert raw.count(b"\r\n") == 4 and b"\n" not in raw.replace(b"\r\n", b"")
@@ -74,7 +74,7 @@ def test_csv_is_rfc4180_utf8_numbers_plain(tmp_path):
 
 
 def test_json_units_once(tmp_path):
-    path = write_tables([small_table(), Table("other", [text_column("k", ["v"])])], tmp_path / "m.json",
+    path = write_tables_to_file([small_table(), Table("other", [text_column("k", ["v"])])], tmp_path / "m.json",
                         about={"units": "datasheet"})
     doc = json.loads(path.read_text(encoding="utf-8"))
     assert doc["units"] == {"stall_torque": "mN·m", "no_load_speed": "rpm", "pole_pairs": "1"}
@@ -88,7 +88,7 @@ def test_json_units_once(tmp_path):
 def test_parquet_keeps_si_with_unit_metadata(tmp_path):
     import pyarrow.parquet as pq
 
-    path = write_tables([small_table()], tmp_path / "m.parquet", about={"units": "si"})
+    path = write_tables_to_file([small_table()], tmp_path / "m.parquet", about={"units": "si"})
     table = pq.read_table(path)
     assert table.column_names == ["id", "part_number", "stall_torque", "no_load_speed", "pole_pairs", "notes"]
     field = table.schema.field("stall_torque")
@@ -103,7 +103,7 @@ def test_parquet_keeps_si_with_unit_metadata(tmp_path):
 def test_xlsx_cells_typed_text_safe(tmp_path):
     import openpyxl
 
-    path = write_tables([small_table()], tmp_path / "m.xlsx", about={"units": "datasheet"})
+    path = write_tables_to_file([small_table()], tmp_path / "m.xlsx", about={"units": "datasheet"})
     wb = openpyxl.load_workbook(path)
     assert wb.sheetnames == ["motors", "about"]
     ws = wb["motors"]
@@ -126,4 +126,4 @@ def test_unknown_extension_is_an_input_error(tmp_path):
     from catalog.errors import InputError
 
     with pytest.raises(InputError, match="unknown file extension '.xls'"):
-        write_tables([small_table()], tmp_path / "m.xls")
+        write_tables_to_file([small_table()], tmp_path / "m.xls")

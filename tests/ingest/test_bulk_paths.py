@@ -203,8 +203,8 @@ def test_new_records_derive_and_store_as_through_the_store(tmp_path, monkeypatch
     second = [_motors(tmp_path / "m2.csv", 2, 45, start=15), _motors(tmp_path / "m3.csv", 3, 9, maker="Other Co"),
               _gearheads(tmp_path / "g2.csv", 8)]
     outcomes = _both_ways(monkeypatch, tmp_path, lambda cat: [
-        _report(cat.import_files(first)), _report(cat.import_files(second)),
-        _report(cat.import_files(second[:1]))])  # and once more: nothing changes
+        _report(cat.import_(first)), _report(cat.import_(second)),
+        _report(cat.import_(second[:1]))])  # and once more: nothing changes
     bulk, store = outcomes["bulk"], outcomes["store"]
     assert bulk[0] == store[0]
     assert bulk[1] == store[1]
@@ -215,7 +215,7 @@ def test_new_records_derive_and_store_as_through_the_store(tmp_path, monkeypatch
 
 def test_import_without_deriving_as_through_the_store(tmp_path, monkeypatch):
     data = [_motors(tmp_path / "m1.csv", 4, 12), _gearheads(tmp_path / "g1.csv", 3)]
-    outcomes = _both_ways(monkeypatch, tmp_path, lambda cat: _report(cat.import_files(data, derive=False)))
+    outcomes = _both_ways(monkeypatch, tmp_path, lambda cat: _report(cat.import_(data, derive=False)))
     assert outcomes["bulk"] == outcomes["store"]
     created, derived = outcomes["bulk"][0][0], outcomes["bulk"][0][4]
     assert derived == 0 and created == 15

@@ -27,7 +27,7 @@ Acme Test,M-3,12,500,4000,20,0.9,260,brushed
 
 def test_canonical_headers_with_units_store_si(cat, write):
     path = write("a.csv", CANONICAL)
-    report = cat.import_files([path])
+    report = cat.import_([path])
     assert report.created == 3 and report.updated == 0
     m = cat.motors().set_index("id")
     # mN·m -> N·m (SI prefix, exact); r/min -> rad/s (NIST SP 811 B.8: pi/30); g·cm² -> kg·m² (exact)
@@ -43,7 +43,7 @@ def test_units_in_cells_and_imperial(cat, write):
         manufacturer,part_number,stall_torque,no_load_speed,rotor_inertia,mass,diameter
         Imp Co,00341-12,12.5 oz-in,4200 rpm,0.0012 oz-in-s²,0.5 lb,1.5 in
         """)
-    cat.import_files([path])
+    cat.import_([path])
     m = cat.motors().set_index("id")
     row = m.loc["imp-00341-12"]
     assert row["part_number"] == "00341-12"  # text, leading zero kept
@@ -59,8 +59,8 @@ def test_raw_text_and_provenance_kept(cat, write):
         manufacturer,part_number,stall_torque
         Imp Co,X1,12.5 oz-in
         """)
-    report = cat.import_files([path])
-    _, _, _, values = cat.record("imp-x1")
+    report = cat.import_([path])
+    values = cat.show("imp-x1").values
     row = values.set_index("field").loc["stall_torque"]
     assert row["raw_text"] == "12.5 oz-in"
     assert row["origin"] == "given"
@@ -85,7 +85,7 @@ def test_mapping_profile(cat, write):
         Part #,Stall Torque (oz-in),No Load Speed (RPM),Colour
         SX-1,10,3000,blue
         """)
-    cat.import_files([data], mapping=mapping)
+    cat.import_([data], mapping=mapping)
     row = cat.motors().set_index("id").loc["supplier-sx-1"]
     assert row["stall_torque"] == pytest.approx(10 * OZF_IN, rel=1e-9)
     assert row["no_load_speed"] == pytest.approx(3000 * RPM, rel=1e-9)
@@ -102,7 +102,7 @@ def test_mapping_profile_unknown_field_is_an_error(cat, write):
         """)
     data = write("sup.csv", "Part #\nX\n")
     with pytest.raises(InputError) as info:
-        cat.import_files([data], mapping=mapping)
+        cat.import_([data], mapping=mapping)
     text = "\n".join(map(str, info.value.problems))
     assert "'part_numbr' is not a motor field (did you mean part_number?)" in text
 
@@ -123,7 +123,7 @@ def test_yaml_value_unit_mappings_and_gearheads(cat, write):
             part_number: M-1
             stall_torque: "1.2 N·m"
         """)
-    cat.import_files([path])
+    cat.import_([path])
     g = cat.gearheads().set_index("id").loc["gear-p-14"]
     assert g["ratio"] == 14 and g["stages"] == 2
     assert g["efficiency"] == pytest.approx(0.81, rel=1e-12)
@@ -136,7 +136,7 @@ def test_json_records(cat, write):
     path = write("m.json", json.dumps([
         {"manufacturer": "J", "part_number": "1", "stall_torque": {"value": 5, "unit": "mNm"}},
     ]))
-    cat.import_files([path])
+    cat.import_([path])
     assert cat.motors().iloc[0]["stall_torque"] == pytest.approx(0.005)
 
 
@@ -150,7 +150,7 @@ def test_xlsx_with_typed_sheet(cat, tmp_path):
     ws.append(["X Gears", "00912", 27, 10.0])
     path = tmp_path / "g.xlsx"
     wb.save(path)
-    cat.import_files([path])
+    cat.import_([path])
     g = cat.gearheads().set_index("id").loc["x-00912"]
     # kgf·cm -> N·m = g_n * 0.01 (NIST SP 811 B.8, exact from g_n = 9.80665 m/s²)
     assert g["max_continuous_torque"] == pytest.approx(10.0 * sc.g * 0.01, rel=1e-12)
@@ -158,7 +158,7 @@ def test_xlsx_with_typed_sheet(cat, tmp_path):
 
 
 def test_bad_file_leaves_catalogue_unchanged_and_lists_every_problem(cat, db, write):
-    cat.import_files([write("a.csv", CANONICAL)])
+    cat.import_([write("a.csv", CANONICAL)])
     before = table_snapshot(db)
     bad = write("bad.csv", """
         manufacturer,part_number,no_load_speed,stall_torque,max_efficiency
@@ -167,7 +167,7 @@ def test_bad_file_leaves_catalogue_unchanged_and_lists_every_problem(cat, db, wr
         B,3,3000 rpm,-2 mNm,0.5
         """)
     with pytest.raises(ImportRejected) as info:
-        cat.import_files([bad])
+        cat.import_([bad])
     lines = [str(p) for p in info.value.problems]
     assert any(line.startswith(f"{bad}:2:no_load_speed:") and "is a torque, expected a speed" in line for line in lines)
     assert any(line.startswith(f"{bad}:3:stall_torque:") and "decimal comma" in line for line in lines)
@@ -180,7 +180,7 @@ def test_one_bad_file_rejects_the_whole_call(cat, db, write):
     good = write("good.csv", CANONICAL)
     bad = write("bad.csv", "manufacturer,part_number,stall_torque\nB,1,12 furlongs\n")
     with pytest.raises(ImportRejected):
-        cat.import_files([good, bad])
+        cat.import_([good, bad])
     assert table_snapshot(db).get("records", []) == []
 
 
@@ -191,7 +191,7 @@ def test_keep_valid_writes_rejects(cat, write, tmp_path):
         B,2,ten mNm
         """)
     rejects = tmp_path / "rejects.csv"
-    report = cat.import_files([bad], keep_valid=True, rejects=rejects)
+    report = cat.import_([bad], keep_valid=True, rejects=rejects)
     assert report.created == 1
     text = rejects.read_text(encoding="utf-8")
     assert "source_file,source_row,reasons" in text.splitlines()[0]
@@ -199,8 +199,8 @@ def test_keep_valid_writes_rejects(cat, write, tmp_path):
 
 
 def test_reimport_updates_and_keeps_history(cat, db, write):
-    cat.import_files([write("a.csv", CANONICAL)])
-    cat.import_files([write("a2.csv", """
+    cat.import_([write("a.csv", CANONICAL)])
+    cat.import_([write("a2.csv", """
         manufacturer,part_number,stall_torque [mNm]
         Acme Test,M-1,360
         """)])
@@ -223,24 +223,24 @@ def test_reimport_updates_and_keeps_history(cat, db, write):
 ])
 def test_bad_inputs_messages(cat, write, content, expected):
     with pytest.raises(ImportRejected) as info:
-        cat.import_files([write("x.csv", content)])
+        cat.import_([write("x.csv", content)])
     assert expected in "\n".join(map(str, info.value.problems))
 
 
 def test_validate_writes_nothing(cat, db, write):
-    report = cat.validate_files([write("a.csv", CANONICAL)])
+    report = cat.validate([write("a.csv", CANONICAL)])
     assert report.ok and not db.exists()
 
 
 def test_sql_lightest_24v_motors_with_stall_torque_over_0_3(cat, write):
-    cat.import_files([write("a.csv", CANONICAL)])
+    cat.import_([write("a.csv", CANONICAL)])
     df = cat.sql("SELECT id, mass FROM motors WHERE nominal_voltage = 24 AND stall_torque > 0.3 "
                  "ORDER BY mass")
     assert list(df["id"]) == ["acme-m-1"]
 
 
 def test_sql_is_read_only(cat, write):
-    cat.import_files([write("a.csv", CANONICAL)])
+    cat.import_([write("a.csv", CANONICAL)])
     with pytest.raises(InputError):
         cat.sql("DELETE FROM records")
     assert len(cat.motors()) == 3
@@ -249,13 +249,13 @@ def test_sql_is_read_only(cat, write):
 def test_motors_view_has_one_column_per_field(cat, write):
     from catalog.fields import field_names
 
-    cat.import_files([write("a.csv", CANONICAL)])
+    cat.import_([write("a.csv", CANONICAL)])
     assert list(cat.motors().columns) == field_names("motor")
     assert np.isnan(cat.motors()["terminal_inductance"]).all()
 
 
 def test_sql_cannot_touch_other_files(cat, write, tmp_path):
-    cat.import_files([write("a.csv", CANONICAL)])
+    cat.import_([write("a.csv", CANONICAL)])
     target = tmp_path / "leak.csv"
     with pytest.raises(InputError):
         cat.sql(f"COPY (SELECT * FROM motors) TO '{target}'")

@@ -16,7 +16,7 @@ def _base(tmp_path_factory):
     (folder / "motors.csv").write_text(MOTORS, encoding="utf-8")
     (folder / "gearheads.csv").write_text(GEARHEADS, encoding="utf-8")
     db = folder / "base.duckdb"
-    catalog.open(db).import_files([folder / "motors.csv", folder / "gearheads.csv"])
+    catalog.open(db).import_([folder / "motors.csv", folder / "gearheads.csv"])
     return db
 
 

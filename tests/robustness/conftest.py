@@ -31,7 +31,7 @@ def fill(db: Path, folder: Path) -> None:
     gears = folder / "good_gearheads.csv"
     motors.write_text(GOOD_MOTORS, encoding="utf-8")
     gears.write_text(GOOD_GEARHEADS, encoding="utf-8")
-    catalog.open(db).import_files([motors, gears])
+    catalog.open(db).import_([motors, gears])
 
 
 @pytest.fixture(scope="session")

@@ -172,7 +172,7 @@ def test_yaml_scalars_are_stored_as_written(prefilled, tmp_path):
                     "    notes: no\n    mount: 1_000\n    datasheet_date: 2024-05-01\n", encoding="utf-8")
     result = run_cli("--db", prefilled, "import", path)
     assert result.exit_code == 0, result.output
-    rtype, man, pn, values = catalog.open(prefilled).record("octal-0123")
+    rtype, man, pn, values, _ = catalog.open(prefilled).show("octal-0123")
     assert (rtype, man, pn) == ("motor", "Octal Motors", "0123")
     text = values.set_index("field")["value_text"]
     assert text["series"] == "12:30" and text["notes"] == "no" and text["mount"] == "1_000"

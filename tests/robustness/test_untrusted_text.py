@@ -123,7 +123,7 @@ def test_text_is_stored_and_returned_exactly(tmp_path, empty_db, records, fmt):
                     params=[want[0]["manufacturer"], want[0]["part_number"], want[0]["notes"]])
     assert len(found) == 1
     first = found["id"].iat[0]
-    rtype, man, pn, values = cat.record(first)
+    rtype, man, pn, values, _ = cat.show(first)
     assert (rtype, man, pn) == ("motor", want[0]["manufacturer"], want[0]["part_number"])
     assert values.set_index("field")["raw_text"]["notes"] == records[0]["notes"]  # as written, spaces too
     # the sql command prints every text as stored

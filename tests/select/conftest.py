@@ -30,7 +30,7 @@ def hand_catalog(tmp_path_factory):
     (folder / "motors.csv").write_text(MOTORS, encoding="utf-8")
     (folder / "gearheads.csv").write_text(GEARHEADS, encoding="utf-8")
     cat = catalog.open(folder / "c.duckdb")
-    cat.import_files([folder / "motors.csv", folder / "gearheads.csv"])
+    cat.import_([folder / "motors.csv", folder / "gearheads.csv"])
     return cat
 
 

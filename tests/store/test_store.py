@@ -283,7 +283,7 @@ def ids_and_makers(cat):
 
 def test_two_makers_sharing_a_first_word_in_one_file_get_distinct_ids(cat, write):
     path = write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\nTestwerk Motoren,M-1,12,1\n")
-    report = cat.import_files([path])
+    report = cat.import_([path])
     assert report.created == 2
     assert ids_and_makers(cat) == {"testwerk-m-1": "Testwerk Antriebe",
                                    "testwerk-motoren-m-1": "Testwerk Motoren"}
@@ -294,20 +294,20 @@ def test_two_makers_sharing_a_first_word_in_one_file_get_distinct_ids(cat, write
 def test_two_makers_sharing_a_first_word_across_imports_get_distinct_ids(cat, write):
     first = write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")
     second = write("b.csv", HEAD + "Testwerk Motoren,M-1,12,1\n")
-    cat.import_files([first])
-    r = cat.import_files([second])
+    cat.import_([first])
+    r = cat.import_([second])
     assert (r.created, r.updated) == (1, 0)
     expected = {"testwerk-m-1": "Testwerk Antriebe", "testwerk-motoren-m-1": "Testwerk Motoren"}
     assert ids_and_makers(cat) == expected
     # importing each again updates its own record under its own id
     for path, rid, volts in ((second, "testwerk-motoren-m-1", 12.0), (first, "testwerk-m-1", 24.0)):
-        r = cat.import_files([path])
+        r = cat.import_([path])
         assert (r.created, r.updated) == (0, 1)
         assert ids_and_makers(cat) == expected
         assert cat.motors().set_index("id").loc[rid, "nominal_voltage"] == volts
     # both in one later file, the long-id maker first: the stored ids are kept
     both = write("c.csv", HEAD + "Testwerk Motoren,M-1,12,1.5\nTestwerk Antriebe,M-1,24,2.5\n")
-    r = cat.import_files([both])
+    r = cat.import_([both])
     assert (r.created, r.updated) == (0, 2)
     assert ids_and_makers(cat) == expected
     m = cat.motors().set_index("id")
@@ -316,9 +316,9 @@ def test_two_makers_sharing_a_first_word_across_imports_get_distinct_ids(cat, wr
 
 
 def test_reimport_keeps_the_id_and_moves_old_values_to_history(cat, write):
-    first = cat.import_files([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])
+    first = cat.import_([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])
     # same maker spelled in another case: the same record
-    second = cat.import_files([write("b.csv", HEAD + "TESTWERK ANTRIEBE,M-1,24,3\n")])
+    second = cat.import_([write("b.csv", HEAD + "TESTWERK ANTRIEBE,M-1,24,3\n")])
     assert (second.created, second.updated) == (0, 1)
     assert cat.ids() == ["testwerk-m-1"]
     rec = cat.sql("SELECT created_batch, updated_batch, manufacturer FROM records").values.tolist()
@@ -339,10 +339,10 @@ def test_reimport_keeps_the_id_and_moves_old_values_to_history(cat, write):
 
 
 def test_reimport_keeps_unchanged_derived_values_out_of_history(cat, write):
-    first = cat.import_files([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])
-    cat.import_files([write("b.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])   # the same values again
+    first = cat.import_([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])
+    cat.import_([write("b.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])   # the same values again
     assert cat.sql("SELECT count(*) AS n FROM value_history WHERE origin = 'derived'")["n"].item() == 0
-    third = cat.import_files([write("c.csv", HEAD + "Testwerk Antriebe,M-1,24,4\n")])
+    third = cat.import_([write("c.csv", HEAD + "Testwerk Antriebe,M-1,24,4\n")])
     moved = cat.sql("SELECT field, value_num, batch_id, replaced_by_batch FROM value_history "
                     "WHERE origin = 'derived' ORDER BY field").values.tolist()
     assert ["stall_current", 12.0, first.batch_id, third.batch_id] in moved
@@ -445,11 +445,11 @@ def _pairs_held_twice(cat) -> int:
 
 
 def test_record_values_has_no_key_index_and_the_writers_keep_one_value_per_field(cat, write):
-    cat.import_files([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\nTestwerk Antriebe,M-2,12,1\n")])
+    cat.import_([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\nTestwerk Antriebe,M-2,12,1\n")])
     assert cat.sql("SELECT table_name FROM duckdb_constraints() WHERE table_name IN ('record_values', 'flags') "
                    "AND constraint_type IN ('PRIMARY KEY', 'UNIQUE')").empty
     # the same records again, one changed, with a column more: stored rows meet new ones
-    cat.import_files([write("b.csv", "manufacturer,part_number,nominal_voltage [V],terminal_resistance [Ohm],"
+    cat.import_([write("b.csv", "manufacturer,part_number,nominal_voltage [V],terminal_resistance [Ohm],"
                             "torque_constant [mNm/A]\nTestwerk Antriebe,M-1,24,3,20\n"
                             "Testwerk Antriebe,M-2,12,1,10\nTestwerk Antriebe,M-3,6,1,5\n")])
     cat.derive()
@@ -460,7 +460,7 @@ def test_record_values_has_no_key_index_and_the_writers_keep_one_value_per_field
 def test_a_write_that_would_hold_a_field_twice_is_refused_and_nothing_is_written(cat, write, db):
     from catalog.store import check_unique_values
 
-    cat.import_files([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])
+    cat.import_([write("a.csv", HEAD + "Testwerk Antriebe,M-1,24,2\n")])
     before = cat.sql("SELECT * FROM record_values ORDER BY ALL").astype(str).values.tolist()
     for scope in (None, ["testwerk-m-1"]):
         with pytest.raises(StoreError, match=r"^internal error: a record would hold a field or a residual "

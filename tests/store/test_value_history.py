@@ -1,4 +1,4 @@
-"""`history ID`: every replaced value of a catalogue record with its time and batch."""
+"""`history ID` / `Catalog.history`: every replaced value of a catalogue record with its time and batch."""
 from __future__ import annotations
 
 import pytest
@@ -16,9 +16,10 @@ Hist Test,H-1,24,360,0.18,brushless
 
 
 def test_a_reimport_keeps_old_values_with_time_and_batch(cat, write):
-    first = cat.import_files(write("v1.csv", V1), derive=False)
-    second = cat.import_files(write("v2.csv", V2), derive=False)
-    h = cat.history("hist-h-1")
+    first = cat.import_(write("v1.csv", V1), derive=False)
+    second = cat.import_(write("v2.csv", V2), derive=False)
+    assert cat.history("hist-h-1")["changed"].all()   # by default only the values that changed
+    h = cat.history("hist-h-1", changed_only=False)
     changed = h[h["changed"]].set_index("field")
     assert sorted(changed.index) == ["commutation", "mass", "stall_torque"]
     st = changed.loc["stall_torque"]
@@ -37,16 +38,16 @@ def test_a_reimport_keeps_old_values_with_time_and_batch(cat, write):
 
 
 def test_three_versions_chain_old_to_new(cat, write):
-    cat.import_files(write("v1.csv", V1), derive=False)
-    cat.import_files(write("v2.csv", V2), derive=False)
-    cat.import_files(write("v3.csv", V2.replace("360", "370")), derive=False)
+    cat.import_(write("v1.csv", V1), derive=False)
+    cat.import_(write("v2.csv", V2), derive=False)
+    cat.import_(write("v3.csv", V2.replace("360", "370")), derive=False)
     h = cat.history("hist-h-1")
     st = h[h["field"] == "stall_torque"]
     assert st[["old_raw", "new_raw"]].values.tolist() == [["350", "360"], ["360", "370"]]
 
 
 def test_history_of_an_unknown_record(cat, write):
-    cat.import_files(write("v1.csv", V1), derive=False)
+    cat.import_(write("v1.csv", V1), derive=False)
     with pytest.raises(NotFound, match="did you mean hist-h-1"):
         cat.history("hist-h-2")
     assert cat.history("hist-h-1").empty
@@ -59,7 +60,7 @@ Hist Test,H-9,24,2.0,30
 
 
 def test_a_derived_value_that_changes_is_kept_in_history(cat, write):
-    cat.import_files(write("d.csv", DERIVABLE))
+    cat.import_(write("d.csv", DERIVABLE))
     cat.derive()
     assert cat.history("hist-h-9").empty  # deriving again unchanged moves nothing aside
     # a value derived by an older relation table (simulated): the next derive replaces it

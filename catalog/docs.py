@@ -1,0 +1,109 @@
+"""The generated documents of ``docs/``: one table, one command to regenerate them all.
+
+``python -m catalog.docs`` (what ``make docs`` runs) writes every document of
+:data:`GENERATED` whose text differs from what its generator makes now;
+``python -m catalog.docs --check`` writes nothing and exits 1 naming the stale
+ones.  ``tests/test_docs.py`` fails when one is stale.  A new generated document
+is one :class:`GeneratedDoc` entry.
+"""
+from __future__ import annotations
+
+__all__ = ["GeneratedDoc", "GENERATED", "stale_docs", "write_docs", "main"]
+
+import sys
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Callable
+
+#: The project folder of a source checkout (``docs/`` lives there).
+PROJECT = Path(__file__).resolve().parent.parent
+
+
+@dataclass(frozen=True)
+class GeneratedDoc:
+    """One generated document: its file, title, what it is made from, and the function making its body."""
+
+    path: str                   #: relative to the project folder
+    title: str
+    source: str                 #: Markdown naming the data and the function it is generated from
+    body: Callable[[], str]
+
+    def text(self) -> str:
+        """The whole document as it should be on disk."""
+        return (f"# {self.title}\n\nGenerated from {self.source}; `make docs` regenerates it and "
+                f"`tests/test_docs.py` checks it is current.\n\n{self.body().rstrip()}\n")
+
+
+def _relations() -> str:
+    from .derive import relation_table_markdown
+
+    return relation_table_markdown()
+
+
+def _spellings() -> str:
+    from .units import spelling_table_markdown
+
+    return spelling_table_markdown()
+
+
+def _cli() -> str:
+    from .cli.reference import cli_reference_markdown
+
+    return cli_reference_markdown()
+
+
+#: Every generated document.
+GENERATED = (
+    GeneratedDoc("docs/relations.md", "Relations used to derive motor constants",
+                 "`catalog/derive.py:EQUATIONS` by `catalog.derive.relation_table_markdown()`", _relations),
+    GeneratedDoc("docs/unit-spellings.md", "Datasheet unit spellings",
+                 "`catalog/units/atoms.py` by `catalog.units.spelling_table_markdown()`", _spellings),
+    GeneratedDoc("docs/cli.md", "Command-line reference",
+                 "the `--help` of every command by `catalog.cli.reference.cli_reference_markdown()`", _cli),
+)
+
+
+def stale_docs(project: Path = PROJECT) -> list[GeneratedDoc]:
+    """The documents whose file is missing or differs from what their generator makes now."""
+    out = []
+    for doc in GENERATED:
+        path = project / doc.path
+        if not path.is_file() or path.read_text(encoding="utf-8") != doc.text():
+            out.append(doc)
+    return out
+
+
+def write_docs(project: Path = PROJECT) -> list[Path]:
+    """Write every stale document; returns the files written."""
+    written = []
+    for doc in stale_docs(project):
+        path = project / doc.path
+        path.parent.mkdir(parents=True, exist_ok=True)
+        path.write_text(doc.text(), encoding="utf-8", newline="\n")
+        written.append(path)
+    return written
+
+
+def main(argv=None) -> int:
+    """``python -m catalog.docs [--check] [--project DIR]``."""
+    import argparse
+
+    parser = argparse.ArgumentParser(prog="python -m catalog.docs", description=__doc__.splitlines()[0])
+    parser.add_argument("--check", action="store_true", help="write nothing; exit 1 when a document is stale")
+    parser.add_argument("--project", type=Path, default=PROJECT, help="the project folder (default: this checkout)")
+    args = parser.parse_args(argv)
+    if args.check:
+        stale = stale_docs(args.project)
+        for doc in stale:
+            print(f"stale: {doc.path} (run `make docs`)", file=sys.stderr)
+        return 1 if stale else 0
+    written = write_docs(args.project)
+    for path in written:
+        print(f"wrote {path}")
+    if not written:
+        print(f"all {len(GENERATED)} generated documents are current")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
