@@ -45,7 +45,7 @@ def _envelope(selection, units: str) -> str:
                                                      table.column("value").values, table.column("unit").values,
                                                      table.column("meaning").values)))
     groups, out = {}, []
-    for path, _, _ in _leaves(env.raw, envelope_schema(), []):
+    for path, _, _ in _leaves(env.raw, envelope_schema(env.raw), []):
         key = _key(path)
         if path[0] in ("name", "description"):
             continue
