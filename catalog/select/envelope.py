@@ -448,10 +448,11 @@ def load_envelope(envelope, source: str | None = None) -> Envelope:
 
 def _build(d, data, source) -> Envelope:
     mech, reflected = None, 0.0
-    if "mechanism" in d.get("load", {}):
+    if "mechanism" in d.get("load", {}):      # segments at the gear output made from the mechanism
         gen = motion.build(d)
         mode, names, dur, tq, w0, w1 = "cycle", gen.names, gen.duration, gen.torque, gen.speed_start, gen.speed_end
-        cont, src, mech, reflected = np.ones(len(names), bool), gen.sources, gen.mechanism, gen.mechanism.reflected_inertia
+        cont, src = np.ones(len(names), bool), gen.sources
+        mech, reflected = gen.mechanism, gen.mechanism.reflected_inertia
     else:
         mode, names, dur, tq, w0, w1, cont, src = _segments(d)
     sup, envi, load = d["supply"], d.get("environment", {}), d.get("load", {})
