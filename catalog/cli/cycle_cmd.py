@@ -71,5 +71,6 @@ def cycle_cmd(obj: Context, envelope, fmt, units):
         echo(f"mechanism {cyc.mechanism.describe()}")
     print_frame(_frame(cyc, units), "table")
     value, unit = to_display([cyc.inertia], "inertia", units)
-    echo(f"reflected load inertia at the gear output: {value[0]:.4g} {unit} "
-         "(for information: the torques include its acceleration)")
+    origin = "reflected from the mechanism" if cyc.mechanism is not None else "load.inertia"
+    echo(f"load inertia at the gear output: {value[0]:.4g} {unit} ({origin}; for information: "
+         "the torques include its acceleration)")

@@ -56,8 +56,8 @@ def test_table_names_every_segment_and_its_source(tmp_path):
     as_json = json.loads(run("--db", tmp_path / "none.duckdb", "cycle", STAGE, "--format", "json").output)
     assert [c[0] for c in cells] == [s["name"] for s in as_json["segments"]]
     assert re.search(r"\[mN·m\]", r.output) and re.search(r"\[rpm\]", r.output)
-    assert lines[-1] == ("reflected load inertia at the gear output: 402 g·cm² "
-                         "(for information: the torques include its acceleration)")
+    assert lines[-1] == ("load inertia at the gear output: 402 g·cm² (reflected from the mechanism; "
+                         "for information: the torques include its acceleration)")
 
 
 def test_csv_is_si(tmp_path):
