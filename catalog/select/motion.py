@@ -20,7 +20,7 @@ depends on the mechanism carry ``x-dimension-linear``/``x-dimension-rotary``.
 """
 from __future__ import annotations
 
-__all__ = ["SegmentSource", "Mechanism", "GearOutputCycle", "specialise_schema", "mechanism_kinds",
+__all__ = ["SegmentSource", "Mechanism", "Generated", "GearOutputCycle", "specialise_schema", "mechanism_kinds",
            "check", "build", "gear_output_cycle", "PHASES", "DEFAULT_ACCEL_FRACTION"]
 
 import copy
@@ -38,7 +38,6 @@ DEFAULT_ACCEL_FRACTION = 1.0 / 3.0
 #: Phases of a move, in order: accelerate, run at constant speed, decelerate, dwell at standstill.
 #: A generated segment is named ``"<move> <phase>"``; phases are single words, so names stay unique.
 PHASES = ("accel", "run", "decel", "dwell")
-_LINEAR_SLOPE = ("screw", "belt", "rack_pinion", "wheel")   # kinds with an ``angle`` key
 
 
 @dataclass(frozen=True)
@@ -230,7 +229,8 @@ def check(d: dict, source: str, problems: list) -> None:
         if "points" in d:
             bad("points", "operating points are at the gear output, expected [[motion.moves]] or [cycle] "
                           "segments with load.mechanism")
-        if mech["kind"] in _LINEAR_SLOPE and "angle" in mech and not -math.pi / 2 <= mech["angle"] <= math.pi / 2:
+        angle = mech.get("angle", 0.0)
+        if math.isfinite(angle) and not -math.pi / 2 <= angle <= math.pi / 2:   # NaN: reported when read
             bad("load.mechanism.angle", f"{raw['load']['mechanism']['angle']!r} is out of range, expected an "
                                         "angle from -90 deg to 90 deg above the horizontal")
     moves = d.get("motion", {}).get("moves")
@@ -253,9 +253,9 @@ def check(d: dict, source: str, problems: list) -> None:
         elif not (has_d or has_v):
             bad(f"{key}.distance", "missing, expected distance (a move from rest to rest) or speed (a run at "
                                    "constant speed)")
-        for what, word in (("distance", "distance"), ("speed", "speed")):
+        for what in ("distance", "speed"):
             if move.get(what) == 0:
-                bad(f"{key}.{what}", f"{given[what]!r} is zero, expected a {word} other than zero "
+                bad(f"{key}.{what}", f"{given[what]!r} is zero, expected a {what} other than zero "
                                      "(a standstill is the dwell of a move)")
         if has_d and not has_v and move.get("accel_fraction") == 0:
             bad(f"{key}.accel_fraction", f"{given['accel_fraction']!r} leaves no time to accelerate, "
@@ -266,7 +266,7 @@ def check(d: dict, source: str, problems: list) -> None:
 
 
 def _move_rows(moves: list, kind: str) -> list:
-    """(source, duration, speed start, speed end) per segment of the moves, at the mechanism."""
+    """(source, duration, speed start, speed end, extra load) per segment of the moves, at the mechanism."""
     from ..physics import move_peak_speed
 
     rows = []
@@ -287,7 +287,7 @@ def _move_rows(moves: list, kind: str) -> list:
 
 
 def _written_rows(segments: list, mech: Mechanism) -> list:
-    """The hand-written segments at the mechanism, split where a ramp passes zero speed."""
+    """Rows as :func:`_move_rows` of the segments written at the mechanism, split where a ramp passes zero speed."""
     extra_key = "torque" if mech.motion == "rotary" else "force"
     rows = []
     for i, s in enumerate(segments):
