@@ -221,6 +221,21 @@ class Catalog(StockMethods):
             return kept
         return frame
 
+    # -- the duty cycle at the gear output (reads no catalogue) ------------------------
+    def cycle(self, envelope):
+        """The duty cycle of a load envelope at the gear output; see :func:`catalog.select.motion.gear_output_cycle`.
+
+        ``envelope`` is a TOML path or a parsed dict.  Returns a
+        :class:`catalog.select.motion.GearOutputCycle`: per segment its name,
+        duration, torque (with the acceleration of the load's masses) and the
+        speeds at both ends, plus the reflected load inertia; ``to_dict()`` is
+        the SI form ``motorshelf cycle --format json`` prints.
+        """
+        from .select import load_envelope
+        from .select.motion import gear_output_cycle
+
+        return gear_output_cycle(load_envelope(envelope))
+
     def summary(self) -> dict:
         """Counts: suppliers, motors, gearheads, values, derived values."""
         with self.store.read() as con:

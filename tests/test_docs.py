@@ -99,3 +99,23 @@ def test_every_command_is_documented_in_the_readme():
         assert cmd.help, f"command {name} has no help text"
         assert name in examples, f"README has no command line of `{name}`"
         assert f"**{name}**" in README or f"**{name} " in README, f"README does not explain `{name}`"
+
+
+def test_readme_mechanism_envelope_and_its_cycle_are_real():
+    """The README shows queries/screw_stage.toml and exactly what `motorshelf cycle` prints for it."""
+    import os
+
+    from click.testing import CliRunner
+
+    from catalog.cli import cli
+
+    readme = (ROOT / "README.md").read_text(encoding="utf-8")
+    assert (ROOT / "queries" / "screw_stage.toml").read_text(encoding="utf-8") in readme
+    cwd = os.getcwd()
+    os.chdir(ROOT)          # the command names the envelope as given: queries/screw_stage.toml
+    try:
+        result = CliRunner().invoke(cli, ["cycle", "queries/screw_stage.toml"], catch_exceptions=False)
+    finally:
+        os.chdir(cwd)
+    assert result.exit_code == 0
+    assert "```text\n" + result.output + "```" in readme

@@ -45,7 +45,7 @@ def _envelope(selection, units: str) -> str:
                                                      table.column("value").values, table.column("unit").values,
                                                      table.column("meaning").values)))
     groups, out = {}, []
-    for path, _, _ in envelope_leaves(env.raw, envelope_schema(), []):
+    for path, _, _ in envelope_leaves(env.raw, envelope_schema(env.raw), []):
         key = key_text(path)
         if path[0] in ("name", "description"):
             continue

@@ -53,7 +53,7 @@ def envelope_table(envelope, preset: str = "datasheet"):
     from .columns import UNITLESS, Column, Table, clean_number, text_column, unit_conversion
 
     keys, given, shown, unit, si, si_unit, desc = [], [], [], [], [], [], []
-    for path, value, sch in envelope_leaves(envelope.raw, envelope_schema(), []):
+    for path, value, sch in envelope_leaves(envelope.raw, envelope_schema(envelope.raw), []):
         keys.append(key_text(path))
         if isinstance(value, list):
             given.append(", ".join(map(str, value)))

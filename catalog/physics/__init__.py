@@ -19,15 +19,17 @@ thermal          two-node thermal network: steady state, closed forms
 transient        two-node network: exact transient and periodic duty
 network          two-node network under a loss profile; the hot fixed point
 gearing          speed, torque and inertia through a gearhead
+mechanism        screws, belts, racks, drums, wheels, rotary loads; move profiles
 cycle            RMS, mean and energy over duty-cycle segments
 """
 
-from . import (cycle, gearing, inverse_constants, inverse_line, motor, network,
+from . import (cycle, gearing, inverse_constants, inverse_line, mechanism, motor, network,
                operating_point, relations, temperature, thermal, transient)
 from .cycle import *  # noqa: F401,F403
 from .gearing import *  # noqa: F401,F403
 from .inverse_constants import *  # noqa: F401,F403
 from .inverse_line import *  # noqa: F401,F403
+from .mechanism import *  # noqa: F401,F403
 from .motor import *  # noqa: F401,F403
 from .network import *  # noqa: F401,F403
 from .operating_point import *  # noqa: F401,F403
@@ -47,5 +49,6 @@ __all__ = [
     *transient.__all__,
     *network.__all__,
     *gearing.__all__,
+    *mechanism.__all__,
     *cycle.__all__,
 ]

@@ -12,6 +12,12 @@ path (``cycle.segments[2].duration``, positions from 0), collected into one
 A cycle segment whose speed ramp passes through zero is split at the crossing
 into two segments with the same name, so that within every evaluated segment
 the speed keeps its sign (friction and gear power flow then stay constant).
+
+A load given as a mechanism (``[load.mechanism]``) with moves
+(``[[motion.moves]]``) or with segments at the mechanism is turned into
+segments at the gear output by :mod:`catalog.select.motion`; the envelope
+keeps those segments, so the selection reads every envelope alike, plus the
+source of each segment and the reflected load inertia.
 """
 from __future__ import annotations
 
@@ -30,6 +36,7 @@ import numpy as np
 from ..errors import InputError, Problem
 from ..units import UnitError, dimension_noun, parse_quantity
 from ..units.dimensions import get_dimension
+from . import motion
 
 SCHEMA_PATH = Path(__file__).resolve().parents[2] / "schemas" / "envelope.schema.json"
 
@@ -96,6 +103,10 @@ class Envelope:
     currency: str | None = None            # prices are compared in this currency
     exchange_rates: dict = field(default_factory=dict)  # other currency -> value in `currency`
     raw: dict = field(default_factory=dict, repr=False)
+    #: per segment: the input it came from (:class:`catalog.select.motion.SegmentSource`)
+    segment_source: list = field(default_factory=list)
+    mechanism: object = None               # catalog.select.motion.Mechanism, or None
+    reflected_inertia: float = 0.0         # of the mechanism at the gear output, already in `torque` [kg·m²]
 
     @property
     def available_voltage(self) -> float:
@@ -108,9 +119,22 @@ class Envelope:
         return float(np.sum(self.duration))
 
 
+def envelope_schema(data: dict | None = None) -> dict:
+    """The envelope JSON Schema as a dict; for a parsed envelope ``data``, the schema that applies to it.
+
+    An envelope with a mechanism has that mechanism's keys and reads its
+    segments and moves in the mechanism's dimensions
+    (:func:`catalog.select.motion.specialise_schema`).  Shared: do not change it.
+    """
+    if data is not None:
+        from .motion import specialise_schema
+
+        return specialise_schema(data)
+    return _file_schema()
+
+
 @lru_cache(maxsize=1)
-def envelope_schema() -> dict:
-    """The envelope JSON Schema as a dict."""
+def _file_schema() -> dict:
     return json.loads(SCHEMA_PATH.read_text(encoding="utf-8"))
 
 
@@ -242,9 +266,13 @@ def _contradictions(d, source, problems):
     if rr and rr["min"] > rr["max"]:
         bad("gearing.ratio_range.min", f"{rr['min']!r} is above gearing.ratio_range.max {rr['max']!r}, "
                                        "expected min <= max")
-    if ("points" in d) == ("cycle" in d):
-        found = "both [[points]] and [cycle]" if "points" in d else "neither [[points]] nor [cycle]"
-        bad("points/cycle", f"found {found}, expected exactly one form of load")
+    forms = [f for f in ("points", "cycle", "motion") if f in d]
+    if len(forms) != 1:
+        written = {"points": "[[points]]", "cycle": "[cycle]", "motion": "[[motion.moves]]"}
+        found = ("both " + " and ".join(written[f] for f in forms) if len(forms) == 2 else
+                 "[[points]], [cycle] and [[motion.moves]]" if forms else
+                 "neither [[points]], [cycle] nor [[motion.moves]]")
+        bad("/".join(forms) if len(forms) > 1 else "points/cycle", f"found {found}, expected exactly one form of load")
     gear = d.get("gearing", {})
     if not (gear.get("direct", True) or gear.get("catalogue", True) or gear.get("ratios")
             or gear.get("ratio_range")):
@@ -341,20 +369,22 @@ def _segments(d):
         names = [p["name"] for p in pts]
         speed = np.array([p["speed"] for p in pts], dtype=float)
         return ("points", names, np.ones(len(pts)), np.array([p["torque"] for p in pts], dtype=float),
-                speed, speed.copy(), np.array([p["kind"] == "continuous" for p in pts]))
-    names, dur, tq, w0, w1 = [], [], [], [], []
-    for s in d["cycle"]["segments"]:
+                speed, speed.copy(), np.array([p["kind"] == "continuous" for p in pts]),
+                [motion.SegmentSource(f"points[{i}]", p["name"]) for i, p in enumerate(pts)])
+    names, dur, tq, w0, w1, src = [], [], [], [], [], []
+    for i, s in enumerate(d["cycle"]["segments"]):
         a, b = s["speed_start"], s.get("speed_end", s["speed_start"])
+        origin = motion.SegmentSource(f"cycle.segments[{i}]", s["name"])
         if a * b < 0:   # split at the zero crossing: speed keeps its sign per segment
             f = a / (a - b)
             for frac, x, y in ((f, a, 0.0), (1.0 - f, 0.0, b)):
                 names.append(s["name"]); dur.append(s["duration"] * frac)
-                tq.append(s["torque"]); w0.append(x); w1.append(y)
+                tq.append(s["torque"]); w0.append(x); w1.append(y); src.append(origin)
         else:
             names.append(s["name"]); dur.append(s["duration"]); tq.append(s["torque"])
-            w0.append(a); w1.append(b)
+            w0.append(a); w1.append(b); src.append(origin)
     n = len(names)
-    return ("cycle", names, np.array(dur), np.array(tq), np.array(w0), np.array(w1), np.ones(n, bool))
+    return ("cycle", names, np.array(dur), np.array(tq), np.array(w0), np.array(w1), np.ones(n, bool), src)
 
 
 def load_envelope(envelope, source: str | None = None) -> Envelope:
@@ -392,7 +422,7 @@ def load_envelope(envelope, source: str | None = None) -> Envelope:
         source, data = source or "envelope", envelope
     else:
         raise TypeError("envelope must be a path, a dict or an Envelope")
-    schema = envelope_schema()
+    schema = envelope_schema(data)
     problems = _non_finite(data, [], source)
     errors = sorted(Draft202012Validator(schema).iter_errors(data), key=lambda e: list(map(str, e.absolute_path)))
     for err in errors:
@@ -405,13 +435,21 @@ def load_envelope(envelope, source: str | None = None) -> Envelope:
     d["_raw"] = data
     _contradictions(d, source, problems)
     _unique_names(d, source, problems)
+    motion.check(d, source, problems)
     if problems:
         raise InputError(f"{source}: {len(problems)} problem(s) in the envelope", problems)
     return _build(d, data, source)
 
 
 def _build(d, data, source) -> Envelope:
-    mode, names, dur, tq, w0, w1, cont = _segments(d)
+    mech, reflected = None, 0.0
+    if "mechanism" in d.get("load", {}):      # segments at the gear output made from the mechanism
+        gen = motion.build(d)
+        mode, names, dur, tq, w0, w1 = "cycle", gen.names, gen.duration, gen.torque, gen.speed_start, gen.speed_end
+        cont, src = np.ones(len(names), bool), gen.sources
+        mech, reflected = gen.mechanism, gen.mechanism.reflected_inertia
+    else:
+        mode, names, dur, tq, w0, w1, cont, src = _segments(d)
     sup, envi, load = d["supply"], d.get("environment", {}), d.get("load", {})
     con, gear, rank = d.get("constraints", {}), d.get("gearing", {}), d.get("ranking", {})
     cont_i = sup.get("drive_continuous_current", math.inf)
@@ -427,7 +465,7 @@ def _build(d, data, source) -> Envelope:
     return Envelope(
         name=d["name"], description=d.get("description", ""), source=source, mode=mode,
         names=names, duration=dur, torque=tq, speed_start=w0, speed_end=w1, continuous=cont,
-        repeat=d.get("cycle", {}).get("repeat", True),
+        repeat=d.get("cycle", d.get("motion", {})).get("repeat", True),
         nominal_voltage=sup["nominal_voltage"], min_voltage=sup.get("min_voltage", sup["nominal_voltage"]),
         drive_voltage_drop=sup.get("drive_voltage_drop", 0.0), drive_continuous_current=cont_i,
         drive_peak_current=sup.get("drive_peak_current", cont_i), regenerative=sup.get("regenerative", False),
@@ -440,4 +478,5 @@ def _build(d, data, source) -> Envelope:
         stage_efficiency=gear.get("stage_efficiency", 0.9), stages=gear.get("stages"),
         gear_inertia=gear.get("inertia", 0.0), rank_keys=rank.get("keys", ["mass"]),
         top=rank.get("top", 10), pareto=rank.get("pareto"), currency=rank.get("currency"),
-        exchange_rates=dict(rank.get("exchange_rates", {})), raw=data)
+        exchange_rates=dict(rank.get("exchange_rates", {})), raw=data,
+        segment_source=src, mechanism=mech, reflected_inertia=reflected)

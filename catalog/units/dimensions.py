@@ -95,6 +95,8 @@ _ALL = [
        "mN*m/sqrt(W) or oz-in/sqrt(W)", "N·m/√W", "mN·m/√W", "oz·in/√W"),
     _d("angle", "rad", "radian", "an angle", "arcmin or deg", "rad", "arcmin", "arcmin",
        angles={1}),
+    _d("force", "N", "newton", "a force", "N or lbf", "N", "N", "lbf"),
+    _d("linear_speed", "m/s", "meter / second", "a linear speed", "mm/s or m/s", "m/s", "mm/s", "in/s"),
     _d("angular_acceleration", "rad/s**2", "radian / second ** 2", "an angular acceleration",
        "rad/s**2", "rad/s²", "rad/s²", "rad/s²", **_SPEED),
     _d("dimensionless", "1", "dimensionless", "a ratio", "a plain number or %",

@@ -21,7 +21,8 @@ from catalog.cli.options import RENAMED_OPTIONS, OutputOption
 
 #: Options that shape only what a command prints and are not shared ones (those are
 #: ``OutputOption``s): (command, option) → what it does instead of filling a keyword.
-PRINT_ONLY = {("select", "explain"): "prints Selection.explain(ID) of the result instead of the shortlist"}
+PRINT_ONLY = {("select", "explain"): "prints Selection.explain(ID) of the result instead of the shortlist",
+              ("cycle", "units"): "display units of the printed table (the API returns SI)"}
 
 
 _UNSET = getattr(click.core, "UNSET", None)

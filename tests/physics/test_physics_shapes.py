@@ -34,6 +34,11 @@ VALUES = {
     "ratio": 15.0, "efficiency": 0.8, "back_driving_efficiency": 0.7,
     "motor_inertia": 1e-5, "gear_inertia": 2e-6, "load_inertia": 4e-3,
     "load_acceleration": 50.0,
+    # mechanisms (a 5 kg carriage on a 10 mm-lead screw, 5° up, a 20 mm pulley, a 4-wheel cart)
+    "mass": 5.0, "acceleration": 1.5, "slope_angle": 0.087, "friction_coefficient": 0.05,
+    "external_force": 10.0, "force": 60.0, "radius": 0.02, "lead": 0.01,
+    "mechanism_inertia": 2e-5, "angular_acceleration": 75.0, "rolling_resistance": 0.02, "wheels": 4.0,
+    "inertia": 0.05, "external_torque": 0.3, "distance": 0.2, "move_time": 0.8, "accel_fraction": 0.3,
     "cold_rise": 40.0, "resistance_rise_coefficient": 0.0037, "torque_constant_rise_coefficient": -0.001,
 }
 

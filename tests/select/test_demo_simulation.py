@@ -87,7 +87,7 @@ def simulate(env, c):
     return tw_peak, v_worst, tw_low
 
 
-@pytest.mark.parametrize("name", ["drive_wheel", "lift_axis", "camera_pan", "water_pump"])
+@pytest.mark.parametrize("name", ["drive_wheel", "lift_axis", "camera_pan", "water_pump", "screw_stage"])
 def test_top_candidate_by_simulation(demo_catalog, name):
     sel = demo_catalog.select(QUERIES / f"{name}.toml")
     assert len(sel.shortlist) >= 3

@@ -57,7 +57,8 @@ def problems(path):
      + SEGMENTS.format(duration="1 s"),
      "x.toml:supply.drive_peak_current: '3 A' is below supply.drive_continuous_current '5 A', "
      "expected at least the continuous current"),
-    (HEAD, "x.toml:points/cycle: found neither [[points]] nor [cycle], expected exactly one form of load"),
+    (HEAD, "x.toml:points/cycle: found neither [[points]], [cycle] nor [[motion.moves]], expected exactly one "
+           "form of load"),
     (HEAD + SEGMENTS.format(duration="1 s") + '[ranking]\nkeys = ["weight"]\n',
      "x.toml:ranking.keys[0]: 'weight' is not a ranking key, expected one of mass, price, length, "
      "diameter, winding_temperature, energy_per_cycle, rms_current, smallest_margin, ratio "
@@ -69,7 +70,7 @@ def test_bad_envelope_messages(envelope_file, text, expected):
 
 def test_example_envelopes_are_valid():
     names = sorted(p.stem for p in QUERIES.glob("*.toml"))
-    assert names == ["camera_pan", "drive_wheel", "impossible", "lift_axis", "water_pump"]
+    assert names == ["camera_pan", "drive_wheel", "impossible", "lift_axis", "screw_stage", "water_pump"]
     for path in QUERIES.glob("*.toml"):
         env = load_envelope(path)
         assert env.name == path.stem

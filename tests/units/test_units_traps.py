@@ -5,6 +5,7 @@ import math
 import pickle
 
 import pytest
+from scipy import constants
 from scipy.constants import centi, convert_temperature, inch, kilogram_force, minute, ounce, pi
 from scipy.constants import g as g_n
 
@@ -109,7 +110,7 @@ def test_mass_or_force_by_dimension():
     assert parse_unit("lb-ft", "torque").canonical == "lbf*ft"
     assert parse_unit("oz·in²", "inertia").canonical == "oz*in**2"
     assert parse_unit("oz-in-s²", "inertia").canonical == "ozf*in*s**2"
-    with pytest.raises(UnitError, match="'oz' is a mass, expected a torque"):
+    with pytest.raises(UnitError, match="'oz' is a mass or a force, expected a torque"):
         parse_unit("oz", "torque")
 
 
@@ -173,7 +174,8 @@ def test_dimension_table():
     for name in ("torque", "angular_speed", "current", "voltage", "resistance", "inductance",
                  "inertia", "mass", "length", "time", "temperature", "temperature_difference",
                  "thermal_resistance", "power", "energy", "torque_constant", "speed_constant",
-                 "speed_torque_gradient", "angle", "angular_acceleration", "dimensionless"):
+                 "speed_torque_gradient", "angle", "angular_acceleration", "force", "linear_speed",
+                 "dimensionless"):
         d = DIMENSIONS[name]
         assert d.name == name and d.noun == dimension_noun(name) and d.example
         conv = parse_unit(d.si_unit, name)
@@ -185,3 +187,31 @@ def test_count_takes_no_unit():
     assert parse_quantity("4", "count") == 4.0
     with pytest.raises(UnitError):
         parse_unit("%", "count")
+
+
+@pytest.mark.parametrize("text, dimension, si", [
+    ("12 N", "force", 12.0),
+    ("1.5 kN", "force", 1500.0),
+    ("3 lbf", "force", 3 * constants.pound * constants.g),      # scipy: pound-force = lb·g_n
+    ("2 kgf", "force", 2 * constants.g),                         # scipy g_n (CGPM 1901)
+    ("2 kg", "force", 2 * constants.g),                          # a mass unit in a force field: kgf
+    ("250 mm/s", "linear_speed", 0.25),
+    ("12 m/min", "linear_speed", 12 / 60),
+    ("20 in/s", "linear_speed", 20 * constants.inch),            # scipy inch
+    ("30 ft/min", "linear_speed", 30 * constants.foot / constants.minute),
+])
+def test_force_and_linear_speed(text, dimension, si):
+    assert parse_quantity(text, dimension) == pytest.approx(si, rel=REL)
+
+
+@pytest.mark.parametrize("text, dimension, message", [
+    ("100 rpm", "linear_speed", "'100 rpm' is a speed, expected a linear speed"),
+    ("1/min", "linear_speed", None),
+    ("5 N*m", "force", "'5 N*m' is a torque, expected a force"),
+    ("200 mm", "angle", "'200 mm' is a length, expected an angle"),
+])
+def test_linear_and_angular_quantities_are_not_confused(text, dimension, message):
+    with pytest.raises(UnitError) as info:
+        parse_quantity(text, dimension)
+    if message:
+        assert str(info.value) == message
