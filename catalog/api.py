@@ -138,7 +138,8 @@ class Catalog(StockMethods):
 
     def derive(self, tolerance: float | None = None):
         """Recompute every derived value and consistency residual of the catalogue."""
-        from .derive import DEFAULT_TOLERANCE, derive_in_store
+        from .derive import DEFAULT_TOLERANCE
+        from .store.derived import derive_in_store
 
         with self.store.write() as con:
             batch = self.store.new_batch(con, "derive")

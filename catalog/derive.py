@@ -11,12 +11,15 @@ typo or a different definition.
 
 Every derived value is recomputed from the given values only, so deriving twice
 changes nothing, and a given value is never replaced.
+
+Nothing here reads or writes the catalogue: columns in, columns out.  Storing the
+derived values, their history and the residuals is :mod:`catalog.store.derived`.
 """
 from __future__ import annotations
 
-__all__ = ["Equation", "Solver", "EQUATIONS", "DeriveResult", "derive_columns", "residuals",
-           "derive_rows", "DerivedRows", "derive_in_store", "DEFAULT_TOLERANCE",
-           "relation_table_markdown", "Flag"]
+__all__ = ["Equation", "Solver", "EQUATIONS", "DERIVABLE", "SOLVERS", "SOLVER_RELATIONS",
+           "ASSUMED_REFERENCE_TEMPERATURE", "max_continuous_current_at_rating_ambient", "DeriveResult", "derive_columns", "residuals", "Flag",
+           "DEFAULT_TOLERANCE", "RATING_AMBIENT", "DEFAULT_REFERENCE_TEMPERATURE", "relation_table_markdown"]
 
 from dataclasses import dataclass, field
 
@@ -74,8 +77,16 @@ IS, TS, W0, G = "stall_current", "stall_torque", "no_load_speed", "speed_torque_
 TREF = "resistance_reference_temperature"
 
 
-def _max_continuous_current(tmax, r, rth1, rth2, tref):
-    return P.max_continuous_current(tmax, r, rth1, rth2, RATING_AMBIENT, tref)
+def max_continuous_current_at_rating_ambient(max_winding_temperature, terminal_resistance,
+                                             thermal_resistance_winding_housing,
+                                             thermal_resistance_housing_ambient,
+                                             resistance_reference_temperature):
+    """The catalogue's maximum continuous current [A]: the steady current that brings the
+    winding to ``max_winding_temperature`` at the rating ambient :data:`RATING_AMBIENT`
+    (:func:`catalog.physics.max_continuous_current` with the ambient fixed)."""
+    return P.max_continuous_current(max_winding_temperature, terminal_resistance,
+                                    thermal_resistance_winding_housing, thermal_resistance_housing_ambient,
+                                    RATING_AMBIENT, resistance_reference_temperature)
 
 
 EQUATIONS: tuple = (
@@ -109,7 +120,8 @@ EQUATIONS: tuple = (
         _s(W0, P.no_load_speed_from_stall_torque_and_gradient, TS, G)), dc_constants=True),
     Equation("speed-torque gradient = R/(Kt·Ke)", (
         _s(G, P.speed_torque_gradient, R, KT, KE),
-        _s(R, P.resistance_from_speed_torque_gradient, G, KT, KE)), dc_constants=True),
+        _s(R, P.resistance_from_speed_torque_gradient, G, KT, KE),
+        _s(KT, P.torque_constant_from_speed_torque_gradient, G, R)), dc_constants=True),
     Equation("friction torque = Kt·I0", (
         _s("friction_torque", P.friction_torque, KT, I0),
         _s(I0, P.no_load_current_from_friction_torque, "friction_torque", KT),
@@ -138,22 +150,38 @@ EQUATIONS: tuple = (
         _s("nominal_speed", P.speed_at_torque, "nominal_torque", V, R, KT, KE, I0),
         _s("nominal_torque", P.torque_at_speed, "nominal_speed", V, R, KT, KE, I0)), dc_constants=True),
     Equation("maximum continuous current, thermal model at 25 °C ambient", (
-        _s("max_continuous_current", _max_continuous_current, "max_winding_temperature", R,
+        _s("max_continuous_current", max_continuous_current_at_rating_ambient, "max_winding_temperature", R,
            "thermal_resistance_winding_housing", "thermal_resistance_housing_ambient", TREF),)),
     Equation("maximum continuous torque = Kt·(Icont − I0)", (
         _s("max_continuous_torque", P.torque_at_current, "max_continuous_current", KT, I0),)),
+    Equation("mechanical time constant = J·R/(Kt·Ke)", (
+        _s("mechanical_time_constant", P.mechanical_time_constant, "rotor_inertia", R, KT, KE),
+        _s("rotor_inertia", P.rotor_inertia_from_mechanical_time_constant, "mechanical_time_constant",
+           R, KT, KE)), dc_constants=True),
+    Equation("maximum output power = no-load speed·stall torque/4", (
+        _s("max_output_power", P.max_output_power_from_no_load_speed_and_stall_torque, W0, TS),
+        _s(W0, P.no_load_speed_from_max_output_power, "max_output_power", TS),
+        _s(TS, P.stall_torque_from_max_output_power, "max_output_power", W0))),
+    Equation("current at maximum efficiency = √(I0·Is)", (
+        _s("max_efficiency_current", P.max_efficiency_current, I0, IS),
+        _s(I0, P.no_load_current_from_max_efficiency_current, "max_efficiency_current", IS),
+        _s(IS, P.stall_current_from_max_efficiency_current, "max_efficiency_current", I0))),
 )
 
 #: Fields every solver may produce must be numeric motor fields; checked in the tests.
 DERIVABLE = tuple(sorted({s.output for e in EQUATIONS for s in e.solvers}))
 
 
-_DEFAULT_SOLVER = Solver(TREF, (), None)
-_SOLVER_NAMES = {s: e.name for e in EQUATIONS for s in e.solvers}
-_SOLVER_NAMES[_DEFAULT_SOLVER] = "assumed datasheet reference temperature 25 °C"
+#: The resistance reference temperature assumed where a datasheet states none, recorded as a
+#: derivation without inputs (see :func:`derive_columns`).
+ASSUMED_REFERENCE_TEMPERATURE = Solver(TREF, (), None)
 #: Every solver, numbered: the codes of :attr:`DeriveResult.codes`.
-_SOLVERS = (*(s for e in EQUATIONS for s in e.solvers), _DEFAULT_SOLVER)
-_SOLVER_CODES = {id(s): k for k, s in enumerate(_SOLVERS)}
+SOLVERS = (*(s for e in EQUATIONS for s in e.solvers), ASSUMED_REFERENCE_TEMPERATURE)
+#: The relation text of each solver of :data:`SOLVERS`, by code (what the store records).
+SOLVER_RELATIONS = (*(e.name for e in EQUATIONS for _ in e.solvers),
+                    "assumed datasheet reference temperature 25 °C")
+_SOLVER_NAMES = dict(zip(SOLVERS, SOLVER_RELATIONS))
+_SOLVER_CODES = {id(s): k for k, s in enumerate(SOLVERS)}
 
 
 class _EquationNames:
@@ -176,7 +204,7 @@ class DeriveResult:
     columns: dict  # field -> float ndarray (given and derived)
     origin: dict  # field -> object ndarray: None (given/missing) or Solver
     equation: dict = field(default_factory=dict)  # field -> object ndarray of equation names
-    codes: dict = field(default_factory=dict)  # field -> int16 ndarray: -1 or the index in _SOLVERS
+    codes: dict = field(default_factory=dict)  # field -> int16 ndarray: -1 or the index in SOLVERS
 
     def derived_count(self) -> int:
         return int(sum(np.count_nonzero(o != None) for o in self.origin.values()))  # noqa: E711
@@ -269,8 +297,8 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
     # given or derived (checked after the closure, which already used the default)
     tref_missing = ~tref_given & ~np.isnan(cols[R])
     cols[TREF] = np.where(tref_missing, DEFAULT_REFERENCE_TEMPERATURE, cols[TREF])
-    origin[TREF][tref_missing] = _DEFAULT_SOLVER
-    codes[TREF][tref_missing] = _SOLVER_CODES[id(_DEFAULT_SOLVER)]
+    origin[TREF][tref_missing] = ASSUMED_REFERENCE_TEMPERATURE
+    codes[TREF][tref_missing] = _SOLVER_CODES[id(ASSUMED_REFERENCE_TEMPERATURE)]
     equation = _EquationNames(origin)
     return DeriveResult(cols, origin, equation, codes)
 
@@ -354,241 +382,3 @@ def relation_table_markdown() -> str:
         for s in eq.solvers:
             lines.append(f"| {eq.name} | {s.output} | {', '.join(s.inputs)} |")
     return "\n".join(lines)
-
-
-@dataclass
-class StoreOutcome:
-    derived: int = 0
-    flags: list = field(default_factory=list)
-
-
-@dataclass
-class DerivedRows:
-    """What :func:`derive_rows` makes of the given values of some motors.
-
-    ``values``: pyarrow table of the derived values (record_id, field, value_num,
-    relation, inputs), or None; ``flags``: pyarrow table of the residual of every
-    over-determined relation (the columns of the ``flags`` table but ``batch_id``),
-    or None; ``flagged``: the :class:`Flag` of each residual above the tolerance.
-    """
-
-    values: object = None
-    flags: object = None
-    flagged: list = field(default_factory=list)
-
-    @property
-    def derived(self) -> int:
-        return 0 if self.values is None else self.values.num_rows
-
-
-def _floats(values):
-    """A pyarrow float column, null where NaN (as the store has always held a missing number)."""
-    import pyarrow as pa
-
-    values = np.asarray(values, dtype=float)
-    return pa.array(values, type=pa.float64(), mask=np.isnan(values))
-
-
-def _dictionary(texts: list):
-    """(pyarrow array of the distinct ``texts``, int32 array: position of each text in it)."""
-    import pyarrow as pa
-
-    distinct = list(dict.fromkeys(texts))
-    where = {t: k for k, t in enumerate(distinct)}
-    return pa.array(distinct, type=pa.string()), np.array([where[t] for t in texts], dtype=np.int32)
-
-
-def derive_rows(ids, columns: dict, text_columns: dict | None = None,
-                tolerance: float = DEFAULT_TOLERANCE) -> DerivedRows:
-    """Derived values and residuals of the motors ``ids`` from their given ``columns``, as rows.
-
-    ``columns`` maps every numeric motor field to the given SI values (NaN = missing),
-    ``text_columns`` holds ``constant_basis``; rows follow ``ids``.  Nothing is read or
-    written: :func:`derive_in_store` and the import store the rows.
-    """
-    import pyarrow as pa
-
-    ids = np.asarray(ids, dtype=object)
-    n = len(ids)
-    out = DerivedRows()
-    if n == 0:
-        return out
-    id_array = pa.array(ids, type=pa.string())
-    result = derive_columns(columns, text_columns, n)
-    # the texts repeated on many rows are dictionary-encoded: each is held (and handed to DuckDB) once
-    relations, relation_of = _dictionary([_SOLVER_NAMES[s] for s in _SOLVERS])
-    inputs, inputs_of = _dictionary([", ".join(s.inputs) for s in _SOLVERS])
-    fields = pa.array(list(result.codes), type=pa.string())
-    parts = []  # per field: (record positions, field code, values, solver codes)
-    for k, (name, codes) in enumerate(result.codes.items()):
-        idx = np.flatnonzero(codes >= 0)
-        if len(idx) == 0:
-            continue
-        if name in columns and not np.isnan(columns[name][idx]).all():
-            # the store holds one value per record and field (no key index checks it there)
-            raise AssertionError(f"derived {name} over a given value")
-        parts.append((idx, np.full(len(idx), k, dtype=np.int32), result.columns[name][idx], codes[idx]))
-    if parts:
-        # record by record (fields in their order within a record): DuckDB stores rows of one
-        # record side by side about twice as fast as rows interleaved field by field
-        record, field_code, value, solver = (np.concatenate(c) for c in zip(*parts))
-        order = np.argsort(record, kind="stable")
-        record, field_code, value, solver = record[order], field_code[order], value[order], solver[order]
-        out.values = pa.table({
-            "record_id": pa.DictionaryArray.from_arrays(pa.array(record.astype(np.int32)), id_array),
-            "field": pa.DictionaryArray.from_arrays(pa.array(field_code), fields),
-            "value_num": pa.array(value, type=pa.float64()),
-            "relation": pa.DictionaryArray.from_arrays(pa.array(relation_of[solver]), relations),
-            "inputs": pa.DictionaryArray.from_arrays(pa.array(inputs_of[solver]), inputs),
-        })
-    tables, positions = [], []
-    for eq, idx, given, implied, res in residuals(columns, text_columns, n):
-        primary = eq.solvers[0].output
-        m = len(idx)
-        positions.append(idx)
-        tables.append(pa.table({
-            "record_id": id_array.take(pa.array(idx)), "relation": pa.array([eq.name] * m, type=pa.string()),
-            "given": pa.array([", ".join(given)] * m, type=pa.string()),
-            "field": pa.array([primary] * m, type=pa.string()), "given_value": _floats(given[primary]),
-            "implied_value": _floats(implied), "residual": _floats(res)}))
-        for k in np.flatnonzero(np.abs(res) > tolerance):  # the few flagged ones, with their numbers
-            text = ", ".join(f"{name}={given[name][k]:.6g}" for name in given)
-            out.flagged.append(Flag(str(ids[idx[k]]), eq.name, primary, text, float(given[primary][k]),
-                                    float(implied[k]), float(res[k])))
-    if tables:  # record by record too
-        out.flags = pa.concat_tables(tables).take(pa.array(np.argsort(np.concatenate(positions), kind="stable")))
-    return out
-
-
-def _load_given(con, record_ids):
-    """Given numeric and text values of motors (all, or ``record_ids``), wide, as numpy columns
-    in the order of their ids.  Leaves the registered relation ``derive_ids`` (the motors)."""
-    import pyarrow as pa
-
-    from .fields import fields_for
-
-    numeric = [f.name for f in fields_for("motor").values() if f.is_numeric]
-    if record_ids is None:
-        con.execute("CREATE OR REPLACE TEMP TABLE derive_ids AS SELECT record_id, "
-                    "CAST(row_number() OVER (ORDER BY record_id) - 1 AS INTEGER) AS ix "
-                    "FROM records WHERE record_type = 'motor'")
-    else:
-        con.register("asked_ids", _ids_table(record_ids))
-        con.execute("CREATE OR REPLACE TEMP TABLE derive_ids AS SELECT record_id, "
-                    "CAST(row_number() OVER (ORDER BY record_id) - 1 AS INTEGER) AS ix "
-                    "FROM records WHERE record_type = 'motor' AND record_id IN (SELECT record_id FROM asked_ids)")
-        con.unregister("asked_ids")
-    ids = np.asarray(con.sql("SELECT record_id FROM derive_ids ORDER BY ix").to_arrow_table()
-                     .column("record_id").to_pylist(), dtype=object)
-    # long rows to a wide array by position: field k, motor ix (one given value per field)
-    con.register("derive_fields", pa.table({"field": pa.array(numeric, type=pa.string()),
-                                            "k": pa.array(np.arange(len(numeric), dtype=np.int32))}))
-    long = con.sql("SELECT m.ix, f.k, v.value_num FROM record_values v JOIN derive_ids m USING (record_id) "
-                   "JOIN derive_fields f USING (field) WHERE v.origin = 'given' AND v.value_num IS NOT NULL"
-                   ).to_arrow_table()
-    con.unregister("derive_fields")
-    wide = np.full((len(numeric), len(ids)), np.nan)
-    wide[long.column("k").to_numpy(), long.column("ix").to_numpy()] = long.column("value_num").to_numpy()
-    columns = dict(zip(numeric, wide))
-    basis = con.sql("SELECT m.ix, v.value_text FROM record_values v JOIN derive_ids m USING (record_id) "
-                    "WHERE v.origin = 'given' AND v.field = 'constant_basis'").to_arrow_table()
-    texts = {"constant_basis": np.full(len(ids), None, dtype=object)}
-    texts["constant_basis"][basis.column("ix").to_numpy()] = basis.column("value_text").to_pylist()
-    return ids, columns, texts
-
-
-def _ids_table(record_ids):
-    import pyarrow as pa
-
-    return pa.table({"record_id": pa.array(list(record_ids), type=pa.string())})
-
-
-def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFAULT_TOLERANCE) -> StoreOutcome:
-    """Recompute the derived values and residuals of motors (all, or ``record_ids``).
-
-    Runs inside the caller's transaction ``con``.  Only what changed is written: a
-    derived value derived again identically keeps the batch that computed it (so
-    deriving twice changes nothing); one that changes or disappears is kept in
-    ``value_history`` (replaced by ``batch_id``), so ``motorshelf history`` shows it;
-    a new one is stored as of ``batch_id``.  Residuals likewise.  Given values are
-    never touched.
-    """
-    ids, columns, texts = _load_given(con, record_ids)
-    outcome = StoreOutcome()
-    rows = derive_rows(ids, columns, texts, tolerance)
-    con.register("new_derived", rows.values if rows.values is not None else _no_derived())
-    con.register("new_flags", rows.flags if rows.flags is not None else _no_flags())
-    # the records whose derived rows are replaced (a constant condition, never text from a file)
-    scope = "true" if record_ids is None else "record_id IN (SELECT record_id FROM derive_ids)"
-    held_values = con.execute("SELECT count(*) FROM record_values WHERE origin = 'derived' AND " + scope).fetchone()[0]
-    held_flags = con.execute("SELECT count(*) FROM flags WHERE " + scope).fetchone()[0]
-    if held_values:
-        _replace_derived(con, batch_id, scope)
-    else:  # nothing held: no comparison to make
-        con.execute("INSERT INTO record_values SELECT record_id, field, value_num, NULL, NULL, NULL, 'derived', "
-                    "relation, inputs, NULL, NULL, ? FROM new_derived", [batch_id])
-    if held_flags:
-        _replace_flags(con, batch_id, scope)
-    else:
-        con.execute("INSERT INTO flags SELECT record_id, relation, given, field, given_value, implied_value, "
-                    "residual, ? FROM new_flags", [batch_id])
-    con.unregister("new_derived")
-    con.unregister("new_flags")
-    con.execute("DROP TABLE derive_ids")
-    outcome.derived = rows.derived
-    outcome.flags.extend(rows.flagged)
-    return outcome
-
-
-def _replace_derived(con, batch_id: int, scope: str) -> None:
-    """Store ``new_derived`` over the derived values of the records in ``scope``, writing only
-    what changed."""
-    # of the derived values held by the motors in scope, those not derived again identically
-    con.execute(
-        "CREATE OR REPLACE TEMP TABLE replaced_derived AS SELECT v.* FROM record_values v "
-        "WHERE v.origin = 'derived' AND " + scope + " AND NOT EXISTS (SELECT 1 FROM new_derived n "
-        "WHERE n.record_id = v.record_id AND n.field = v.field "
-        "AND n.value_num IS NOT DISTINCT FROM v.value_num AND n.relation IS NOT DISTINCT FROM v.relation "
-        "AND n.inputs IS NOT DISTINCT FROM v.inputs)")
-    if con.execute("SELECT count(*) FROM replaced_derived").fetchone()[0]:
-        con.execute("INSERT INTO value_history SELECT *, ?, now() FROM replaced_derived", [batch_id])
-        con.execute("DELETE FROM record_values WHERE origin = 'derived' "
-                    "AND (record_id, field) IN (SELECT record_id, field FROM replaced_derived)")
-    con.execute("DROP TABLE replaced_derived")
-    # what remains in scope is identical to what was derived now: insert the rest
-    con.execute("INSERT INTO record_values SELECT n.record_id, n.field, n.value_num, NULL, NULL, NULL, 'derived', "
-                "n.relation, n.inputs, NULL, NULL, ? FROM new_derived n WHERE NOT EXISTS (SELECT 1 FROM "
-                "record_values v WHERE v.origin = 'derived' AND v.record_id = n.record_id AND v.field = n.field)",
-                [batch_id])
-
-
-def _replace_flags(con, batch_id: int, scope: str) -> None:
-    """Store ``new_flags`` over the residuals of the records in ``scope``, writing only what changed."""
-    con.execute(
-        "DELETE FROM flags WHERE " + scope + " AND NOT EXISTS (SELECT 1 FROM new_flags n "
-        "WHERE n.record_id = flags.record_id "
-        "AND n.relation = flags.relation AND n.given IS NOT DISTINCT FROM flags.given "
-        "AND n.field IS NOT DISTINCT FROM flags.field AND n.given_value IS NOT DISTINCT FROM flags.given_value "
-        "AND n.implied_value IS NOT DISTINCT FROM flags.implied_value "
-        "AND n.residual IS NOT DISTINCT FROM flags.residual)")
-    con.execute("INSERT INTO flags SELECT n.record_id, n.relation, n.given, n.field, n.given_value, n.implied_value, "
-                "n.residual, ? FROM new_flags n WHERE NOT EXISTS (SELECT 1 FROM flags f "
-                "WHERE f.record_id = n.record_id AND f.relation = n.relation)", [batch_id])
-
-
-def _no_derived():
-    """An empty table shaped as :attr:`DerivedRows.values`."""
-    import pyarrow as pa
-
-    return pa.table({name: pa.array([], type=kind) for name, kind in (
-        ("record_id", pa.string()), ("field", pa.string()), ("value_num", pa.float64()),
-        ("relation", pa.string()), ("inputs", pa.string()))})
-
-
-def _no_flags():
-    """An empty table shaped as :attr:`DerivedRows.flags`."""
-    import pyarrow as pa
-
-    return pa.table({name: pa.array([], type=kind) for name, kind in (
-        ("record_id", pa.string()), ("relation", pa.string()), ("given", pa.string()), ("field", pa.string()),
-        ("given_value", pa.float64()), ("implied_value", pa.float64()), ("residual", pa.float64()))})

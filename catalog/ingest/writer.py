@@ -8,9 +8,9 @@ to DuckDB as pyarrow tables.
 A record the catalogue already holds may keep values of fields the file does not
 give, and the values it replaces go to ``value_history``: its given values replace
 the stored ones field by field, and its constants are derived again from what the
-store then holds (:func:`catalog.derive.derive_in_store`).  A record new to the
+store then holds (:func:`catalog.store.derived.derive_in_store`).  A record new to the
 catalogue has nothing to replace or keep, so its constants are derived from the SI
-columns in memory (:func:`catalog.derive.derive_rows`, the same closure and
+columns in memory (:func:`catalog.store.derived.derive_rows`, the same closure and
 residuals) and its given and derived values are simply inserted.  Both give the
 same rows; the new-record path skips reading the values back.
 
@@ -194,14 +194,14 @@ def _no_given():
 
 def _insert_new(con, given: list, derived, batch: int) -> None:
     """Insert the given values (tables of :meth:`_Incoming.given_values`) and the derived ones
-    (:class:`~catalog.derive.DerivedRows`) of records new to the catalogue, in one statement."""
+    (:class:`~catalog.store.derived.DerivedRows`) of records new to the catalogue, in one statement."""
     import pyarrow as pa
 
-    from ..derive import _no_derived
+    from ..store.derived import empty_derived_table
 
     if given or derived.values is not None:
         con.register("new_given", pa.concat_tables(given) if given else _no_given())
-        con.register("new_derived", derived.values if derived.values is not None else _no_derived())
+        con.register("new_derived", derived.values if derived.values is not None else empty_derived_table())
         con.execute(
             "INSERT INTO record_values SELECT * FROM ("
             "SELECT record_id, field, value_num, value_text, raw_text, raw_unit, 'given', CAST(NULL AS VARCHAR), "
@@ -318,7 +318,7 @@ def _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_tabl
                 inserter, pending):
     """Make the records ``lo:lo + CHUNK_ROWS`` ready and hand their insert to ``inserter``
     once the insert ``pending`` (a future, or None) is done; returns the new insert's future."""
-    from ..derive import DerivedRows, derive_in_store, derive_rows
+    from ..store.derived import DerivedRows, derive_in_store, derive_rows
 
     hi = lo + CHUNK_ROWS
     flags = []

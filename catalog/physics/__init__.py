@@ -13,7 +13,7 @@ motor            constants of the linear motor model (forward relations)
 operating_point  speed/torque/current/voltage at a point, efficiency, power
 inverse_line     inverse relations on the speed-torque line
 inverse_constants inverse relations for R, Kt, J, L, efficiency
-relations        table of derivation relations walked by a derivation engine
+inverse_ratings  inverse relations of the maximum-efficiency, maximum-power and nominal points
 temperature      copper R(T), magnet Kt(T), insulation classes
 thermal          two-node thermal network: steady state, closed forms
 transient        two-node network: exact transient and periodic duty
@@ -22,16 +22,16 @@ gearing          speed, torque and inertia through a gearhead
 cycle            RMS, mean and energy over duty-cycle segments
 """
 
-from . import (cycle, gearing, inverse_constants, inverse_line, motor, network,
-               operating_point, relations, temperature, thermal, transient)
+from . import (cycle, gearing, inverse_constants, inverse_line, inverse_ratings, motor, network,
+               operating_point, temperature, thermal, transient)
 from .cycle import *  # noqa: F401,F403
 from .gearing import *  # noqa: F401,F403
 from .inverse_constants import *  # noqa: F401,F403
 from .inverse_line import *  # noqa: F401,F403
+from .inverse_ratings import *  # noqa: F401,F403
 from .motor import *  # noqa: F401,F403
 from .network import *  # noqa: F401,F403
 from .operating_point import *  # noqa: F401,F403
-from .relations import *  # noqa: F401,F403
 from .temperature import *  # noqa: F401,F403
 from .thermal import *  # noqa: F401,F403
 from .transient import *  # noqa: F401,F403
@@ -41,7 +41,7 @@ __all__ = [
     *operating_point.__all__,
     *inverse_line.__all__,
     *inverse_constants.__all__,
-    *relations.__all__,
+    *inverse_ratings.__all__,
     *temperature.__all__,
     *thermal.__all__,
     *transient.__all__,

@@ -65,3 +65,23 @@ def test_relation_table_markdown_lists_every_solver():
     expected = [f"| {eq.name} | {s.output} | {', '.join(s.inputs)} |" for eq, s in SOLVERS]
     assert body == expected
     assert len(body) == len(SOLVERS)
+
+
+def test_every_solver_is_a_documented_physics_function():
+    """The solvers are the functions of :mod:`catalog.physics` (pure, documented, tested there),
+    or a thin wrapper in :mod:`catalog.derive` that fixes a rating condition; no solver twice."""
+    from catalog import derive, physics
+
+    seen = set()
+    for eq, s in SOLVERS:
+        name = s.func.__name__
+        assert getattr(physics, name, None) is s.func or getattr(derive, name, None) is s.func, name
+        assert inspect.getdoc(s.func), name
+        assert (s.output, s.func) not in seen, (eq.name, s.output)
+        seen.add((s.output, s.func))
+
+
+def test_a_relation_solves_for_each_field_at_most_once():
+    for eq in EQUATIONS:
+        outputs = [s.output for s in eq.solvers]
+        assert len(outputs) == len(set(outputs)), eq.name
