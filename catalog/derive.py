@@ -18,8 +18,9 @@ derived values, their history and the residuals is :mod:`catalog.store.derived`.
 from __future__ import annotations
 
 __all__ = ["Equation", "Solver", "EQUATIONS", "DERIVABLE", "SOLVERS", "SOLVER_RELATIONS",
-           "ASSUMED_REFERENCE_TEMPERATURE", "max_continuous_current_at_rating_ambient", "DeriveResult", "derive_columns", "residuals", "Flag",
-           "DEFAULT_TOLERANCE", "RATING_AMBIENT", "DEFAULT_REFERENCE_TEMPERATURE", "relation_table_markdown"]
+           "ASSUMED_REFERENCE_TEMPERATURE", "max_continuous_current_at_rating_ambient", "DeriveResult",
+           "derive_columns", "residuals", "Flag", "DEFAULT_TOLERANCE", "RATING_AMBIENT",
+           "DEFAULT_REFERENCE_TEMPERATURE", "relation_table_markdown"]
 
 from dataclasses import dataclass, field
 
@@ -68,13 +69,21 @@ class Equation:
         return tuple(out)
 
 
-def _s(output, func, *inputs, fragile=False):
-    return Solver(output, tuple(inputs), func, fragile)
+def _s(output: str, func, fragile: bool = False, **bind) -> Solver:
+    """The solver ``output = func(...)``.
 
+    Its inputs are the names of ``func``'s required parameters, which are schema field
+    names; a parameter of an operating quantity (``supply_voltage``, ``torque``,
+    ``current``, ``speed``) is bound to the datasheet field it takes here by ``bind``.
+    """
+    import inspect
 
-V, R, I0, KT, KE = "nominal_voltage", "terminal_resistance", "no_load_current", "torque_constant", "back_emf_constant"
-IS, TS, W0, G = "stall_current", "stall_torque", "no_load_speed", "speed_torque_gradient"
-TREF = "resistance_reference_temperature"
+    params = [p.name for p in inspect.signature(func).parameters.values()
+              if p.default is inspect.Parameter.empty and p.kind is p.POSITIONAL_OR_KEYWORD]
+    unknown = set(bind) - set(params)
+    if unknown:
+        raise TypeError(f"{func.__name__} has no parameter {sorted(unknown)}")
+    return Solver(output, tuple(bind.get(name, name) for name in params), func, fragile)
 
 
 def max_continuous_current_at_rating_ambient(max_winding_temperature, terminal_resistance,
@@ -89,83 +98,85 @@ def max_continuous_current_at_rating_ambient(max_winding_temperature, terminal_r
                                     RATING_AMBIENT, resistance_reference_temperature)
 
 
+#: The datasheet's own operating point: its characteristic values hold at the nominal voltage.
+_AT_NOMINAL_VOLTAGE = {"supply_voltage": "nominal_voltage"}
+
 EQUATIONS: tuple = (
     Equation("torque constant = back-EMF constant (SI)", (
-        _s(KT, P.torque_constant_from_back_emf_constant, KE),
-        _s(KE, P.back_emf_constant_from_torque_constant, KT)), dc_constants=True),
+        _s("torque_constant", P.torque_constant_from_back_emf_constant),
+        _s("back_emf_constant", P.back_emf_constant_from_torque_constant)), dc_constants=True),
     Equation("speed constant = 1/back-EMF constant", (
-        _s("speed_constant", P.speed_constant_from_back_emf_constant, KE),
-        _s(KE, P.back_emf_constant_from_speed_constant, "speed_constant")), dc_constants=True),
+        _s("speed_constant", P.speed_constant_from_back_emf_constant),
+        _s("back_emf_constant", P.back_emf_constant_from_speed_constant)), dc_constants=True),
     Equation("torque constant = 1/speed constant (SI)", (
-        _s(KT, P.torque_constant_from_speed_constant, "speed_constant"),
-        _s("speed_constant", P.speed_constant_from_torque_constant, KT)), dc_constants=True),
+        _s("torque_constant", P.torque_constant_from_speed_constant),
+        _s("speed_constant", P.speed_constant_from_torque_constant)), dc_constants=True),
     Equation("stall current = V/R", (
-        _s(IS, P.stall_current, V, R),
-        _s(R, P.resistance_from_stall_current, V, IS),
-        _s(V, P.supply_voltage_from_stall_current, IS, R))),
+        _s("stall_current", P.stall_current, **_AT_NOMINAL_VOLTAGE),
+        _s("terminal_resistance", P.resistance_from_stall_current, **_AT_NOMINAL_VOLTAGE),
+        _s("nominal_voltage", P.supply_voltage_from_stall_current))),
     Equation("stall torque = Kt·(Is − I0)", (
-        _s(TS, P.stall_torque, KT, IS, I0),
-        _s(KT, P.torque_constant_from_stall, TS, IS, I0),
-        _s(IS, P.stall_current_from_stall_torque, TS, KT, I0),
-        _s(I0, P.no_load_current_from_stall, TS, KT, IS, fragile=True))),
+        _s("stall_torque", P.stall_torque),
+        _s("torque_constant", P.torque_constant_from_stall),
+        _s("stall_current", P.stall_current_from_stall_torque),
+        _s("no_load_current", P.no_load_current_from_stall, fragile=True))),
     Equation("no-load speed = (V − R·I0)/Ke", (
-        _s(W0, P.no_load_speed, V, R, I0, KE),
-        _s(KE, P.back_emf_constant_from_no_load_speed, W0, V, R, I0),
-        _s(I0, P.no_load_current_from_no_load_speed, W0, V, R, KE, fragile=True),
-        _s(R, P.resistance_from_no_load_speed, W0, V, I0, KE, fragile=True),
-        _s(V, P.supply_voltage_from_no_load_speed, W0, R, I0, KE))),
+        _s("no_load_speed", P.no_load_speed, **_AT_NOMINAL_VOLTAGE),
+        _s("back_emf_constant", P.back_emf_constant_from_no_load_speed, **_AT_NOMINAL_VOLTAGE),
+        _s("no_load_current", P.no_load_current_from_no_load_speed, fragile=True, **_AT_NOMINAL_VOLTAGE),
+        _s("terminal_resistance", P.resistance_from_no_load_speed, fragile=True, **_AT_NOMINAL_VOLTAGE),
+        _s("nominal_voltage", P.supply_voltage_from_no_load_speed))),
     Equation("speed-torque gradient = no-load speed/stall torque", (
-        _s(G, P.speed_torque_gradient_from_no_load_speed_and_stall_torque, W0, TS),
-        _s(TS, P.stall_torque_from_no_load_speed_and_gradient, W0, G),
-        _s(W0, P.no_load_speed_from_stall_torque_and_gradient, TS, G)), dc_constants=True),
+        _s("speed_torque_gradient", P.speed_torque_gradient_from_no_load_speed_and_stall_torque),
+        _s("stall_torque", P.stall_torque_from_no_load_speed_and_gradient),
+        _s("no_load_speed", P.no_load_speed_from_stall_torque_and_gradient)), dc_constants=True),
     Equation("speed-torque gradient = R/(Kt·Ke)", (
-        _s(G, P.speed_torque_gradient, R, KT, KE),
-        _s(R, P.resistance_from_speed_torque_gradient, G, KT, KE),
-        _s(KT, P.torque_constant_from_speed_torque_gradient, G, R)), dc_constants=True),
+        _s("speed_torque_gradient", P.speed_torque_gradient),
+        _s("terminal_resistance", P.resistance_from_speed_torque_gradient),
+        _s("torque_constant", P.torque_constant_from_speed_torque_gradient)), dc_constants=True),
     Equation("friction torque = Kt·I0", (
-        _s("friction_torque", P.friction_torque, KT, I0),
-        _s(I0, P.no_load_current_from_friction_torque, "friction_torque", KT),
-        _s(KT, P.torque_constant_from_friction_torque, "friction_torque", I0))),
+        _s("friction_torque", P.friction_torque),
+        _s("no_load_current", P.no_load_current_from_friction_torque),
+        _s("torque_constant", P.torque_constant_from_friction_torque))),
     Equation("mechanical time constant = J·gradient", (
-        _s("mechanical_time_constant", P.mechanical_time_constant_from_gradient, "rotor_inertia", G),
-        _s("rotor_inertia", P.rotor_inertia_from_gradient, "mechanical_time_constant", G))),
+        _s("mechanical_time_constant", P.mechanical_time_constant_from_gradient),
+        _s("rotor_inertia", P.rotor_inertia_from_gradient))),
     Equation("electrical time constant = L/R", (
-        _s("electrical_time_constant", P.electrical_time_constant, "terminal_inductance", R),
-        _s("terminal_inductance", P.inductance_from_electrical_time_constant, "electrical_time_constant", R),
-        _s(R, P.resistance_from_electrical_time_constant, "electrical_time_constant", "terminal_inductance"))),
+        _s("electrical_time_constant", P.electrical_time_constant),
+        _s("terminal_inductance", P.inductance_from_electrical_time_constant),
+        _s("terminal_resistance", P.resistance_from_electrical_time_constant))),
     Equation("motor constant = Kt/√R", (
-        _s("motor_constant", P.motor_constant, KT, R),
-        _s(R, P.resistance_from_motor_constant, "motor_constant", KT),
-        _s(KT, P.torque_constant_from_motor_constant, "motor_constant", R))),
+        _s("motor_constant", P.motor_constant),
+        _s("terminal_resistance", P.resistance_from_motor_constant),
+        _s("torque_constant", P.torque_constant_from_motor_constant))),
     Equation("maximum efficiency = (1 − √(I0/Is))²", (
-        _s("max_efficiency", P.max_efficiency, I0, IS),
-        _s(I0, P.no_load_current_from_max_efficiency, "max_efficiency", IS),
-        _s(IS, P.stall_current_from_max_efficiency, "max_efficiency", I0))),
+        _s("max_efficiency", P.max_efficiency),
+        _s("no_load_current", P.no_load_current_from_max_efficiency),
+        _s("stall_current", P.stall_current_from_max_efficiency))),
     Equation("maximum output power = (V − R·I0)²/(4R)", (
-        _s("max_output_power", P.max_output_power, V, R, I0),)),
+        _s("max_output_power", P.max_output_power, **_AT_NOMINAL_VOLTAGE),)),
     Equation("nominal current = (Tn + Kt·I0)/Kt", (
-        _s("nominal_current", P.current_at_torque, "nominal_torque", KT, I0),
-        _s("nominal_torque", P.torque_at_current, "nominal_current", KT, I0))),
+        _s("nominal_current", P.current_at_torque, torque="nominal_torque"),
+        _s("nominal_torque", P.torque_at_current, current="nominal_current"))),
     Equation("nominal speed on the speed-torque line", (
-        _s("nominal_speed", P.speed_at_torque, "nominal_torque", V, R, KT, KE, I0),
-        _s("nominal_torque", P.torque_at_speed, "nominal_speed", V, R, KT, KE, I0)), dc_constants=True),
+        _s("nominal_speed", P.speed_at_torque, torque="nominal_torque", **_AT_NOMINAL_VOLTAGE),
+        _s("nominal_torque", P.torque_at_speed, speed="nominal_speed", **_AT_NOMINAL_VOLTAGE)),
+        dc_constants=True),
     Equation("maximum continuous current, thermal model at 25 °C ambient", (
-        _s("max_continuous_current", max_continuous_current_at_rating_ambient, "max_winding_temperature", R,
-           "thermal_resistance_winding_housing", "thermal_resistance_housing_ambient", TREF),)),
+        _s("max_continuous_current", max_continuous_current_at_rating_ambient),)),
     Equation("maximum continuous torque = Kt·(Icont − I0)", (
-        _s("max_continuous_torque", P.torque_at_current, "max_continuous_current", KT, I0),)),
+        _s("max_continuous_torque", P.torque_at_current, current="max_continuous_current"),)),
     Equation("mechanical time constant = J·R/(Kt·Ke)", (
-        _s("mechanical_time_constant", P.mechanical_time_constant, "rotor_inertia", R, KT, KE),
-        _s("rotor_inertia", P.rotor_inertia_from_mechanical_time_constant, "mechanical_time_constant",
-           R, KT, KE)), dc_constants=True),
+        _s("mechanical_time_constant", P.mechanical_time_constant),
+        _s("rotor_inertia", P.rotor_inertia_from_mechanical_time_constant)), dc_constants=True),
     Equation("maximum output power = no-load speed·stall torque/4", (
-        _s("max_output_power", P.max_output_power_from_no_load_speed_and_stall_torque, W0, TS),
-        _s(W0, P.no_load_speed_from_max_output_power, "max_output_power", TS),
-        _s(TS, P.stall_torque_from_max_output_power, "max_output_power", W0))),
+        _s("max_output_power", P.max_output_power_from_no_load_speed_and_stall_torque),
+        _s("no_load_speed", P.no_load_speed_from_max_output_power),
+        _s("stall_torque", P.stall_torque_from_max_output_power))),
     Equation("current at maximum efficiency = √(I0·Is)", (
-        _s("max_efficiency_current", P.max_efficiency_current, I0, IS),
-        _s(I0, P.no_load_current_from_max_efficiency_current, "max_efficiency_current", IS),
-        _s(IS, P.stall_current_from_max_efficiency_current, "max_efficiency_current", I0))),
+        _s("max_efficiency_current", P.max_efficiency_current),
+        _s("no_load_current", P.no_load_current_from_max_efficiency_current),
+        _s("stall_current", P.stall_current_from_max_efficiency_current))),
 )
 
 #: Fields every solver may produce must be numeric motor fields; checked in the tests.
@@ -174,13 +185,15 @@ DERIVABLE = tuple(sorted({s.output for e in EQUATIONS for s in e.solvers}))
 
 #: The resistance reference temperature assumed where a datasheet states none, recorded as a
 #: derivation without inputs (see :func:`derive_columns`).
-ASSUMED_REFERENCE_TEMPERATURE = Solver(TREF, (), None)
+ASSUMED_REFERENCE_TEMPERATURE = Solver("resistance_reference_temperature", (), None)
 #: Every solver, numbered: the codes of :attr:`DeriveResult.codes`.
 SOLVERS = (*(s for e in EQUATIONS for s in e.solvers), ASSUMED_REFERENCE_TEMPERATURE)
 #: The relation text of each solver of :data:`SOLVERS`, by code (what the store records).
 SOLVER_RELATIONS = (*(e.name for e in EQUATIONS for _ in e.solvers),
                     "assumed datasheet reference temperature 25 °C")
 _SOLVER_NAMES = dict(zip(SOLVERS, SOLVER_RELATIONS))
+#: Inputs a solver may use although the datasheet leaves them out, with the value meant then.
+_ASSUMED_INPUTS = {ASSUMED_REFERENCE_TEMPERATURE.output: DEFAULT_REFERENCE_TEMPERATURE}
 _SOLVER_CODES = {id(s): k for k, s in enumerate(SOLVERS)}
 
 
@@ -256,7 +269,7 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
     origin = {name: np.full(n, None, dtype=object) for name in cols}
     codes = {name: np.full(n, -1, dtype=np.int16) for name in cols}
     dc_ok = _dc_basis_mask(text_columns, n)
-    tref_given = ~np.isnan(cols[TREF])
+    tref_given = ~np.isnan(cols["resistance_reference_temperature"])
 
     def apply(fragile: bool) -> bool:
         changed = False
@@ -269,13 +282,13 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
                 if eq.dc_constants:
                     need &= dc_ok
                 for name in solver.inputs:
-                    if name != TREF:
+                    if name not in _ASSUMED_INPUTS:
                         need &= ~np.isnan(cols[name])
                 if not need.any():
                     continue
                 idx = np.flatnonzero(need)
-                args = [cols[name][idx] if name != TREF else
-                        np.where(np.isnan(cols[TREF][idx]), DEFAULT_REFERENCE_TEMPERATURE, cols[TREF][idx])
+                args = [cols[name][idx] if name not in _ASSUMED_INPUTS else
+                        np.where(np.isnan(cols[name][idx]), _ASSUMED_INPUTS[name], cols[name][idx])
                         for name in solver.inputs]
                 with np.errstate(all="ignore"):
                     values = np.asarray(solver.func(*args), dtype=float)
@@ -295,10 +308,11 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
     # record the assumed reference temperature as a derived value where it was used: the
     # resistance reference temperature defaults to 25 °C wherever a resistance is known,
     # given or derived (checked after the closure, which already used the default)
-    tref_missing = ~tref_given & ~np.isnan(cols[R])
-    cols[TREF] = np.where(tref_missing, DEFAULT_REFERENCE_TEMPERATURE, cols[TREF])
-    origin[TREF][tref_missing] = ASSUMED_REFERENCE_TEMPERATURE
-    codes[TREF][tref_missing] = _SOLVER_CODES[id(ASSUMED_REFERENCE_TEMPERATURE)]
+    assumed = ASSUMED_REFERENCE_TEMPERATURE
+    missing = ~tref_given & ~np.isnan(cols["terminal_resistance"])
+    cols[assumed.output] = np.where(missing, DEFAULT_REFERENCE_TEMPERATURE, cols[assumed.output])
+    origin[assumed.output][missing] = assumed
+    codes[assumed.output][missing] = _SOLVER_CODES[id(assumed)]
     equation = _EquationNames(origin)
     return DeriveResult(cols, origin, equation, codes)
 

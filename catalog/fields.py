@@ -61,6 +61,7 @@ class Field:
     pattern: str | None = None
     max_length: int | None = None
     min_length: int | None = None
+    symbol: str | None = None  # the formula symbol (``x-symbol``), e.g. "Kt"
 
     @property
     def is_numeric(self) -> bool:
@@ -70,6 +71,14 @@ class Field:
     def is_quantity(self) -> bool:
         """A numeric field with a physical dimension (its cells carry units)."""
         return self.is_numeric and self.dimension is not None
+
+    @property
+    def si_unit(self) -> str | None:
+        """The SI unit the description states in brackets (``"N·m/A"``), or None."""
+        import re
+
+        found = re.findall(r"\[([^\[\]]+)\]", self.description)
+        return found[-1] if found else None
 
 
 @lru_cache(maxsize=None)
@@ -96,6 +105,7 @@ def fields_for(record_type: str) -> dict[str, Field]:
             pattern=spec.get("pattern"),
             max_length=spec.get("maxLength"),
             min_length=spec.get("minLength"),
+            symbol=spec.get("x-symbol"),
         )
     return out
 

@@ -2,6 +2,7 @@
 from pathlib import Path
 
 from catalog.derive import relation_table_markdown
+from catalog.glossary import glossary_markdown
 from catalog.units import spelling_table_markdown
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -15,6 +16,11 @@ def test_unit_spelling_doc_is_current():
 def test_relation_doc_is_current():
     text = (ROOT / "docs" / "relations.md").read_text(encoding="utf-8")
     assert relation_table_markdown() in text, "regenerate docs/relations.md (see its first lines)"
+
+
+def test_glossary_doc_is_current():
+    text = (ROOT / "docs" / "glossary.md").read_text(encoding="utf-8")
+    assert text == glossary_markdown(), "regenerate docs/glossary.md (see its first lines)"
 
 
 def test_readme_envelope_is_the_shipped_file():

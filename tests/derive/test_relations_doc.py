@@ -85,3 +85,19 @@ def test_a_relation_solves_for_each_field_at_most_once():
     for eq in EQUATIONS:
         outputs = [s.output for s in eq.solvers]
         assert len(outputs) == len(set(outputs)), eq.name
+
+
+#: Parameters of an operating point, which a relation binds to the datasheet field it holds at.
+OPERATING_POINT = {"supply_voltage", "torque", "current", "speed"}
+
+
+@pytest.mark.parametrize("case", SOLVERS, ids=[_id(c) for c in SOLVERS])
+def test_solver_inputs_are_the_parameter_names(case):
+    """One name per quantity: a solver hands a field to the parameter of the same name; only an
+    operating-point parameter takes a field of another name (e.g. supply_voltage <- nominal_voltage)."""
+    eq, s = case
+    params = [p.name for p in inspect.signature(s.func).parameters.values()
+              if p.default is inspect.Parameter.empty]
+    assert len(params) == len(s.inputs), (eq.name, s.output)
+    for param, name in zip(params, s.inputs):
+        assert param == name or param in OPERATING_POINT, (eq.name, s.output, param, name)
