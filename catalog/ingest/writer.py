@@ -20,7 +20,7 @@ bound it.
 """
 from __future__ import annotations
 
-__all__ = ["CHUNK_ROWS", "unique_id", "write_tables"]
+__all__ = ["CHUNK_ROWS", "unique_id", "store_tables"]
 
 import hashlib
 from concurrent.futures import ThreadPoolExecutor
@@ -232,9 +232,10 @@ def _held_before(con) -> tuple[set, set]:
     return stored, leftovers
 
 
-def write_tables(store, report, kept, files: str, derive: bool = True) -> None:
-    """Write ``kept`` — (table, ids, keep mask) of every table with rows to import — in
-    one transaction, filling ``report`` (batch, created, updated, values, derived, flags)."""
+def store_tables(store, report, kept, files: str, derive: bool = True) -> None:
+    """Store ``kept`` — (table, ids, keep mask) of every table with rows to import — in the
+    catalogue in one transaction, filling ``report`` (batch, created, updated, values,
+    derived, flags).  (Writing tables to files is :func:`catalog.export.writers.write_tables`.)"""
     import pyarrow as pa
 
     incoming = [_Incoming(table, keep) for table, _ids, keep in kept]

@@ -20,6 +20,7 @@ transient        two-node network: exact transient and periodic duty
 network          two-node network under a loss profile; the hot fixed point
 gearing          speed, torque and inertia through a gearhead
 cycle            RMS, mean and energy over duty-cycle segments
+broadcast        the @vectorised wrapper every function wears (scalars, arrays, Series)
 """
 
 from . import (cycle, gearing, inverse_constants, inverse_line, inverse_ratings, motor, network,

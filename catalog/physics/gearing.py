@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "motor_side_speed",

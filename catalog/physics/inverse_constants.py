@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "resistance_from_speed_torque_gradient",

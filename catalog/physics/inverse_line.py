@@ -13,7 +13,7 @@ equations), solved algebraically.
 
 from __future__ import annotations
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "resistance_from_stall_current",

@@ -12,7 +12,7 @@ state.  Source: textbook chapter on DC machines, solved algebraically.
 
 from __future__ import annotations
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "no_load_current_from_max_efficiency_current",

@@ -27,7 +27,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "torque_constant_from_back_emf_constant",
@@ -45,8 +45,6 @@ __all__ = [
     "electrical_time_constant",
     "motor_constant",
 ]
-
-_SOURCE = "Textbook chapter on DC machines (armature and torque equations)."
 
 
 @vectorised

@@ -40,7 +40,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = ["NetworkMaps", "network_segment_maps", "network_peak_rise", "network_response", "network_peak_rise_grid",
            "hot_winding_rise"]

@@ -20,7 +20,7 @@ import math
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "WINDING_MATERIALS",

@@ -28,7 +28,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 from .temperature import (
     COEFFICIENT_REFERENCE_TEMPERATURE,
     COPPER_TEMPERATURE_COEFFICIENT,

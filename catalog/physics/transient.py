@@ -30,7 +30,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 from .temperature import (
     COEFFICIENT_REFERENCE_TEMPERATURE,
     COPPER_TEMPERATURE_COEFFICIENT,

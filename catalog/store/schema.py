@@ -7,17 +7,12 @@ canonical field, generated from the schema files.
 """
 from __future__ import annotations
 
-__all__ = ["SCHEMA_VERSION", "MIGRATIONS", "view_sql", "VALUE_COLUMNS"]
+__all__ = ["SCHEMA_VERSION", "MIGRATIONS", "view_sql", "all_view_sql"]
 
 from ..fields import RECORD_TYPES, fields_for
 
 #: Version of the catalogue file layout this code writes.
 SCHEMA_VERSION = 3
-
-VALUE_COLUMNS = (
-    "record_id", "field", "value_num", "value_text", "raw_text", "raw_unit",
-    "origin", "relation", "inputs", "source_file", "source_row", "batch_id",
-)
 
 _V1 = [
     """CREATE TABLE IF NOT EXISTS schema_version (

@@ -1,4 +1,4 @@
-"""Input and output handling shared by every public physics function.
+"""Input and output handling shared by every public physics function (the ``@vectorised`` wrapper).
 
 Physics functions accept Python scalars, numpy arrays and pandas Series and
 broadcast them with numpy rules.  This module converts inputs to numpy before
@@ -23,7 +23,7 @@ from typing import Any, Callable
 
 import numpy as np
 
-__all__ = ["vectorised", "as_float_array"]
+__all__ = ["vectorised"]
 
 
 def _is_series(value: Any) -> bool:
@@ -77,8 +77,3 @@ def vectorised(function: Callable) -> Callable:
         return _finish(result, template)
 
     return wrapper
-
-
-def as_float_array(value: Any) -> np.ndarray:
-    """Return ``value`` as a float ndarray (helper for array-only code paths)."""
-    return np.asarray(value, dtype=float)
