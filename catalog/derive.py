@@ -7,7 +7,11 @@ closure walks the table over whole columns (numpy), filling a missing field
 wherever all the inputs of one of its solvers are present, repeatedly until nothing
 more follows.  Where a record gives every field of a relation, the relation is
 over-determined and its relative residual is computed: a large one is a datasheet
-typo or a different definition.
+typo or a different definition.  A wrong given value can also hide inside the derived
+ones (the closure fills each gap from the first relation that can): after the
+closure, every relation whose fields are all known is evaluated again where it
+involves a given value the derivation did not use (:func:`hidden_residuals`).
+Single values that no datasheet can hold are caught by :mod:`catalog.plausibility`.
 
 Every derived value is recomputed from the given values only, so deriving twice
 changes nothing, and a given value is never replaced.
@@ -19,8 +23,9 @@ from __future__ import annotations
 
 __all__ = ["Equation", "Solver", "EQUATIONS", "DERIVABLE", "SOLVERS", "SOLVER_RELATIONS",
            "ASSUMED_REFERENCE_TEMPERATURE", "max_continuous_current_at_rating_ambient", "DeriveResult",
-           "derive_columns", "residuals", "Flag", "DEFAULT_TOLERANCE", "RATING_AMBIENT",
-           "DEFAULT_REFERENCE_TEMPERATURE", "relation_table_markdown"]
+           "derive_columns", "residuals", "hidden_residuals", "Findings", "Flag", "DEFAULT_TOLERANCE",
+           "RATING_AMBIENT", "DEFAULT_REFERENCE_TEMPERATURE", "FIELD_BITS", "FRAGILE_SOURCE",
+           "source_names", "flag_rank", "relation_table_markdown"]
 
 from dataclasses import dataclass, field
 
@@ -194,6 +199,28 @@ SOLVER_RELATIONS = (*(e.name for e in EQUATIONS for _ in e.solvers),
 _SOLVER_NAMES = dict(zip(SOLVERS, SOLVER_RELATIONS))
 #: Inputs a solver may use although the datasheet leaves them out, with the value meant then.
 _ASSUMED_INPUTS = {ASSUMED_REFERENCE_TEMPERATURE.output: DEFAULT_REFERENCE_TEMPERATURE}
+
+
+def _numeric_motor_fields() -> list:
+    from .fields import fields_for
+
+    return [f.name for f in fields_for("motor").values() if f.is_numeric]
+
+
+#: The bit of each numeric motor field in :attr:`DeriveResult.sources`.
+FIELD_BITS = {name: np.uint64(1) << np.uint64(k) for k, name in enumerate(_numeric_motor_fields())}
+#: The source bit of a value a fragile solver is on the way to: it carries the rounding of its
+#: inputs amplified (a small difference of large numbers), so no check is made through it.
+FRAGILE_SOURCE = np.uint64(1) << np.uint64(63)
+assert len(FIELD_BITS) < 63, "more numeric motor fields than source bits"
+
+
+def source_names(bits: np.ndarray) -> np.ndarray:
+    """Object array of "field, field, ..." (schema order) of each source bit mask in ``bits``."""
+    bits = np.asarray(bits, dtype=np.uint64)
+    distinct, where = np.unique(bits, return_inverse=True)
+    texts = [", ".join(name for name, bit in FIELD_BITS.items() if b & bit) for b in distinct]
+    return np.asarray(texts, dtype=object)[where.reshape(bits.shape)]
 _SOLVER_CODES = {id(s): k for k, s in enumerate(SOLVERS)}
 
 
@@ -218,9 +245,17 @@ class DeriveResult:
     origin: dict  # field -> object ndarray: None (given/missing) or Solver
     equation: dict = field(default_factory=dict)  # field -> object ndarray of equation names
     codes: dict = field(default_factory=dict)  # field -> int16 ndarray: -1 or the index in SOLVERS
+    # field -> uint64 ndarray: the given fields (FIELD_BITS) a value follows from, FRAGILE_SOURCE
+    # where a fragile solver is on the way
+    sources: dict = field(default_factory=dict)
+    dc_ok: np.ndarray | None = None  # True where Kt and Ke are on one basis (see Equation)
 
     def derived_count(self) -> int:
         return int(sum(np.count_nonzero(o != None) for o in self.origin.values()))  # noqa: E711
+
+    def given(self, name: str) -> np.ndarray:
+        """True where the record gives ``name`` (known and not derived)."""
+        return (self.codes[name] < 0) & ~np.isnan(self.columns[name])
 
 
 def _dc_basis_mask(text_columns: dict, n: int) -> np.ndarray:
@@ -268,6 +303,9 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
         cols[name] = np.full(n, np.nan) if arr is None else np.array(arr, dtype=float, copy=True)
     origin = {name: np.full(n, None, dtype=object) for name in cols}
     codes = {name: np.full(n, -1, dtype=np.int16) for name in cols}
+    zero = np.uint64(0)
+    sources = {name: np.where(np.isnan(col), zero, FIELD_BITS.get(name, zero)).astype(np.uint64)
+               for name, col in cols.items()}
     dc_ok = _dc_basis_mask(text_columns, n)
     tref_given = ~np.isnan(cols["resistance_reference_temperature"])
 
@@ -295,9 +333,14 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
                 values = np.broadcast_to(values, idx.shape)
                 ok = _valid(values, solver.output)
                 if ok.any():
-                    out[idx[ok]] = values[ok]
-                    origin[solver.output][idx[ok]] = solver
-                    codes[solver.output][idx[ok]] = _SOLVER_CODES[id(solver)]
+                    rows = idx[ok]
+                    out[rows] = values[ok]
+                    origin[solver.output][rows] = solver
+                    codes[solver.output][rows] = _SOLVER_CODES[id(solver)]
+                    src = FRAGILE_SOURCE if solver.fragile else zero
+                    for name in solver.inputs:
+                        src = src | sources[name][rows]
+                    sources[solver.output][rows] = src
                     changed = True
         return changed
 
@@ -314,12 +357,14 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
     origin[assumed.output][missing] = assumed
     codes[assumed.output][missing] = _SOLVER_CODES[id(assumed)]
     equation = _EquationNames(origin)
-    return DeriveResult(cols, origin, equation, codes)
+    return DeriveResult(cols, origin, equation, codes, sources, dc_ok)
 
 
 @dataclass(frozen=True)
 class Flag:
-    """One over-determined relation whose given values disagree."""
+    """One finding about a record: an over-determined relation whose values disagree (given
+    values alone, or through derived ones), or a value no datasheet can hold
+    (:mod:`catalog.plausibility`, where ``implied_value`` is the limit)."""
 
     record_id: str
     relation: str
@@ -344,15 +389,20 @@ class Flag:
             v, label = display_value(value, f.dimension, preset, field=f)
             return f"{v:.5g} {label}".strip()
 
-        parts = []
+        from .plausibility import check_named
+
+        parts, names = [], set()
         for item in self.given.split(", ") if self.given else []:
             name, _, value = item.partition("=")
+            names.add(name)
             try:
                 parts.append(f"{name} {show(name, float(value))}")
             except ValueError:
                 parts.append(item)
-        return (f"{self.record_id}: {self.relation}: {self.field} given {show(self.field, self.given_value)}, "
-                f"the other values imply {show(self.field, self.implied_value)} ({self.residual:+.1%}); "
+        how = "given" if self.field in names or not names else "derived"
+        other = ("the limit is" if check_named(self.relation) is not None else "the other values imply")
+        return (f"{self.record_id}: {self.relation}: {self.field} {how} {show(self.field, self.given_value)}, "
+                f"{other} {show(self.field, self.implied_value)} ({self.residual:+.1%}); "
                 f"given {', '.join(parts)}")
 
 
@@ -387,6 +437,183 @@ def residuals(columns: dict, text_columns: dict | None = None, n: int | None = N
         out.append((eq, idx, {name: np.asarray(columns[name], dtype=float)[idx] for name in needed},
                     implied, res))
     return out
+
+
+@dataclass
+class Findings:
+    """Rows of checks beyond the direct residuals (aligned arrays, one row per record and check)."""
+
+    idx: np.ndarray  # record positions
+    relation: np.ndarray  # object: the text of the check, as stored in ``flags.relation``
+    field: np.ndarray  # object: the field whose value is compared
+    given: np.ndarray  # object: "field, ..." of the given values involved
+    value: np.ndarray  # the field's value
+    implied: np.ndarray  # what the other values imply (or the limit)
+    residual: np.ndarray  # (value − implied)/|implied|
+
+    @classmethod
+    def empty(cls) -> "Findings":
+        none = np.empty(0, dtype=object)
+        return cls(np.empty(0, dtype=np.int64), none, none, none, np.empty(0), np.empty(0), np.empty(0))
+
+    @classmethod
+    def concat(cls, parts: list) -> "Findings":
+        parts = [p for p in parts if len(p.idx)]
+        if not parts:
+            return cls.empty()
+        return cls(*(np.concatenate([getattr(p, name) for p in parts])
+                     for name in ("idx", "relation", "field", "given", "value", "implied", "residual")))
+
+    def order(self) -> "Findings":
+        """The rows by record, then by the order of the checks (stable)."""
+        keep = np.argsort(self.idx, kind="stable")
+        return Findings(*(getattr(self, name)[keep]
+                          for name in ("idx", "relation", "field", "given", "value", "implied", "residual")))
+
+
+#: What a check through derived values adds to the relation's name.
+THROUGH = ", through derived "
+
+
+def hidden_residuals(result: DeriveResult, tolerance: float = DEFAULT_TOLERANCE) -> Findings:
+    """Contradictions visible only through derived values, above ``tolerance``.
+
+    The closure fills a missing field from the first relation that can, so a wrong given
+    value may be used to derive others, or may stand beside derived values that no
+    relation compares it with: e.g. V, R, Kt, I0 and a stall torque 30 % too high give
+    the stall current V/R, and ``stall torque = Kt·(Is − I0)`` then holds four known
+    values of which the stall torque was never used.  After the closure every relation
+    whose fields are all known is therefore evaluated again where
+
+    * at least one of its fields is derived (all given: that is :func:`residuals`), and
+    * one of its given fields is not among the given values its derived fields follow
+      from (:attr:`DeriveResult.sources`); otherwise the relation holds by construction
+      (it, or relations implied by it, made the derived values), and
+    * no derived field went through a fragile solver (its rounding error, amplified by
+      the condition number, would be flagged instead of a typo).
+
+    The field compared is the first given field the derivation did not use that the
+    relation has a well-conditioned solver for (else its primary field); its residual
+    is (value − implied)/|implied| as for :func:`residuals`.  The given values named are
+    all those the check involves, its own given fields and the sources of its derived
+    ones.  Only rows above ``tolerance`` are returned: they are findings, not the
+    residual table of over-determined relations.
+    """
+    cols, parts, masks = result.columns, [], []
+    n = len(next(iter(cols.values()))) if cols else 0
+    for eq in EQUATIONS:
+        names = eq.fields
+        known = np.ones(n, dtype=bool) if not eq.dc_constants or result.dc_ok is None else result.dc_ok.copy()
+        for name in names:
+            known &= ~np.isnan(cols[name])
+        if not known.any():
+            continue
+        idx = np.flatnonzero(known)
+        given = {name: result.given(name)[idx] for name in names}
+        derived = ~np.logical_and.reduce([given[name] for name in names])
+        mine = np.zeros(len(idx), dtype=np.uint64)  # the relation's own given fields
+        used = np.zeros(len(idx), dtype=np.uint64)  # the given values its derived fields follow from
+        for name in names:
+            bit = FIELD_BITS[name]
+            mine |= np.where(given[name], bit, np.uint64(0))
+            used |= np.where(given[name], np.uint64(0), result.sources[name][idx])
+        check = derived & ((mine & ~used) != 0) & ((used & FRAGILE_SOURCE) == 0)
+        if not check.any():
+            continue
+        idx, mine, used = idx[check], mine[check], used[check]
+        given = {name: g[check] for name, g in given.items()}
+        # the field to compare: the first unused given field with a well-conditioned solver
+        chosen = np.full(len(idx), -1)
+        for k, solver in enumerate(eq.solvers):
+            if solver.fragile:
+                continue
+            unused = given[solver.output] & ((used & FIELD_BITS[solver.output]) == 0)
+            chosen = np.where((chosen < 0) & unused, k, chosen)
+        chosen[chosen < 0] = 0
+        for k in np.unique(chosen):
+            solver, rows = eq.solvers[k], np.flatnonzero(chosen == k)
+            at = idx[rows]
+            with np.errstate(all="ignore"):
+                implied = np.broadcast_to(np.asarray(solver.func(*(cols[name][at] for name in solver.inputs)),
+                                                     dtype=float), at.shape)
+                value = cols[solver.output][at]
+                res = (value - implied) / np.abs(implied)
+            flagged = np.abs(res) > tolerance
+            if not flagged.any():
+                continue
+            rows, at = rows[flagged], at[flagged]
+            through = np.zeros(len(rows), dtype=np.uint64)
+            for name in names:
+                through |= np.where(given[name][rows], np.uint64(0), FIELD_BITS[name])
+            involved = (mine[rows] | used[rows]) & ~FRAGILE_SOURCE
+            masks.append(involved)
+            parts.append(Findings(
+                at, np.asarray([eq.name + THROUGH + t for t in source_names(through)], dtype=object),
+                np.full(len(rows), solver.output, dtype=object), source_names(involved),
+                value[flagged], implied[flagged], res[flagged]))
+    if not parts:
+        return Findings.empty()
+    found, masks = Findings.concat(parts), np.concatenate(masks)
+    keep = _smallest_contradictions(found.idx, masks, _direct_flag_masks(result, set(found.idx), tolerance))
+    return Findings(*(getattr(found, name)[keep]
+                      for name in ("idx", "relation", "field", "given", "value", "implied", "residual")))
+
+
+def _direct_flag_masks(result: DeriveResult, records: set, tolerance: float) -> dict:
+    """record position -> source masks of the relations its given values alone contradict."""
+    out: dict = {}
+    rows = np.fromiter(records, dtype=np.int64)
+    if len(rows) == 0:
+        return out
+    for eq in EQUATIONS:
+        primary = eq.solvers[0]
+        names = (primary.output, *primary.inputs)
+        have = np.logical_and.reduce([result.given(name)[rows] for name in names])
+        if eq.dc_constants and result.dc_ok is not None:
+            have &= result.dc_ok[rows]
+        at = rows[have]
+        if len(at) == 0:
+            continue
+        with np.errstate(all="ignore"):
+            implied = np.asarray(primary.func(*(result.columns[name][at] for name in primary.inputs)), dtype=float)
+            res = (result.columns[primary.output][at] - implied) / np.abs(implied)
+        mask = np.uint64(0)
+        for name in names:
+            mask |= FIELD_BITS[name]
+        for i in at[np.abs(res) > tolerance]:
+            out.setdefault(int(i), []).append(mask)
+    return out
+
+
+def _smallest_contradictions(idx: np.ndarray, masks: np.ndarray, direct: dict) -> np.ndarray:
+    """Which checks through derived values to report: not one whose given values hold all those
+    of a contradiction already reported for the record (a relation of given values alone, or
+    another such check with fewer given values, or the same ones found earlier), which it
+    repeats.  One wrong value still shows in every smallest set of given values it spoils."""
+    keep = np.ones(len(idx), dtype=bool)
+    for i in np.unique(idx):
+        rows = np.flatnonzero(idx == i)
+        known = list(direct.get(int(i), []))
+        for k in sorted(rows, key=lambda r: (bin(int(masks[r])).count("1"), r)):
+            m = masks[k]
+            if any((m & other) == other for other in known):
+                keep[k] = False
+            else:
+                known.append(m)
+    return keep
+
+
+def flag_rank(relation: str) -> int:
+    """Where a flag of ``relation`` comes in a report: the relations in table order, then the
+    checks through derived values in the same order, then the plausibility checks."""
+    from .plausibility import CHECKS, check_named
+
+    name, through, _ = relation.partition(THROUGH)
+    ranks = {eq.name: k for k, eq in enumerate(EQUATIONS)}
+    if name in ranks:
+        return ranks[name] + (len(ranks) if through else 0)
+    check = check_named(relation)
+    return 2 * len(ranks) + (CHECKS.index(check) if check is not None else len(CHECKS))
 
 
 def relation_table_markdown() -> str:

@@ -3,6 +3,7 @@ from pathlib import Path
 
 from catalog.derive import relation_table_markdown
 from catalog.glossary import glossary_markdown
+from catalog.plausibility import check_table_markdown
 from catalog.units import spelling_table_markdown
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -16,6 +17,7 @@ def test_unit_spelling_doc_is_current():
 def test_relation_doc_is_current():
     text = (ROOT / "docs" / "relations.md").read_text(encoding="utf-8")
     assert relation_table_markdown() in text, "regenerate docs/relations.md (see its first lines)"
+    assert check_table_markdown() in text, "regenerate docs/relations.md (see its first lines)"
 
 
 def test_glossary_doc_is_current():

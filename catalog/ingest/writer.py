@@ -297,28 +297,26 @@ def _write_chunks(con, batch: int, report, incoming: list, rids: list, held: np.
     """Chunk by chunk of records: derive those held before from the store, and insert the new
     ones with the values derived from their columns in memory.  Flags are reported in the
     order the store path gives for the whole chunk: by relation, then by record id."""
-    from ..derive import EQUATIONS
-
     numeric = [f.name for f in fields_for("motor").values() if f.is_numeric]
     # where each record of the import is: its table and its row there
     where_table = np.concatenate([np.full(len(inc.rows), t) for t, inc in enumerate(incoming)])
     where_row = np.concatenate([inc.rows for inc in incoming])
-    order = {eq.name: k for k, eq in enumerate(EQUATIONS)}
     # DuckDB inserts a chunk (without the GIL) while the next one is made ready; ``con`` is
     # used by one thread at a time: every use below waits for the insert in flight
     with ThreadPoolExecutor(max_workers=1) as inserter:
         pending = None
         for lo in range(0, len(rids), CHUNK_ROWS):
             pending = _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_table, where_row,
-                                  numeric, order, inserter, pending)
+                                  numeric, inserter, pending)
         if pending is not None:
             pending.result()
 
 
-def _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_table, where_row, numeric, order,
-                inserter, pending):
+def _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_table, where_row, numeric, inserter,
+                pending):
     """Make the records ``lo:lo + CHUNK_ROWS`` ready and hand their insert to ``inserter``
     once the insert ``pending`` (a future, or None) is done; returns the new insert's future."""
+    from ..derive import flag_rank
     from ..store.derived import DerivedRows, derive_in_store, derive_rows
 
     hi = lo + CHUNK_ROWS
@@ -359,5 +357,5 @@ def _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_tabl
         flags += derived.flagged
     if pending is not None:
         pending.result()
-    report.flags.extend(sorted(flags, key=lambda f: (order[f.relation], f.record_id)))
+    report.flags.extend(sorted(flags, key=lambda f: (flag_rank(f.relation), f.record_id)))
     return inserter.submit(_insert_new, con, given, derived, batch)

@@ -15,7 +15,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..derive import DEFAULT_TOLERANCE, SOLVER_RELATIONS, SOLVERS, Flag, derive_columns, residuals
+from ..derive import (DEFAULT_TOLERANCE, SOLVER_RELATIONS, SOLVERS, Findings, Flag, derive_columns, flag_rank,
+                      hidden_residuals, residuals)
+from ..plausibility import implausible_values
 
 
 @dataclass
@@ -120,8 +122,24 @@ def derive_rows(ids, columns: dict, text_columns: dict | None = None,
             text = ", ".join(f"{name}={given[name][k]:.6g}" for name in given)
             out.flagged.append(Flag(str(ids[idx[k]]), eq.name, primary, text, float(given[primary][k]),
                                     float(implied[k]), float(res[k])))
+    # contradictions through derived values and implausible single values: stored when flagged
+    found = Findings.concat([hidden_residuals(result, tolerance), implausible_values(result, tolerance)])
+    if len(found.idx):
+        positions.append(found.idx)
+        tables.append(pa.table({
+            "record_id": id_array.take(pa.array(found.idx)), "relation": pa.array(found.relation, type=pa.string()),
+            "given": pa.array(found.given, type=pa.string()), "field": pa.array(found.field, type=pa.string()),
+            "given_value": _floats(found.value), "implied_value": _floats(found.implied),
+            "residual": _floats(found.residual)}))
+        for k in range(len(found.idx)):
+            i = found.idx[k]
+            text = ", ".join(f"{name}={columns[name][i]:.6g}" for name in found.given[k].split(", ") if name)
+            out.flagged.append(Flag(str(ids[i]), found.relation[k], found.field[k], text, float(found.value[k]),
+                                    float(found.implied[k]), float(found.residual[k])))
     if tables:  # record by record too
         out.flags = pa.concat_tables(tables).take(pa.array(np.argsort(np.concatenate(positions), kind="stable")))
+    where = {rid: k for k, rid in enumerate(ids)} if out.flagged else {}
+    out.flagged.sort(key=lambda f: (flag_rank(f.relation), where[f.record_id]))
     return out
 
 
