@@ -162,10 +162,14 @@ EQUATIONS: tuple = (
         _s("max_output_power", P.max_output_power, **_AT_NOMINAL_VOLTAGE),)),
     Equation("nominal current = (Tn + Kt·I0)/Kt", (
         _s("nominal_current", P.current_at_torque, torque="nominal_torque"),
-        _s("nominal_torque", P.torque_at_current, current="nominal_current"))),
+        _s("nominal_torque", P.torque_at_current, current="nominal_current"),
+        _s("no_load_current", P.no_load_current_from_current_and_torque, fragile=True,
+           torque="nominal_torque", current="nominal_current"))),
     Equation("nominal speed on the speed-torque line", (
         _s("nominal_speed", P.speed_at_torque, torque="nominal_torque", **_AT_NOMINAL_VOLTAGE),
-        _s("nominal_torque", P.torque_at_speed, speed="nominal_speed", **_AT_NOMINAL_VOLTAGE)),
+        _s("nominal_torque", P.torque_at_speed, speed="nominal_speed", **_AT_NOMINAL_VOLTAGE),
+        _s("no_load_current", P.no_load_current_from_speed_and_torque, fragile=True,
+           torque="nominal_torque", speed="nominal_speed", **_AT_NOMINAL_VOLTAGE)),
         dc_constants=True),
     Equation("maximum continuous current, thermal model at 25 °C ambient", (
         _s("max_continuous_current", max_continuous_current_at_rating_ambient),)),

@@ -8,10 +8,11 @@ reference here; they are themselves checked against textbook relations in
 tests/physics.
 
 Tolerance: every value is reproduced to rel 1e-9.  The solvers marked
-``fragile`` (I0 = Is − Ts/Kt, I0 = (V − Ke·ω0)/R, R = (V − Ke·ω0)/I0) subtract two
-nearly equal numbers; the loss is bounded by the condition number Is/I0 (or
-V/(R·I0)), which the drawn range (I0 = 0.5–10 % of V/R) keeps at or below 200,
-i.e. at most ~2.3 of the ~16 digits of a double.  So 1e-9 holds for them too, with
+``fragile`` (I0 = Is − Ts/Kt, I0 = (V − Ke·ω0)/R, R = (V − Ke·ω0)/I0, I0 = In − Tn/Kt,
+I0 from the nominal point) subtract two nearly equal numbers; the loss is bounded by
+the condition number Is/I0 (or V/(R·I0), In/I0 times V/(R·In)), which the drawn ranges
+(I0 = 0.5–10 % of V/R, Tn = 10–60 % of Ts) keep below about 2000, i.e. at most ~3.3 of
+the ~16 digits of a double.  So 1e-9 holds for them too, with
 about four orders of margin: the fragility matters for rounded datasheet numbers,
 not for float round-off, and these tests use exact floats.
 """
@@ -56,6 +57,8 @@ CORE_FAMILIES = {
     "V w0 G Kt Tf": {V, W0, G, KT, TF},  # I0 = Tf/Kt, Ts = ω0/G, Is, R = V/Is
     "V R Kt eta": {V, R, KT, ETA},  # I0 = Is·(1 − √η)²
     "V Ke tau_e L Ts I0": {V, KE, TE, L, TS, I0},  # R = L/τe
+    "V R Kt In Tn": {V, R, KT, IN, TN},  # I0 = In − Tn/Kt (fragile)
+    "V R Kt wn Tn": {V, R, KT, WN, TN},  # I0 from the nominal point on the speed-torque line (fragile)
 }
 # the other fields are not derivable from the electrical constants; one of each group
 MECHANICAL = ({J}, {TM})
