@@ -92,4 +92,14 @@ def glossary_markdown() -> str:
     lines += ["", "| symbol | name | SI unit | meaning |", "|---|---|---|---|"]
     for symbol, name, unit, meaning in OTHER_QUANTITIES:
         lines.append(f"| {symbol} | `{name}` | {unit} | {meaning} |")
+    lines += ["", "## Text values", "",
+              "A text field takes one of its values, read in any case and with words joined by spaces,",
+              "hyphens or underscores alike; the other spellings below (`x-synonyms` of the schema) are read",
+              "as the value too. The value is stored, the text as written is kept beside it.", "",
+              "| field | value | also read |", "|---|---|---|"]
+    for record_type in RECORD_TYPES:
+        for f in fields_for(record_type).values():
+            for value in f.enum or ():
+                also = ", ".join(f"`{s}`" for s, v in f.synonyms if v == value)
+                lines.append(f"| `{f.name}` | `{value}` | {also or '–'} |")
     return "\n".join(lines) + "\n"
