@@ -191,7 +191,8 @@ class Catalog(StockMethods):
         relative residual above which a relation is flagged.  Returns the
         number of values derived and the flags.
         """
-        from .derive import DEFAULT_TOLERANCE, derive_in_store
+        from .derive import DEFAULT_TOLERANCE
+        from .store.derived import derive_in_store
 
         tolerance = DEFAULT_TOLERANCE if tolerance is None else float(tolerance)
         with self.store.write() as con:

@@ -7,16 +7,25 @@ closure walks the table over whole columns (numpy), filling a missing field
 wherever all the inputs of one of its solvers are present, repeatedly until nothing
 more follows.  Where a record gives every field of a relation, the relation is
 over-determined and its relative residual is computed: a large one is a datasheet
-typo or a different definition.
+typo or a different definition.  A wrong given value can also hide inside the derived
+ones (the closure fills each gap from the first relation that can): after the
+closure, every relation whose fields are all known is evaluated again where it
+involves a given value the derivation did not use (:func:`hidden_residuals`).
+Single values that no datasheet can hold are caught by :mod:`catalog.plausibility`.
 
 Every derived value is recomputed from the given values only, so deriving twice
 changes nothing, and a given value is never replaced.
+
+Nothing here reads or writes the catalogue: columns in, columns out.  Storing the
+derived values, their history and the residuals is :mod:`catalog.store.derived`.
 """
 from __future__ import annotations
 
-__all__ = ["Equation", "Solver", "EQUATIONS", "DeriveResult", "derive_columns", "residuals",
-           "derive_rows", "DerivedRows", "derive_in_store", "DEFAULT_TOLERANCE",
-           "relation_table_markdown", "Flag"]
+__all__ = ["Equation", "Solver", "EQUATIONS", "DERIVABLE", "SOLVERS", "SOLVER_RELATIONS",
+           "ASSUMED_REFERENCE_TEMPERATURE", "max_continuous_current_at_rating_ambient", "DeriveResult",
+           "derive_columns", "residuals", "hidden_residuals", "Findings", "Flag", "DEFAULT_TOLERANCE",
+           "RATING_AMBIENT", "DEFAULT_REFERENCE_TEMPERATURE", "FIELD_BITS", "FRAGILE_SOURCE",
+           "source_names", "flag_rank", "relation_table_markdown"]
 
 from dataclasses import dataclass, field
 
@@ -65,95 +74,158 @@ class Equation:
         return tuple(out)
 
 
-def _s(output, func, *inputs, fragile=False):
-    return Solver(output, tuple(inputs), func, fragile)
+def _s(output: str, func, fragile: bool = False, **bind) -> Solver:
+    """The solver ``output = func(...)``.
+
+    Its inputs are the names of ``func``'s required parameters, which are schema field
+    names; a parameter of an operating quantity (``supply_voltage``, ``torque``,
+    ``current``, ``speed``) is bound to the datasheet field it takes here by ``bind``.
+    """
+    import inspect
+
+    params = [p.name for p in inspect.signature(func).parameters.values()
+              if p.default is inspect.Parameter.empty and p.kind is p.POSITIONAL_OR_KEYWORD]
+    unknown = set(bind) - set(params)
+    if unknown:
+        raise TypeError(f"{func.__name__} has no parameter {sorted(unknown)}")
+    return Solver(output, tuple(bind.get(name, name) for name in params), func, fragile)
 
 
-V, R, I0, KT, KE = "nominal_voltage", "terminal_resistance", "no_load_current", "torque_constant", "back_emf_constant"
-IS, TS, W0, G = "stall_current", "stall_torque", "no_load_speed", "speed_torque_gradient"
-TREF = "resistance_reference_temperature"
+def max_continuous_current_at_rating_ambient(max_winding_temperature, terminal_resistance,
+                                             thermal_resistance_winding_housing,
+                                             thermal_resistance_housing_ambient,
+                                             resistance_reference_temperature):
+    """The catalogue's maximum continuous current [A]: the steady current that brings the
+    winding to ``max_winding_temperature`` at the rating ambient :data:`RATING_AMBIENT`
+    (:func:`catalog.physics.max_continuous_current` with the ambient fixed)."""
+    return P.max_continuous_current(max_winding_temperature, terminal_resistance,
+                                    thermal_resistance_winding_housing, thermal_resistance_housing_ambient,
+                                    RATING_AMBIENT, resistance_reference_temperature)
 
 
-def _max_continuous_current(tmax, r, rth1, rth2, tref):
-    return P.max_continuous_current(tmax, r, rth1, rth2, RATING_AMBIENT, tref)
-
+#: The datasheet's own operating point: its characteristic values hold at the nominal voltage.
+_AT_NOMINAL_VOLTAGE = {"supply_voltage": "nominal_voltage"}
 
 EQUATIONS: tuple = (
     Equation("torque constant = back-EMF constant (SI)", (
-        _s(KT, P.torque_constant_from_back_emf_constant, KE),
-        _s(KE, P.back_emf_constant_from_torque_constant, KT)), dc_constants=True),
+        _s("torque_constant", P.torque_constant_from_back_emf_constant),
+        _s("back_emf_constant", P.back_emf_constant_from_torque_constant)), dc_constants=True),
     Equation("speed constant = 1/back-EMF constant", (
-        _s("speed_constant", P.speed_constant_from_back_emf_constant, KE),
-        _s(KE, P.back_emf_constant_from_speed_constant, "speed_constant")), dc_constants=True),
+        _s("speed_constant", P.speed_constant_from_back_emf_constant),
+        _s("back_emf_constant", P.back_emf_constant_from_speed_constant)), dc_constants=True),
     Equation("torque constant = 1/speed constant (SI)", (
-        _s(KT, P.torque_constant_from_speed_constant, "speed_constant"),
-        _s("speed_constant", P.speed_constant_from_torque_constant, KT)), dc_constants=True),
+        _s("torque_constant", P.torque_constant_from_speed_constant),
+        _s("speed_constant", P.speed_constant_from_torque_constant)), dc_constants=True),
     Equation("stall current = V/R", (
-        _s(IS, P.stall_current, V, R),
-        _s(R, P.resistance_from_stall_current, V, IS),
-        _s(V, P.supply_voltage_from_stall_current, IS, R))),
+        _s("stall_current", P.stall_current, **_AT_NOMINAL_VOLTAGE),
+        _s("terminal_resistance", P.resistance_from_stall_current, **_AT_NOMINAL_VOLTAGE),
+        _s("nominal_voltage", P.supply_voltage_from_stall_current))),
     Equation("stall torque = Kt·(Is − I0)", (
-        _s(TS, P.stall_torque, KT, IS, I0),
-        _s(KT, P.torque_constant_from_stall, TS, IS, I0),
-        _s(IS, P.stall_current_from_stall_torque, TS, KT, I0),
-        _s(I0, P.no_load_current_from_stall, TS, KT, IS, fragile=True))),
+        _s("stall_torque", P.stall_torque),
+        _s("torque_constant", P.torque_constant_from_stall),
+        _s("stall_current", P.stall_current_from_stall_torque),
+        _s("no_load_current", P.no_load_current_from_stall, fragile=True))),
     Equation("no-load speed = (V − R·I0)/Ke", (
-        _s(W0, P.no_load_speed, V, R, I0, KE),
-        _s(KE, P.back_emf_constant_from_no_load_speed, W0, V, R, I0),
-        _s(I0, P.no_load_current_from_no_load_speed, W0, V, R, KE, fragile=True),
-        _s(R, P.resistance_from_no_load_speed, W0, V, I0, KE, fragile=True),
-        _s(V, P.supply_voltage_from_no_load_speed, W0, R, I0, KE))),
+        _s("no_load_speed", P.no_load_speed, **_AT_NOMINAL_VOLTAGE),
+        _s("back_emf_constant", P.back_emf_constant_from_no_load_speed, **_AT_NOMINAL_VOLTAGE),
+        _s("no_load_current", P.no_load_current_from_no_load_speed, fragile=True, **_AT_NOMINAL_VOLTAGE),
+        _s("terminal_resistance", P.resistance_from_no_load_speed, fragile=True, **_AT_NOMINAL_VOLTAGE),
+        _s("nominal_voltage", P.supply_voltage_from_no_load_speed))),
     Equation("speed-torque gradient = no-load speed/stall torque", (
-        _s(G, P.speed_torque_gradient_from_no_load_speed_and_stall_torque, W0, TS),
-        _s(TS, P.stall_torque_from_no_load_speed_and_gradient, W0, G),
-        _s(W0, P.no_load_speed_from_stall_torque_and_gradient, TS, G)), dc_constants=True),
+        _s("speed_torque_gradient", P.speed_torque_gradient_from_no_load_speed_and_stall_torque),
+        _s("stall_torque", P.stall_torque_from_no_load_speed_and_gradient),
+        _s("no_load_speed", P.no_load_speed_from_stall_torque_and_gradient)), dc_constants=True),
     Equation("speed-torque gradient = R/(Kt·Ke)", (
-        _s(G, P.speed_torque_gradient, R, KT, KE),
-        _s(R, P.resistance_from_speed_torque_gradient, G, KT, KE)), dc_constants=True),
+        _s("speed_torque_gradient", P.speed_torque_gradient),
+        _s("terminal_resistance", P.resistance_from_speed_torque_gradient),
+        _s("torque_constant", P.torque_constant_from_speed_torque_gradient)), dc_constants=True),
     Equation("friction torque = Kt·I0", (
-        _s("friction_torque", P.friction_torque, KT, I0),
-        _s(I0, P.no_load_current_from_friction_torque, "friction_torque", KT),
-        _s(KT, P.torque_constant_from_friction_torque, "friction_torque", I0))),
+        _s("friction_torque", P.friction_torque),
+        _s("no_load_current", P.no_load_current_from_friction_torque),
+        _s("torque_constant", P.torque_constant_from_friction_torque))),
     Equation("mechanical time constant = J·gradient", (
-        _s("mechanical_time_constant", P.mechanical_time_constant_from_gradient, "rotor_inertia", G),
-        _s("rotor_inertia", P.rotor_inertia_from_gradient, "mechanical_time_constant", G))),
+        _s("mechanical_time_constant", P.mechanical_time_constant_from_gradient),
+        _s("rotor_inertia", P.rotor_inertia_from_gradient))),
     Equation("electrical time constant = L/R", (
-        _s("electrical_time_constant", P.electrical_time_constant, "terminal_inductance", R),
-        _s("terminal_inductance", P.inductance_from_electrical_time_constant, "electrical_time_constant", R),
-        _s(R, P.resistance_from_electrical_time_constant, "electrical_time_constant", "terminal_inductance"))),
+        _s("electrical_time_constant", P.electrical_time_constant),
+        _s("terminal_inductance", P.inductance_from_electrical_time_constant),
+        _s("terminal_resistance", P.resistance_from_electrical_time_constant))),
     Equation("motor constant = Kt/√R", (
-        _s("motor_constant", P.motor_constant, KT, R),
-        _s(R, P.resistance_from_motor_constant, "motor_constant", KT),
-        _s(KT, P.torque_constant_from_motor_constant, "motor_constant", R))),
+        _s("motor_constant", P.motor_constant),
+        _s("terminal_resistance", P.resistance_from_motor_constant),
+        _s("torque_constant", P.torque_constant_from_motor_constant))),
     Equation("maximum efficiency = (1 − √(I0/Is))²", (
-        _s("max_efficiency", P.max_efficiency, I0, IS),
-        _s(I0, P.no_load_current_from_max_efficiency, "max_efficiency", IS),
-        _s(IS, P.stall_current_from_max_efficiency, "max_efficiency", I0))),
+        _s("max_efficiency", P.max_efficiency),
+        _s("no_load_current", P.no_load_current_from_max_efficiency),
+        _s("stall_current", P.stall_current_from_max_efficiency))),
     Equation("maximum output power = (V − R·I0)²/(4R)", (
-        _s("max_output_power", P.max_output_power, V, R, I0),)),
+        _s("max_output_power", P.max_output_power, **_AT_NOMINAL_VOLTAGE),)),
     Equation("nominal current = (Tn + Kt·I0)/Kt", (
-        _s("nominal_current", P.current_at_torque, "nominal_torque", KT, I0),
-        _s("nominal_torque", P.torque_at_current, "nominal_current", KT, I0))),
+        _s("nominal_current", P.current_at_torque, torque="nominal_torque"),
+        _s("nominal_torque", P.torque_at_current, current="nominal_current"),
+        _s("no_load_current", P.no_load_current_from_current_and_torque, fragile=True,
+           torque="nominal_torque", current="nominal_current"))),
     Equation("nominal speed on the speed-torque line", (
-        _s("nominal_speed", P.speed_at_torque, "nominal_torque", V, R, KT, KE, I0),
-        _s("nominal_torque", P.torque_at_speed, "nominal_speed", V, R, KT, KE, I0)), dc_constants=True),
+        _s("nominal_speed", P.speed_at_torque, torque="nominal_torque", **_AT_NOMINAL_VOLTAGE),
+        _s("nominal_torque", P.torque_at_speed, speed="nominal_speed", **_AT_NOMINAL_VOLTAGE),
+        _s("no_load_current", P.no_load_current_from_speed_and_torque, fragile=True,
+           torque="nominal_torque", speed="nominal_speed", **_AT_NOMINAL_VOLTAGE)),
+        dc_constants=True),
     Equation("maximum continuous current, thermal model at 25 °C ambient", (
-        _s("max_continuous_current", _max_continuous_current, "max_winding_temperature", R,
-           "thermal_resistance_winding_housing", "thermal_resistance_housing_ambient", TREF),)),
+        _s("max_continuous_current", max_continuous_current_at_rating_ambient),)),
     Equation("maximum continuous torque = Kt·(Icont − I0)", (
-        _s("max_continuous_torque", P.torque_at_current, "max_continuous_current", KT, I0),)),
+        _s("max_continuous_torque", P.torque_at_current, current="max_continuous_current"),)),
+    Equation("mechanical time constant = J·R/(Kt·Ke)", (
+        _s("mechanical_time_constant", P.mechanical_time_constant),
+        _s("rotor_inertia", P.rotor_inertia_from_mechanical_time_constant)), dc_constants=True),
+    Equation("maximum output power = no-load speed·stall torque/4", (
+        _s("max_output_power", P.max_output_power_from_no_load_speed_and_stall_torque),
+        _s("no_load_speed", P.no_load_speed_from_max_output_power),
+        _s("stall_torque", P.stall_torque_from_max_output_power))),
+    Equation("current at maximum efficiency = √(I0·Is)", (
+        _s("max_efficiency_current", P.max_efficiency_current),
+        _s("no_load_current", P.no_load_current_from_max_efficiency_current),
+        _s("stall_current", P.stall_current_from_max_efficiency_current))),
 )
 
 #: Fields every solver may produce must be numeric motor fields; checked in the tests.
 DERIVABLE = tuple(sorted({s.output for e in EQUATIONS for s in e.solvers}))
 
 
-_DEFAULT_SOLVER = Solver(TREF, (), None)
-_SOLVER_NAMES = {s: e.name for e in EQUATIONS for s in e.solvers}
-_SOLVER_NAMES[_DEFAULT_SOLVER] = "assumed datasheet reference temperature 25 °C"
+#: The resistance reference temperature assumed where a datasheet states none, recorded as a
+#: derivation without inputs (see :func:`derive_columns`).
+ASSUMED_REFERENCE_TEMPERATURE = Solver("resistance_reference_temperature", (), None)
 #: Every solver, numbered: the codes of :attr:`DeriveResult.codes`.
-_SOLVERS = (*(s for e in EQUATIONS for s in e.solvers), _DEFAULT_SOLVER)
-_SOLVER_CODES = {id(s): k for k, s in enumerate(_SOLVERS)}
+SOLVERS = (*(s for e in EQUATIONS for s in e.solvers), ASSUMED_REFERENCE_TEMPERATURE)
+#: The relation text of each solver of :data:`SOLVERS`, by code (what the store records).
+SOLVER_RELATIONS = (*(e.name for e in EQUATIONS for _ in e.solvers),
+                    "assumed datasheet reference temperature 25 °C")
+_SOLVER_NAMES = dict(zip(SOLVERS, SOLVER_RELATIONS))
+#: Inputs a solver may use although the datasheet leaves them out, with the value meant then.
+_ASSUMED_INPUTS = {ASSUMED_REFERENCE_TEMPERATURE.output: DEFAULT_REFERENCE_TEMPERATURE}
+
+
+def _numeric_motor_fields() -> list:
+    from .fields import fields_for
+
+    return [f.name for f in fields_for("motor").values() if f.is_numeric]
+
+
+#: The bit of each numeric motor field in :attr:`DeriveResult.sources`.
+FIELD_BITS = {name: np.uint64(1) << np.uint64(k) for k, name in enumerate(_numeric_motor_fields())}
+#: The source bit of a value a fragile solver is on the way to: it carries the rounding of its
+#: inputs amplified (a small difference of large numbers), so no check is made through it.
+FRAGILE_SOURCE = np.uint64(1) << np.uint64(63)
+assert len(FIELD_BITS) < 63, "more numeric motor fields than source bits"
+
+
+def source_names(bits: np.ndarray) -> np.ndarray:
+    """Object array of "field, field, ..." (schema order) of each source bit mask in ``bits``."""
+    bits = np.asarray(bits, dtype=np.uint64)
+    distinct, where = np.unique(bits, return_inverse=True)
+    texts = [", ".join(name for name, bit in FIELD_BITS.items() if b & bit) for b in distinct]
+    return np.asarray(texts, dtype=object)[where.reshape(bits.shape)]
+_SOLVER_CODES = {id(s): k for k, s in enumerate(SOLVERS)}
 
 
 class _EquationNames:
@@ -176,10 +248,18 @@ class DeriveResult:
     columns: dict  # field -> float ndarray (given and derived)
     origin: dict  # field -> object ndarray: None (given/missing) or Solver
     equation: dict = field(default_factory=dict)  # field -> object ndarray of equation names
-    codes: dict = field(default_factory=dict)  # field -> int16 ndarray: -1 or the index in _SOLVERS
+    codes: dict = field(default_factory=dict)  # field -> int16 ndarray: -1 or the index in SOLVERS
+    # field -> uint64 ndarray: the given fields (FIELD_BITS) a value follows from, FRAGILE_SOURCE
+    # where a fragile solver is on the way
+    sources: dict = field(default_factory=dict)
+    dc_ok: np.ndarray | None = None  # True where Kt and Ke are on one basis (see Equation)
 
     def derived_count(self) -> int:
         return int(sum(np.count_nonzero(o != None) for o in self.origin.values()))  # noqa: E711
+
+    def given(self, name: str) -> np.ndarray:
+        """True where the record gives ``name`` (known and not derived)."""
+        return (self.codes[name] < 0) & ~np.isnan(self.columns[name])
 
 
 def _dc_basis_mask(text_columns: dict, n: int) -> np.ndarray:
@@ -227,8 +307,11 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
         cols[name] = np.full(n, np.nan) if arr is None else np.array(arr, dtype=float, copy=True)
     origin = {name: np.full(n, None, dtype=object) for name in cols}
     codes = {name: np.full(n, -1, dtype=np.int16) for name in cols}
+    zero = np.uint64(0)
+    sources = {name: np.where(np.isnan(col), zero, FIELD_BITS.get(name, zero)).astype(np.uint64)
+               for name, col in cols.items()}
     dc_ok = _dc_basis_mask(text_columns, n)
-    tref_given = ~np.isnan(cols[TREF])
+    tref_given = ~np.isnan(cols["resistance_reference_temperature"])
 
     def apply(fragile: bool) -> bool:
         changed = False
@@ -241,22 +324,27 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
                 if eq.dc_constants:
                     need &= dc_ok
                 for name in solver.inputs:
-                    if name != TREF:
+                    if name not in _ASSUMED_INPUTS:
                         need &= ~np.isnan(cols[name])
                 if not need.any():
                     continue
                 idx = np.flatnonzero(need)
-                args = [cols[name][idx] if name != TREF else
-                        np.where(np.isnan(cols[TREF][idx]), DEFAULT_REFERENCE_TEMPERATURE, cols[TREF][idx])
+                args = [cols[name][idx] if name not in _ASSUMED_INPUTS else
+                        np.where(np.isnan(cols[name][idx]), _ASSUMED_INPUTS[name], cols[name][idx])
                         for name in solver.inputs]
                 with np.errstate(all="ignore"):
                     values = np.asarray(solver.func(*args), dtype=float)
                 values = np.broadcast_to(values, idx.shape)
                 ok = _valid(values, solver.output)
                 if ok.any():
-                    out[idx[ok]] = values[ok]
-                    origin[solver.output][idx[ok]] = solver
-                    codes[solver.output][idx[ok]] = _SOLVER_CODES[id(solver)]
+                    rows = idx[ok]
+                    out[rows] = values[ok]
+                    origin[solver.output][rows] = solver
+                    codes[solver.output][rows] = _SOLVER_CODES[id(solver)]
+                    src = FRAGILE_SOURCE if solver.fragile else zero
+                    for name in solver.inputs:
+                        src = src | sources[name][rows]
+                    sources[solver.output][rows] = src
                     changed = True
         return changed
 
@@ -267,17 +355,20 @@ def derive_columns(columns: dict, text_columns: dict | None = None, n: int | Non
     # record the assumed reference temperature as a derived value where it was used: the
     # resistance reference temperature defaults to 25 °C wherever a resistance is known,
     # given or derived (checked after the closure, which already used the default)
-    tref_missing = ~tref_given & ~np.isnan(cols[R])
-    cols[TREF] = np.where(tref_missing, DEFAULT_REFERENCE_TEMPERATURE, cols[TREF])
-    origin[TREF][tref_missing] = _DEFAULT_SOLVER
-    codes[TREF][tref_missing] = _SOLVER_CODES[id(_DEFAULT_SOLVER)]
+    assumed = ASSUMED_REFERENCE_TEMPERATURE
+    missing = ~tref_given & ~np.isnan(cols["terminal_resistance"])
+    cols[assumed.output] = np.where(missing, DEFAULT_REFERENCE_TEMPERATURE, cols[assumed.output])
+    origin[assumed.output][missing] = assumed
+    codes[assumed.output][missing] = _SOLVER_CODES[id(assumed)]
     equation = _EquationNames(origin)
-    return DeriveResult(cols, origin, equation, codes)
+    return DeriveResult(cols, origin, equation, codes, sources, dc_ok)
 
 
 @dataclass(frozen=True)
 class Flag:
-    """One over-determined relation whose given values disagree."""
+    """One finding about a record: an over-determined relation whose values disagree (given
+    values alone, or through derived ones), or a value no datasheet can hold
+    (:mod:`catalog.plausibility`, where ``implied_value`` is the limit)."""
 
     record_id: str
     relation: str
@@ -302,15 +393,20 @@ class Flag:
             v, label = display_value(value, f.dimension, preset, field=f)
             return f"{v:.5g} {label}".strip()
 
-        parts = []
+        from .plausibility import check_named
+
+        parts, names = [], set()
         for item in self.given.split(", ") if self.given else []:
             name, _, value = item.partition("=")
+            names.add(name)
             try:
                 parts.append(f"{name} {show(name, float(value))}")
             except ValueError:
                 parts.append(item)
-        return (f"{self.record_id}: {self.relation}: {self.field} given {show(self.field, self.given_value)}, "
-                f"the other values imply {show(self.field, self.implied_value)} ({self.residual:+.1%}); "
+        how = "given" if self.field in names or not names else "derived"
+        other = ("the limit is" if check_named(self.relation) is not None else "the other values imply")
+        return (f"{self.record_id}: {self.relation}: {self.field} {how} {show(self.field, self.given_value)}, "
+                f"{other} {show(self.field, self.implied_value)} ({self.residual:+.1%}); "
                 f"given {', '.join(parts)}")
 
 
@@ -347,6 +443,183 @@ def residuals(columns: dict, text_columns: dict | None = None, n: int | None = N
     return out
 
 
+@dataclass
+class Findings:
+    """Rows of checks beyond the direct residuals (aligned arrays, one row per record and check)."""
+
+    idx: np.ndarray  # record positions
+    relation: np.ndarray  # object: the text of the check, as stored in ``flags.relation``
+    field: np.ndarray  # object: the field whose value is compared
+    given: np.ndarray  # object: "field, ..." of the given values involved
+    value: np.ndarray  # the field's value
+    implied: np.ndarray  # what the other values imply (or the limit)
+    residual: np.ndarray  # (value − implied)/|implied|
+
+    @classmethod
+    def empty(cls) -> "Findings":
+        none = np.empty(0, dtype=object)
+        return cls(np.empty(0, dtype=np.int64), none, none, none, np.empty(0), np.empty(0), np.empty(0))
+
+    @classmethod
+    def concat(cls, parts: list) -> "Findings":
+        parts = [p for p in parts if len(p.idx)]
+        if not parts:
+            return cls.empty()
+        return cls(*(np.concatenate([getattr(p, name) for p in parts])
+                     for name in ("idx", "relation", "field", "given", "value", "implied", "residual")))
+
+    def order(self) -> "Findings":
+        """The rows by record, then by the order of the checks (stable)."""
+        keep = np.argsort(self.idx, kind="stable")
+        return Findings(*(getattr(self, name)[keep]
+                          for name in ("idx", "relation", "field", "given", "value", "implied", "residual")))
+
+
+#: What a check through derived values adds to the relation's name.
+THROUGH = ", through derived "
+
+
+def hidden_residuals(result: DeriveResult, tolerance: float = DEFAULT_TOLERANCE) -> Findings:
+    """Contradictions visible only through derived values, above ``tolerance``.
+
+    The closure fills a missing field from the first relation that can, so a wrong given
+    value may be used to derive others, or may stand beside derived values that no
+    relation compares it with: e.g. V, R, Kt, I0 and a stall torque 30 % too high give
+    the stall current V/R, and ``stall torque = Kt·(Is − I0)`` then holds four known
+    values of which the stall torque was never used.  After the closure every relation
+    whose fields are all known is therefore evaluated again where
+
+    * at least one of its fields is derived (all given: that is :func:`residuals`), and
+    * one of its given fields is not among the given values its derived fields follow
+      from (:attr:`DeriveResult.sources`); otherwise the relation holds by construction
+      (it, or relations implied by it, made the derived values), and
+    * no derived field went through a fragile solver (its rounding error, amplified by
+      the condition number, would be flagged instead of a typo).
+
+    The field compared is the first given field the derivation did not use that the
+    relation has a well-conditioned solver for (else its primary field); its residual
+    is (value − implied)/|implied| as for :func:`residuals`.  The given values named are
+    all those the check involves, its own given fields and the sources of its derived
+    ones.  Only rows above ``tolerance`` are returned: they are findings, not the
+    residual table of over-determined relations.
+    """
+    cols, parts, masks = result.columns, [], []
+    n = len(next(iter(cols.values()))) if cols else 0
+    for eq in EQUATIONS:
+        names = eq.fields
+        known = np.ones(n, dtype=bool) if not eq.dc_constants or result.dc_ok is None else result.dc_ok.copy()
+        for name in names:
+            known &= ~np.isnan(cols[name])
+        if not known.any():
+            continue
+        idx = np.flatnonzero(known)
+        given = {name: result.given(name)[idx] for name in names}
+        derived = ~np.logical_and.reduce([given[name] for name in names])
+        mine = np.zeros(len(idx), dtype=np.uint64)  # the relation's own given fields
+        used = np.zeros(len(idx), dtype=np.uint64)  # the given values its derived fields follow from
+        for name in names:
+            bit = FIELD_BITS[name]
+            mine |= np.where(given[name], bit, np.uint64(0))
+            used |= np.where(given[name], np.uint64(0), result.sources[name][idx])
+        check = derived & ((mine & ~used) != 0) & ((used & FRAGILE_SOURCE) == 0)
+        if not check.any():
+            continue
+        idx, mine, used = idx[check], mine[check], used[check]
+        given = {name: g[check] for name, g in given.items()}
+        # the field to compare: the first unused given field with a well-conditioned solver
+        chosen = np.full(len(idx), -1)
+        for k, solver in enumerate(eq.solvers):
+            if solver.fragile:
+                continue
+            unused = given[solver.output] & ((used & FIELD_BITS[solver.output]) == 0)
+            chosen = np.where((chosen < 0) & unused, k, chosen)
+        chosen[chosen < 0] = 0
+        for k in np.unique(chosen):
+            solver, rows = eq.solvers[k], np.flatnonzero(chosen == k)
+            at = idx[rows]
+            with np.errstate(all="ignore"):
+                implied = np.broadcast_to(np.asarray(solver.func(*(cols[name][at] for name in solver.inputs)),
+                                                     dtype=float), at.shape)
+                value = cols[solver.output][at]
+                res = (value - implied) / np.abs(implied)
+            flagged = np.abs(res) > tolerance
+            if not flagged.any():
+                continue
+            rows, at = rows[flagged], at[flagged]
+            through = np.zeros(len(rows), dtype=np.uint64)
+            for name in names:
+                through |= np.where(given[name][rows], np.uint64(0), FIELD_BITS[name])
+            involved = (mine[rows] | used[rows]) & ~FRAGILE_SOURCE
+            masks.append(involved)
+            parts.append(Findings(
+                at, np.asarray([eq.name + THROUGH + t for t in source_names(through)], dtype=object),
+                np.full(len(rows), solver.output, dtype=object), source_names(involved),
+                value[flagged], implied[flagged], res[flagged]))
+    if not parts:
+        return Findings.empty()
+    found, masks = Findings.concat(parts), np.concatenate(masks)
+    keep = _smallest_contradictions(found.idx, masks, _direct_flag_masks(result, set(found.idx), tolerance))
+    return Findings(*(getattr(found, name)[keep]
+                      for name in ("idx", "relation", "field", "given", "value", "implied", "residual")))
+
+
+def _direct_flag_masks(result: DeriveResult, records: set, tolerance: float) -> dict:
+    """record position -> source masks of the relations its given values alone contradict."""
+    out: dict = {}
+    rows = np.fromiter(records, dtype=np.int64)
+    if len(rows) == 0:
+        return out
+    for eq in EQUATIONS:
+        primary = eq.solvers[0]
+        names = (primary.output, *primary.inputs)
+        have = np.logical_and.reduce([result.given(name)[rows] for name in names])
+        if eq.dc_constants and result.dc_ok is not None:
+            have &= result.dc_ok[rows]
+        at = rows[have]
+        if len(at) == 0:
+            continue
+        with np.errstate(all="ignore"):
+            implied = np.asarray(primary.func(*(result.columns[name][at] for name in primary.inputs)), dtype=float)
+            res = (result.columns[primary.output][at] - implied) / np.abs(implied)
+        mask = np.uint64(0)
+        for name in names:
+            mask |= FIELD_BITS[name]
+        for i in at[np.abs(res) > tolerance]:
+            out.setdefault(int(i), []).append(mask)
+    return out
+
+
+def _smallest_contradictions(idx: np.ndarray, masks: np.ndarray, direct: dict) -> np.ndarray:
+    """Which checks through derived values to report: not one whose given values hold all those
+    of a contradiction already reported for the record (a relation of given values alone, or
+    another such check with fewer given values, or the same ones found earlier), which it
+    repeats.  One wrong value still shows in every smallest set of given values it spoils."""
+    keep = np.ones(len(idx), dtype=bool)
+    for i in np.unique(idx):
+        rows = np.flatnonzero(idx == i)
+        known = list(direct.get(int(i), []))
+        for k in sorted(rows, key=lambda r: (bin(int(masks[r])).count("1"), r)):
+            m = masks[k]
+            if any((m & other) == other for other in known):
+                keep[k] = False
+            else:
+                known.append(m)
+    return keep
+
+
+def flag_rank(relation: str) -> int:
+    """Where a flag of ``relation`` comes in a report: the relations in table order, then the
+    checks through derived values in the same order, then the plausibility checks."""
+    from .plausibility import CHECKS, check_named
+
+    name, through, _ = relation.partition(THROUGH)
+    ranks = {eq.name: k for k, eq in enumerate(EQUATIONS)}
+    if name in ranks:
+        return ranks[name] + (len(ranks) if through else 0)
+    check = check_named(relation)
+    return 2 * len(ranks) + (CHECKS.index(check) if check is not None else len(CHECKS))
+
+
 def relation_table_markdown() -> str:
     """The relation table as Markdown (documentation is generated from the data)."""
     lines = ["| relation | field | from |", "|---|---|---|"]
@@ -354,241 +627,3 @@ def relation_table_markdown() -> str:
         for s in eq.solvers:
             lines.append(f"| {eq.name} | {s.output} | {', '.join(s.inputs)} |")
     return "\n".join(lines)
-
-
-@dataclass
-class StoreOutcome:
-    derived: int = 0
-    flags: list = field(default_factory=list)
-
-
-@dataclass
-class DerivedRows:
-    """What :func:`derive_rows` makes of the given values of some motors.
-
-    ``values``: pyarrow table of the derived values (record_id, field, value_num,
-    relation, inputs), or None; ``flags``: pyarrow table of the residual of every
-    over-determined relation (the columns of the ``flags`` table but ``batch_id``),
-    or None; ``flagged``: the :class:`Flag` of each residual above the tolerance.
-    """
-
-    values: object = None
-    flags: object = None
-    flagged: list = field(default_factory=list)
-
-    @property
-    def derived(self) -> int:
-        return 0 if self.values is None else self.values.num_rows
-
-
-def _floats(values):
-    """A pyarrow float column, null where NaN (as the store has always held a missing number)."""
-    import pyarrow as pa
-
-    values = np.asarray(values, dtype=float)
-    return pa.array(values, type=pa.float64(), mask=np.isnan(values))
-
-
-def _dictionary(texts: list):
-    """(pyarrow array of the distinct ``texts``, int32 array: position of each text in it)."""
-    import pyarrow as pa
-
-    distinct = list(dict.fromkeys(texts))
-    where = {t: k for k, t in enumerate(distinct)}
-    return pa.array(distinct, type=pa.string()), np.array([where[t] for t in texts], dtype=np.int32)
-
-
-def derive_rows(ids, columns: dict, text_columns: dict | None = None,
-                tolerance: float = DEFAULT_TOLERANCE) -> DerivedRows:
-    """Derived values and residuals of the motors ``ids`` from their given ``columns``, as rows.
-
-    ``columns`` maps every numeric motor field to the given SI values (NaN = missing),
-    ``text_columns`` holds ``constant_basis``; rows follow ``ids``.  Nothing is read or
-    written: :func:`derive_in_store` and the import store the rows.
-    """
-    import pyarrow as pa
-
-    ids = np.asarray(ids, dtype=object)
-    n = len(ids)
-    out = DerivedRows()
-    if n == 0:
-        return out
-    id_array = pa.array(ids, type=pa.string())
-    result = derive_columns(columns, text_columns, n)
-    # the texts repeated on many rows are dictionary-encoded: each is held (and handed to DuckDB) once
-    relations, relation_of = _dictionary([_SOLVER_NAMES[s] for s in _SOLVERS])
-    inputs, inputs_of = _dictionary([", ".join(s.inputs) for s in _SOLVERS])
-    fields = pa.array(list(result.codes), type=pa.string())
-    parts = []  # per field: (record positions, field code, values, solver codes)
-    for k, (name, codes) in enumerate(result.codes.items()):
-        idx = np.flatnonzero(codes >= 0)
-        if len(idx) == 0:
-            continue
-        if name in columns and not np.isnan(columns[name][idx]).all():
-            # the store holds one value per record and field (no key index checks it there)
-            raise AssertionError(f"derived {name} over a given value")
-        parts.append((idx, np.full(len(idx), k, dtype=np.int32), result.columns[name][idx], codes[idx]))
-    if parts:
-        # record by record (fields in their order within a record): DuckDB stores rows of one
-        # record side by side about twice as fast as rows interleaved field by field
-        record, field_code, value, solver = (np.concatenate(c) for c in zip(*parts))
-        order = np.argsort(record, kind="stable")
-        record, field_code, value, solver = record[order], field_code[order], value[order], solver[order]
-        out.values = pa.table({
-            "record_id": pa.DictionaryArray.from_arrays(pa.array(record.astype(np.int32)), id_array),
-            "field": pa.DictionaryArray.from_arrays(pa.array(field_code), fields),
-            "value_num": pa.array(value, type=pa.float64()),
-            "relation": pa.DictionaryArray.from_arrays(pa.array(relation_of[solver]), relations),
-            "inputs": pa.DictionaryArray.from_arrays(pa.array(inputs_of[solver]), inputs),
-        })
-    tables, positions = [], []
-    for eq, idx, given, implied, res in residuals(columns, text_columns, n):
-        primary = eq.solvers[0].output
-        m = len(idx)
-        positions.append(idx)
-        tables.append(pa.table({
-            "record_id": id_array.take(pa.array(idx)), "relation": pa.array([eq.name] * m, type=pa.string()),
-            "given": pa.array([", ".join(given)] * m, type=pa.string()),
-            "field": pa.array([primary] * m, type=pa.string()), "given_value": _floats(given[primary]),
-            "implied_value": _floats(implied), "residual": _floats(res)}))
-        for k in np.flatnonzero(np.abs(res) > tolerance):  # the few flagged ones, with their numbers
-            text = ", ".join(f"{name}={given[name][k]:.6g}" for name in given)
-            out.flagged.append(Flag(str(ids[idx[k]]), eq.name, primary, text, float(given[primary][k]),
-                                    float(implied[k]), float(res[k])))
-    if tables:  # record by record too
-        out.flags = pa.concat_tables(tables).take(pa.array(np.argsort(np.concatenate(positions), kind="stable")))
-    return out
-
-
-def _load_given(con, record_ids):
-    """Given numeric and text values of motors (all, or ``record_ids``), wide, as numpy columns
-    in the order of their ids.  Leaves the registered relation ``derive_ids`` (the motors)."""
-    import pyarrow as pa
-
-    from .fields import fields_for
-
-    numeric = [f.name for f in fields_for("motor").values() if f.is_numeric]
-    if record_ids is None:
-        con.execute("CREATE OR REPLACE TEMP TABLE derive_ids AS SELECT record_id, "
-                    "CAST(row_number() OVER (ORDER BY record_id) - 1 AS INTEGER) AS ix "
-                    "FROM records WHERE record_type = 'motor'")
-    else:
-        con.register("asked_ids", _ids_table(record_ids))
-        con.execute("CREATE OR REPLACE TEMP TABLE derive_ids AS SELECT record_id, "
-                    "CAST(row_number() OVER (ORDER BY record_id) - 1 AS INTEGER) AS ix "
-                    "FROM records WHERE record_type = 'motor' AND record_id IN (SELECT record_id FROM asked_ids)")
-        con.unregister("asked_ids")
-    ids = np.asarray(con.sql("SELECT record_id FROM derive_ids ORDER BY ix").to_arrow_table()
-                     .column("record_id").to_pylist(), dtype=object)
-    # long rows to a wide array by position: field k, motor ix (one given value per field)
-    con.register("derive_fields", pa.table({"field": pa.array(numeric, type=pa.string()),
-                                            "k": pa.array(np.arange(len(numeric), dtype=np.int32))}))
-    long = con.sql("SELECT m.ix, f.k, v.value_num FROM record_values v JOIN derive_ids m USING (record_id) "
-                   "JOIN derive_fields f USING (field) WHERE v.origin = 'given' AND v.value_num IS NOT NULL"
-                   ).to_arrow_table()
-    con.unregister("derive_fields")
-    wide = np.full((len(numeric), len(ids)), np.nan)
-    wide[long.column("k").to_numpy(), long.column("ix").to_numpy()] = long.column("value_num").to_numpy()
-    columns = dict(zip(numeric, wide))
-    basis = con.sql("SELECT m.ix, v.value_text FROM record_values v JOIN derive_ids m USING (record_id) "
-                    "WHERE v.origin = 'given' AND v.field = 'constant_basis'").to_arrow_table()
-    texts = {"constant_basis": np.full(len(ids), None, dtype=object)}
-    texts["constant_basis"][basis.column("ix").to_numpy()] = basis.column("value_text").to_pylist()
-    return ids, columns, texts
-
-
-def _ids_table(record_ids):
-    import pyarrow as pa
-
-    return pa.table({"record_id": pa.array(list(record_ids), type=pa.string())})
-
-
-def derive_in_store(con, batch_id: int, record_ids=None, tolerance: float = DEFAULT_TOLERANCE) -> StoreOutcome:
-    """Recompute the derived values and residuals of motors (all, or ``record_ids``).
-
-    Runs inside the caller's transaction ``con``.  Only what changed is written: a
-    derived value derived again identically keeps the batch that computed it (so
-    deriving twice changes nothing); one that changes or disappears is kept in
-    ``value_history`` (replaced by ``batch_id``), so ``motorshelf history`` shows it;
-    a new one is stored as of ``batch_id``.  Residuals likewise.  Given values are
-    never touched.
-    """
-    ids, columns, texts = _load_given(con, record_ids)
-    outcome = StoreOutcome()
-    rows = derive_rows(ids, columns, texts, tolerance)
-    con.register("new_derived", rows.values if rows.values is not None else _no_derived())
-    con.register("new_flags", rows.flags if rows.flags is not None else _no_flags())
-    # the records whose derived rows are replaced (a constant condition, never text from a file)
-    scope = "true" if record_ids is None else "record_id IN (SELECT record_id FROM derive_ids)"
-    held_values = con.execute("SELECT count(*) FROM record_values WHERE origin = 'derived' AND " + scope).fetchone()[0]
-    held_flags = con.execute("SELECT count(*) FROM flags WHERE " + scope).fetchone()[0]
-    if held_values:
-        _replace_derived(con, batch_id, scope)
-    else:  # nothing held: no comparison to make
-        con.execute("INSERT INTO record_values SELECT record_id, field, value_num, NULL, NULL, NULL, 'derived', "
-                    "relation, inputs, NULL, NULL, ? FROM new_derived", [batch_id])
-    if held_flags:
-        _replace_flags(con, batch_id, scope)
-    else:
-        con.execute("INSERT INTO flags SELECT record_id, relation, given, field, given_value, implied_value, "
-                    "residual, ? FROM new_flags", [batch_id])
-    con.unregister("new_derived")
-    con.unregister("new_flags")
-    con.execute("DROP TABLE derive_ids")
-    outcome.derived = rows.derived
-    outcome.flags.extend(rows.flagged)
-    return outcome
-
-
-def _replace_derived(con, batch_id: int, scope: str) -> None:
-    """Store ``new_derived`` over the derived values of the records in ``scope``, writing only
-    what changed."""
-    # of the derived values held by the motors in scope, those not derived again identically
-    con.execute(
-        "CREATE OR REPLACE TEMP TABLE replaced_derived AS SELECT v.* FROM record_values v "
-        "WHERE v.origin = 'derived' AND " + scope + " AND NOT EXISTS (SELECT 1 FROM new_derived n "
-        "WHERE n.record_id = v.record_id AND n.field = v.field "
-        "AND n.value_num IS NOT DISTINCT FROM v.value_num AND n.relation IS NOT DISTINCT FROM v.relation "
-        "AND n.inputs IS NOT DISTINCT FROM v.inputs)")
-    if con.execute("SELECT count(*) FROM replaced_derived").fetchone()[0]:
-        con.execute("INSERT INTO value_history SELECT *, ?, now() FROM replaced_derived", [batch_id])
-        con.execute("DELETE FROM record_values WHERE origin = 'derived' "
-                    "AND (record_id, field) IN (SELECT record_id, field FROM replaced_derived)")
-    con.execute("DROP TABLE replaced_derived")
-    # what remains in scope is identical to what was derived now: insert the rest
-    con.execute("INSERT INTO record_values SELECT n.record_id, n.field, n.value_num, NULL, NULL, NULL, 'derived', "
-                "n.relation, n.inputs, NULL, NULL, ? FROM new_derived n WHERE NOT EXISTS (SELECT 1 FROM "
-                "record_values v WHERE v.origin = 'derived' AND v.record_id = n.record_id AND v.field = n.field)",
-                [batch_id])
-
-
-def _replace_flags(con, batch_id: int, scope: str) -> None:
-    """Store ``new_flags`` over the residuals of the records in ``scope``, writing only what changed."""
-    con.execute(
-        "DELETE FROM flags WHERE " + scope + " AND NOT EXISTS (SELECT 1 FROM new_flags n "
-        "WHERE n.record_id = flags.record_id "
-        "AND n.relation = flags.relation AND n.given IS NOT DISTINCT FROM flags.given "
-        "AND n.field IS NOT DISTINCT FROM flags.field AND n.given_value IS NOT DISTINCT FROM flags.given_value "
-        "AND n.implied_value IS NOT DISTINCT FROM flags.implied_value "
-        "AND n.residual IS NOT DISTINCT FROM flags.residual)")
-    con.execute("INSERT INTO flags SELECT n.record_id, n.relation, n.given, n.field, n.given_value, n.implied_value, "
-                "n.residual, ? FROM new_flags n WHERE NOT EXISTS (SELECT 1 FROM flags f "
-                "WHERE f.record_id = n.record_id AND f.relation = n.relation)", [batch_id])
-
-
-def _no_derived():
-    """An empty table shaped as :attr:`DerivedRows.values`."""
-    import pyarrow as pa
-
-    return pa.table({name: pa.array([], type=kind) for name, kind in (
-        ("record_id", pa.string()), ("field", pa.string()), ("value_num", pa.float64()),
-        ("relation", pa.string()), ("inputs", pa.string()))})
-
-
-def _no_flags():
-    """An empty table shaped as :attr:`DerivedRows.flags`."""
-    import pyarrow as pa
-
-    return pa.table({name: pa.array([], type=kind) for name, kind in (
-        ("record_id", pa.string()), ("relation", pa.string()), ("given", pa.string()), ("field", pa.string()),
-        ("given_value", pa.float64()), ("implied_value", pa.float64()), ("residual", pa.float64()))})

@@ -36,8 +36,16 @@ class GeneratedDoc:
 
 def _relations() -> str:
     from .derive import relation_table_markdown
+    from .plausibility import check_table_markdown
 
-    return relation_table_markdown()
+    return (relation_table_markdown() + "\n\n## Plausibility checks of single values\n\n"
+            + check_table_markdown())
+
+
+def _glossary() -> str:
+    from .glossary import glossary_markdown
+
+    return glossary_markdown()
 
 
 def _spellings() -> str:
@@ -55,7 +63,11 @@ def _cli() -> str:
 #: Every generated document.
 GENERATED = (
     GeneratedDoc("docs/relations.md", "Relations used to derive motor constants",
-                 "`catalog/derive.py:EQUATIONS` by `catalog.derive.relation_table_markdown()`", _relations),
+                 "`catalog/derive.py:EQUATIONS` by `catalog.derive.relation_table_markdown()` and "
+                 "`catalog/plausibility.py:CHECKS` by `catalog.plausibility.check_table_markdown()`", _relations),
+    GeneratedDoc("docs/glossary.md", "Glossary",
+                 "the schema files (`x-symbol`, descriptions) and `catalog/glossary.py:OTHER_QUANTITIES` by "
+                 "`catalog.glossary.glossary_markdown()`", _glossary),
     GeneratedDoc("docs/unit-spellings.md", "Datasheet unit spellings",
                  "`catalog/units/atoms.py` by `catalog.units.spelling_table_markdown()`", _spellings),
     GeneratedDoc("docs/cli.md", "Command-line reference",

@@ -61,6 +61,29 @@ class Field:
     pattern: str | None = None
     max_length: int | None = None
     min_length: int | None = None
+    symbol: str | None = None  # the formula symbol (``x-symbol``), e.g. "Kt"
+    synonyms: tuple = ()  # (spelling, enum value) of ``x-synonyms``: other words datasheets print
+
+    def canonical_texts(self, values) -> list:
+        """``values`` with every spelling of an enum value replaced by the value itself.
+
+        A text is read as an enum value when it equals the value or one of its
+        ``x-synonyms`` ignoring case, surrounding space, and whether words are joined by
+        spaces, hyphens or underscores (``NdFeB``, ``Iron Core``, ``line_to_line_RMS``).
+        Any other text is returned unchanged, for validation to refuse.
+        """
+        if self.enum is None:
+            return list(values)
+        table = _spellings(self.enum, self.synonyms)
+        seen: dict = {}
+        out = []
+        for v in values:
+            if isinstance(v, str):
+                if v not in seen:
+                    seen[v] = table.get(_spelling_key(v), v)
+                v = seen[v]
+            out.append(v)
+        return out
 
     @property
     def is_numeric(self) -> bool:
@@ -70,6 +93,32 @@ class Field:
     def is_quantity(self) -> bool:
         """A numeric field with a physical dimension (its cells carry units)."""
         return self.is_numeric and self.dimension is not None
+
+    @property
+    def si_unit(self) -> str | None:
+        """The SI unit the description states in brackets (``"N·m/A"``), or None."""
+        import re
+
+        found = re.findall(r"\[([^\[\]]+)\]", self.description)
+        return found[-1] if found else None
+
+
+def _spelling_key(text: str) -> str:
+    """Lower case, words joined by one hyphen: the key a spelling of an enum value is read by."""
+    import re
+
+    return re.sub(r"[\s_\-]+", "-", text.strip().lower())
+
+
+@lru_cache(maxsize=None)
+def _spellings(enum: tuple, synonyms: tuple) -> dict:
+    table = {_spelling_key(value): value for value in enum}
+    for spelling, value in synonyms:
+        key = _spelling_key(spelling)
+        if table.get(key, value) != value:
+            raise ValueError(f"spelling {spelling!r} means both {table[key]!r} and {value!r}")
+        table[key] = value
+    return table
 
 
 @lru_cache(maxsize=None)
@@ -96,6 +145,9 @@ def fields_for(record_type: str) -> dict[str, Field]:
             pattern=spec.get("pattern"),
             max_length=spec.get("maxLength"),
             min_length=spec.get("minLength"),
+            symbol=spec.get("x-symbol"),
+            synonyms=tuple((spelling, value) for value, spellings in spec.get("x-synonyms", {}).items()
+                           for spelling in spellings),
         )
     return out
 

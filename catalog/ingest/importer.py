@@ -21,7 +21,7 @@ from ..validate import check_table
 from .mapping import load_mapping
 from .normalise import NormalTable, normalise, slug
 from .readers import read_file
-from .writer import unique_id, write_tables
+from .writer import store_tables, unique_id
 
 
 @dataclass
@@ -275,5 +275,5 @@ def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, der
     for t, _ids, _keep in kept:
         t.raw = None  # the cells as read are not needed any more: free them before writing
     if kept:
-        write_tables(store, report, kept, files=", ".join(str(p) for p in paths), derive=derive)
+        store_tables(store, report, kept, files=", ".join(str(p) for p in paths), derive=derive)
     return report

@@ -267,6 +267,6 @@ def normalise(raw: RawTable, mapping: MappingProfile | None = None) -> NormalTab
                 ok = ~np.isnan(si) & ~np.isnan(nums)
                 table.converted += int(np.count_nonzero(ok & (si != nums)))
             table.columns[fname] = Column(si, texts, list(units), column)
-        else:
-            table.columns[fname] = Column(_text_values(cells), texts, [None] * n, column)
+        else:  # an enum value in any case or a synonym is stored as the value, the text as written kept
+            table.columns[fname] = Column(fdesc.canonical_texts(_text_values(cells)), texts, [None] * n, column)
     return table

@@ -8,9 +8,9 @@ to DuckDB as pyarrow tables.
 A record the catalogue already holds may keep values of fields the file does not
 give, and the values it replaces go to ``value_history``: its given values replace
 the stored ones field by field, and its constants are derived again from what the
-store then holds (:func:`catalog.derive.derive_in_store`).  A record new to the
+store then holds (:func:`catalog.store.derived.derive_in_store`).  A record new to the
 catalogue has nothing to replace or keep, so its constants are derived from the SI
-columns in memory (:func:`catalog.derive.derive_rows`, the same closure and
+columns in memory (:func:`catalog.store.derived.derive_rows`, the same closure and
 residuals) and its given and derived values are simply inserted.  Both give the
 same rows; the new-record path skips reading the values back.
 
@@ -20,7 +20,7 @@ bound it.
 """
 from __future__ import annotations
 
-__all__ = ["CHUNK_ROWS", "unique_id", "write_tables"]
+__all__ = ["CHUNK_ROWS", "unique_id", "store_tables"]
 
 import hashlib
 from concurrent.futures import ThreadPoolExecutor
@@ -194,14 +194,14 @@ def _no_given():
 
 def _insert_new(con, given: list, derived, batch: int) -> None:
     """Insert the given values (tables of :meth:`_Incoming.given_values`) and the derived ones
-    (:class:`~catalog.derive.DerivedRows`) of records new to the catalogue, in one statement."""
+    (:class:`~catalog.store.derived.DerivedRows`) of records new to the catalogue, in one statement."""
     import pyarrow as pa
 
-    from ..derive import _no_derived
+    from ..store.derived import empty_derived_table
 
     if given or derived.values is not None:
         con.register("new_given", pa.concat_tables(given) if given else _no_given())
-        con.register("new_derived", derived.values if derived.values is not None else _no_derived())
+        con.register("new_derived", derived.values if derived.values is not None else empty_derived_table())
         con.execute(
             "INSERT INTO record_values SELECT * FROM ("
             "SELECT record_id, field, value_num, value_text, raw_text, raw_unit, 'given', CAST(NULL AS VARCHAR), "
@@ -232,9 +232,10 @@ def _held_before(con) -> tuple[set, set]:
     return stored, leftovers
 
 
-def write_tables(store, report, kept, files: str, derive: bool = True) -> None:
-    """Write ``kept`` — (table, ids, keep mask) of every table with rows to import — in
-    one transaction, filling ``report`` (batch, created, updated, values, derived, flags)."""
+def store_tables(store, report, kept, files: str, derive: bool = True) -> None:
+    """Store ``kept`` — (table, ids, keep mask) of every table with rows to import — in the
+    catalogue in one transaction, filling ``report`` (batch, created, updated, values,
+    derived, flags).  (Writing tables to files is :func:`catalog.export.writers.write_tables`.)"""
     import pyarrow as pa
 
     incoming = [_Incoming(table, keep) for table, _ids, keep in kept]
@@ -296,29 +297,27 @@ def _write_chunks(con, batch: int, report, incoming: list, rids: list, held: np.
     """Chunk by chunk of records: derive those held before from the store, and insert the new
     ones with the values derived from their columns in memory.  Flags are reported in the
     order the store path gives for the whole chunk: by relation, then by record id."""
-    from ..derive import EQUATIONS
-
     numeric = [f.name for f in fields_for("motor").values() if f.is_numeric]
     # where each record of the import is: its table and its row there
     where_table = np.concatenate([np.full(len(inc.rows), t) for t, inc in enumerate(incoming)])
     where_row = np.concatenate([inc.rows for inc in incoming])
-    order = {eq.name: k for k, eq in enumerate(EQUATIONS)}
     # DuckDB inserts a chunk (without the GIL) while the next one is made ready; ``con`` is
     # used by one thread at a time: every use below waits for the insert in flight
     with ThreadPoolExecutor(max_workers=1) as inserter:
         pending = None
         for lo in range(0, len(rids), CHUNK_ROWS):
             pending = _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_table, where_row,
-                                  numeric, order, inserter, pending)
+                                  numeric, inserter, pending)
         if pending is not None:
             pending.result()
 
 
-def _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_table, where_row, numeric, order,
-                inserter, pending):
+def _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_table, where_row, numeric, inserter,
+                pending):
     """Make the records ``lo:lo + CHUNK_ROWS`` ready and hand their insert to ``inserter``
     once the insert ``pending`` (a future, or None) is done; returns the new insert's future."""
-    from ..derive import DerivedRows, derive_in_store, derive_rows
+    from ..derive import flag_rank
+    from ..store.derived import DerivedRows, derive_in_store, derive_rows
 
     hi = lo + CHUNK_ROWS
     flags = []
@@ -358,5 +357,5 @@ def _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_tabl
         flags += derived.flagged
     if pending is not None:
         pending.result()
-    report.flags.extend(sorted(flags, key=lambda f: (order[f.relation], f.record_id)))
+    report.flags.extend(sorted(flags, key=lambda f: (flag_rank(f.relation), f.record_id)))
     return inserter.submit(_insert_new, con, given, derived, batch)

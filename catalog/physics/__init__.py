@@ -13,7 +13,7 @@ motor            constants of the linear motor model (forward relations)
 operating_point  speed/torque/current/voltage at a point, efficiency, power
 inverse_line     inverse relations on the speed-torque line
 inverse_constants inverse relations for R, Kt, J, L, efficiency
-relations        table of derivation relations walked by a derivation engine
+inverse_ratings  inverse relations of the maximum-efficiency, maximum-power and nominal points
 temperature      copper R(T), magnet Kt(T), insulation classes
 thermal          two-node thermal network: steady state, closed forms
 transient        two-node network: exact transient and periodic duty
@@ -21,19 +21,20 @@ network          two-node network under a loss profile; the hot fixed point
 gearing          speed, torque and inertia through a gearhead
 mechanism        screws, belts, racks, drums, wheels, rotary loads; move profiles
 cycle            RMS, mean and energy over duty-cycle segments
+broadcast        the @vectorised wrapper every function wears (scalars, arrays, Series)
 """
 
-from . import (cycle, gearing, inverse_constants, inverse_line, mechanism, motor, network,
-               operating_point, relations, temperature, thermal, transient)
+from . import (cycle, gearing, inverse_constants, inverse_line, inverse_ratings, mechanism, motor, network,
+               operating_point, temperature, thermal, transient)
 from .cycle import *  # noqa: F401,F403
 from .gearing import *  # noqa: F401,F403
 from .inverse_constants import *  # noqa: F401,F403
 from .inverse_line import *  # noqa: F401,F403
 from .mechanism import *  # noqa: F401,F403
+from .inverse_ratings import *  # noqa: F401,F403
 from .motor import *  # noqa: F401,F403
 from .network import *  # noqa: F401,F403
 from .operating_point import *  # noqa: F401,F403
-from .relations import *  # noqa: F401,F403
 from .temperature import *  # noqa: F401,F403
 from .thermal import *  # noqa: F401,F403
 from .transient import *  # noqa: F401,F403
@@ -43,7 +44,7 @@ __all__ = [
     *operating_point.__all__,
     *inverse_line.__all__,
     *inverse_constants.__all__,
-    *relations.__all__,
+    *inverse_ratings.__all__,
     *temperature.__all__,
     *thermal.__all__,
     *transient.__all__,

@@ -15,7 +15,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = ["rms", "time_average", "energy_per_cycle"]
 

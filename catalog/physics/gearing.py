@@ -18,7 +18,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "motor_side_speed",
@@ -227,12 +227,12 @@ def load_side_torque(motor_torque, motor_speed, ratio, efficiency,
 
 
 @vectorised
-def reflected_inertia(motor_inertia, gear_inertia, load_inertia, ratio):
+def reflected_inertia(rotor_inertia, gear_inertia, load_inertia, ratio):
     """Total inertia seen at the motor shaft.
 
     Parameters
     ----------
-    motor_inertia : float or ndarray
+    rotor_inertia : float or ndarray
         Rotor inertia J_motor [kg·m²].
     gear_inertia : float or ndarray
         Gear inertia referred to its input shaft J_gear [kg·m²].
@@ -256,11 +256,11 @@ def reflected_inertia(motor_inertia, gear_inertia, load_inertia, ratio):
     ----------
     Textbook on drive engineering (inertia referred through a gear).
     """
-    return motor_inertia + gear_inertia + load_inertia / (ratio * ratio)
+    return rotor_inertia + gear_inertia + load_inertia / (ratio * ratio)
 
 
 @vectorised
-def acceleration_torque(load_acceleration, ratio, efficiency, motor_inertia,
+def acceleration_torque(load_acceleration, ratio, efficiency, rotor_inertia,
                         gear_inertia, load_inertia, load_speed=None):
     """Motor torque needed to accelerate the inertias only.
 
@@ -272,7 +272,7 @@ def acceleration_torque(load_acceleration, ratio, efficiency, motor_inertia,
         Gear ratio n [1].
     efficiency : float or ndarray
         Gear efficiency η [1].
-    motor_inertia : float or ndarray
+    rotor_inertia : float or ndarray
         Rotor inertia J_motor [kg·m²].
     gear_inertia : float or ndarray
         Gear inertia referred to its input J_gear [kg·m²].
@@ -299,7 +299,7 @@ def acceleration_torque(load_acceleration, ratio, efficiency, motor_inertia,
     ----------
     Textbook on drive engineering (acceleration through a gear).
     """
-    motor_part = (motor_inertia + gear_inertia) * ratio * load_acceleration
+    motor_part = (rotor_inertia + gear_inertia) * ratio * load_acceleration
     inertial = load_inertia * load_acceleration
     if load_speed is None:
         return motor_part + inertial / (ratio * efficiency)
@@ -308,7 +308,7 @@ def acceleration_torque(load_acceleration, ratio, efficiency, motor_inertia,
 
 @vectorised
 def required_motor_torque(load_torque, load_speed, load_acceleration, ratio,
-                          efficiency, motor_inertia, gear_inertia, load_inertia,
+                          efficiency, rotor_inertia, gear_inertia, load_inertia,
                           back_driving_efficiency=None):
     """Motor torque for a duty point: external load plus acceleration.
 
@@ -325,7 +325,7 @@ def required_motor_torque(load_torque, load_speed, load_acceleration, ratio,
         Gear ratio n [1].
     efficiency : float or ndarray
         Forward gear efficiency η [1].
-    motor_inertia : float or ndarray
+    rotor_inertia : float or ndarray
         Rotor inertia J_motor [kg·m²].
     gear_inertia : float or ndarray
         Gear inertia referred to its input J_gear [kg·m²].
@@ -351,19 +351,19 @@ def required_motor_torque(load_torque, load_speed, load_acceleration, ratio,
     Textbook on drive engineering (load torque and acceleration via a gear).
     """
     output = load_torque + load_inertia * load_acceleration
-    return ((motor_inertia + gear_inertia) * ratio * load_acceleration
+    return ((rotor_inertia + gear_inertia) * ratio * load_acceleration
             + motor_side_torque(output, load_speed, ratio, efficiency,
                                 back_driving_efficiency))
 
 
 @vectorised
-def optimal_ratio_inertial(motor_inertia, load_inertia, gear_inertia=0.0,
+def optimal_ratio_inertial(rotor_inertia, load_inertia, gear_inertia=0.0,
                            efficiency=1.0):
     """Gear ratio that minimises motor torque for a purely inertial load.
 
     Parameters
     ----------
-    motor_inertia : float or ndarray
+    rotor_inertia : float or ndarray
         Rotor inertia J_motor [kg·m²].
     load_inertia : float or ndarray
         Load inertia J_load [kg·m²].
@@ -388,4 +388,4 @@ def optimal_ratio_inertial(motor_inertia, load_inertia, gear_inertia=0.0,
     ----------
     Textbook on drive engineering / servo drives (inertia matching).
     """
-    return np.sqrt(load_inertia / (efficiency * (motor_inertia + gear_inertia)))
+    return np.sqrt(load_inertia / (efficiency * (rotor_inertia + gear_inertia)))

@@ -4,7 +4,7 @@ Each function solves one forward relation of :mod:`catalog.physics.motor` or
 :mod:`catalog.physics.operating_point` (speed-torque gradient, time
 constants, motor constant, maximum efficiency) for another quantity, so a
 derivation engine can walk a relation table (see
-:mod:`catalog.physics.relations`).  Parameter names are the canonical quantity
+:data:`catalog.derive.EQUATIONS`).  Parameter names are the canonical quantity
 names.
 
 Validity shared by all: linear model, constant friction Tf = Kt·I0, steady
@@ -16,7 +16,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "resistance_from_speed_torque_gradient",

@@ -3,7 +3,7 @@
 Each function solves one forward relation of :mod:`catalog.physics.motor`
 (stall current and torque, friction torque, no-load speed, speed-torque
 gradient) for another quantity, so a derivation engine can walk a relation
-table (see :mod:`catalog.physics.relations`).  Parameter names are the
+table (see :data:`catalog.derive.EQUATIONS`).  Parameter names are the
 canonical quantity names.
 
 Validity shared by all: linear model, constant friction Tf = Kt·I0, steady
@@ -13,7 +13,7 @@ equations), solved algebraically.
 
 from __future__ import annotations
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "resistance_from_stall_current",

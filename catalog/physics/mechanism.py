@@ -31,7 +31,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "STANDARD_GRAVITY",

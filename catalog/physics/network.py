@@ -40,7 +40,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = ["NetworkMaps", "network_segment_maps", "network_peak_rise", "network_response", "network_peak_rise_grid",
            "hot_winding_rise"]
@@ -88,8 +88,8 @@ def _flow(lam1, lam2, delta, t):
 
 
 def network_segment_maps(durations, thermal_resistance_winding_housing,
-                         thermal_resistance_housing_ambient, winding_thermal_time_constant,
-                         motor_thermal_time_constant, periodic=True):
+                         thermal_resistance_housing_ambient, thermal_time_constant_winding,
+                         thermal_time_constant_motor, periodic=True):
     """Per-watt maps of the two-node network over each segment of a profile.
 
     Parameters
@@ -100,9 +100,9 @@ def network_segment_maps(durations, thermal_resistance_winding_housing,
         Thermal resistance winding to housing Rth1, shape batch [K/W].
     thermal_resistance_housing_ambient : float or ndarray
         Thermal resistance housing to ambient Rth2, shape batch [K/W].
-    winding_thermal_time_constant : float or ndarray
+    thermal_time_constant_winding : float or ndarray
         Winding thermal time constant τw (Cw = τw/Rth1), shape batch [s].
-    motor_thermal_time_constant : float or ndarray
+    thermal_time_constant_motor : float or ndarray
         Motor thermal time constant τ_motor (Ch = τ_motor/Rth2), shape batch [s].
     periodic : bool
         True: the profile repeats and the cycle starts in its periodic state;
@@ -126,10 +126,10 @@ def network_segment_maps(durations, thermal_resistance_winding_housing,
     d = np.asarray(durations, dtype=float)
     if d.ndim != 1 or np.any(d < 0.0):
         raise ValueError("durations must be a 1-d array of non-negative segment durations")
-    rth1, rth2, tau_w, tau_m = (np.asarray(p, dtype=float)[..., None] for p in (
+    rth1, rth2, tau_w, tau_motor = (np.asarray(p, dtype=float)[..., None] for p in (
         thermal_resistance_winding_housing, thermal_resistance_housing_ambient,
-        winding_thermal_time_constant, motor_thermal_time_constant))
-    cw, ch = tau_w / rth1, tau_m / rth2
+        thermal_time_constant_winding, thermal_time_constant_motor))
+    cw, ch = tau_w / rth1, tau_motor / rth2
     m11, m12 = -1.0 / (rth1 * cw), 1.0 / (rth1 * cw)
     m21, m22 = 1.0 / (rth1 * ch), -(1.0 / rth1 + 1.0 / rth2) / ch
     half = (m11 - m22) * 0.5

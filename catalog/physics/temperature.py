@@ -20,7 +20,7 @@ import math
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 
 __all__ = [
     "WINDING_MATERIALS",
@@ -146,7 +146,7 @@ def rereference_temperature_coefficient(temperature_coefficient,
 
 @vectorised
 def resistance_at_temperature(terminal_resistance, temperature,
-                              reference_temperature=DEFAULT_REFERENCE_TEMPERATURE, *,
+                              resistance_reference_temperature=DEFAULT_REFERENCE_TEMPERATURE, *,
                               temperature_coefficient=COPPER_TEMPERATURE_COEFFICIENT,
                               coefficient_reference_temperature=COEFFICIENT_REFERENCE_TEMPERATURE):
     """Winding resistance at a temperature.
@@ -157,7 +157,7 @@ def resistance_at_temperature(terminal_resistance, temperature,
         Terminal resistance at the reference temperature [Ω].
     temperature : float or ndarray
         Winding temperature [K].
-    reference_temperature : float or ndarray
+    resistance_reference_temperature : float or ndarray
         Temperature at which ``terminal_resistance`` is stated [K].
     temperature_coefficient : float or ndarray
         Resistance coefficient α referred to
@@ -183,13 +183,13 @@ def resistance_at_temperature(terminal_resistance, temperature,
     """
     alpha = rereference_temperature_coefficient(
         temperature_coefficient, coefficient_reference_temperature,
-        reference_temperature)
-    return terminal_resistance * (1.0 + alpha * (temperature - reference_temperature))
+        resistance_reference_temperature)
+    return terminal_resistance * (1.0 + alpha * (temperature - resistance_reference_temperature))
 
 
 @vectorised
 def resistance_at_reference_temperature(resistance, temperature,
-                                        reference_temperature=DEFAULT_REFERENCE_TEMPERATURE,
+                                        resistance_reference_temperature=DEFAULT_REFERENCE_TEMPERATURE,
                                         *,
                                         temperature_coefficient=COPPER_TEMPERATURE_COEFFICIENT,
                                         coefficient_reference_temperature=COEFFICIENT_REFERENCE_TEMPERATURE):
@@ -201,7 +201,7 @@ def resistance_at_reference_temperature(resistance, temperature,
         Resistance measured at ``temperature`` [Ω].
     temperature : float or ndarray
         Winding temperature at the measurement [K].
-    reference_temperature : float or ndarray
+    resistance_reference_temperature : float or ndarray
         Temperature to refer the resistance to [K].
     temperature_coefficient : float or ndarray
         Resistance coefficient α referred to
@@ -225,13 +225,13 @@ def resistance_at_reference_temperature(resistance, temperature,
     """
     alpha = rereference_temperature_coefficient(
         temperature_coefficient, coefficient_reference_temperature,
-        reference_temperature)
-    return resistance / (1.0 + alpha * (temperature - reference_temperature))
+        resistance_reference_temperature)
+    return resistance / (1.0 + alpha * (temperature - resistance_reference_temperature))
 
 
 @vectorised
 def winding_temperature_from_resistance(resistance, terminal_resistance,
-                                        reference_temperature=DEFAULT_REFERENCE_TEMPERATURE,
+                                        resistance_reference_temperature=DEFAULT_REFERENCE_TEMPERATURE,
                                         *,
                                         temperature_coefficient=COPPER_TEMPERATURE_COEFFICIENT,
                                         coefficient_reference_temperature=COEFFICIENT_REFERENCE_TEMPERATURE):
@@ -243,7 +243,7 @@ def winding_temperature_from_resistance(resistance, terminal_resistance,
         Hot resistance [Ω].
     terminal_resistance : float or ndarray
         Terminal resistance at the reference temperature [Ω].
-    reference_temperature : float or ndarray
+    resistance_reference_temperature : float or ndarray
         Temperature at which ``terminal_resistance`` is stated [K].
     temperature_coefficient : float or ndarray
         Resistance coefficient α referred to
@@ -268,8 +268,8 @@ def winding_temperature_from_resistance(resistance, terminal_resistance,
     """
     alpha = rereference_temperature_coefficient(
         temperature_coefficient, coefficient_reference_temperature,
-        reference_temperature)
-    return reference_temperature + (resistance / terminal_resistance - 1.0) / alpha
+        resistance_reference_temperature)
+    return resistance_reference_temperature + (resistance / terminal_resistance - 1.0) / alpha
 
 
 @vectorised
@@ -312,25 +312,26 @@ def torque_constant_at_temperature(torque_constant, magnet_temperature,
         1.0 + remanence_coefficient * (magnet_temperature - reference_temperature))
 
 
-def _lookup_magnet(material, bound, missing):
-    if material is None or (isinstance(material, float) and math.isnan(material)):
-        material = "unknown"
-    key = str(material).strip().lower()
+def _lookup_magnet(magnet_material, bound, missing):
+    if magnet_material is None or (isinstance(magnet_material, float)
+                                   and math.isnan(magnet_material)):
+        magnet_material = "unknown"
+    key = str(magnet_material).strip().lower()
     if key not in MAGNET_MATERIALS:
-        raise ValueError(f"unknown magnet material {material!r}; "
+        raise ValueError(f"unknown magnet material {magnet_material!r}; "
                          f"expected one of {sorted(MAGNET_MATERIALS)}")
     value = MAGNET_MATERIALS[key][bound]
     return missing if math.isnan(value) else value
 
 
 @vectorised
-def magnet_coefficient(material, *, bound="typical", missing=math.nan):
+def magnet_coefficient(magnet_material, *, bound="typical", missing=math.nan):
     """Reversible temperature coefficient of remanence for a magnet material.
 
     Parameters
     ----------
-    material : str or ndarray of str
-        Magnet material key of ``MAGNET_MATERIALS`` ('ndfeb', 'ndfeb_bonded',
+    magnet_material : str or ndarray of str
+        Magnet material, a key of ``MAGNET_MATERIALS`` ('ndfeb', 'ndfeb_bonded',
         'smco', 'ferrite', 'alnico', 'unknown'); None counts as 'unknown' [-].
     bound : str
         'typical', 'most_negative' (conservative for hot torque) or
@@ -356,10 +357,10 @@ def magnet_coefficient(material, *, bound="typical", missing=math.nan):
     """
     if bound not in _MAGNET_BOUNDS:
         raise ValueError(f"bound must be one of {_MAGNET_BOUNDS}, got {bound!r}")
-    if isinstance(material, np.ndarray):
-        flat = [_lookup_magnet(m, bound, missing) for m in material.ravel()]
-        return np.asarray(flat, dtype=float).reshape(material.shape)
-    return float(_lookup_magnet(material, bound, missing))
+    if isinstance(magnet_material, np.ndarray):
+        flat = [_lookup_magnet(m, bound, missing) for m in magnet_material.ravel()]
+        return np.asarray(flat, dtype=float).reshape(magnet_material.shape)
+    return float(_lookup_magnet(magnet_material, bound, missing))
 
 
 def _lookup_class(insulation_class):

@@ -15,8 +15,8 @@ Tref)).  Because R(Tw) is linear in Tw the network stays linear, so steady
 state, runaway threshold and maximum continuous current have exact closed
 forms.  Friction, iron and brush losses are not included.
 
-Common keyword parameters: ``reference_temperature`` of the record's
-resistance [K] (default 298.15 K), ``temperature_coefficient`` α referred to
+Common keyword parameters: ``resistance_reference_temperature``, at which the
+record's resistance is stated [K] (default 298.15 K), ``temperature_coefficient`` α referred to
 ``coefficient_reference_temperature`` (default copper α20 at 293.15 K).
 
 Source: lumped-parameter thermal networks of electrical machines (textbook
@@ -28,7 +28,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 from .temperature import (
     COEFFICIENT_REFERENCE_TEMPERATURE,
     COPPER_TEMPERATURE_COEFFICIENT,
@@ -53,24 +53,29 @@ _ALPHA = COPPER_TEMPERATURE_COEFFICIENT
 _TALPHA = COEFFICIENT_REFERENCE_TEMPERATURE
 
 
-def _resistance_terms(terminal_resistance, ambient_temperature, reference_temperature,
-                     temperature_coefficient, coefficient_reference_temperature):
-    """Return (R at ambient [Ω], dR/dT [Ω/K]) of the linear resistance law."""
+def linear_resistance_terms(terminal_resistance, ambient_temperature, resistance_reference_temperature,
+                            temperature_coefficient, coefficient_reference_temperature):
+    """(R at ``ambient_temperature`` [Ω], dR/dT [Ω/K]) of the linear copper law.
+
+    The loss of the network is affine in the winding temperature through these two
+    terms; shared by the closed forms here and the transient solutions of
+    :mod:`catalog.physics.transient` (numpy arrays in and out, no wrapper).
+    """
     alpha = rereference_temperature_coefficient(
         temperature_coefficient, coefficient_reference_temperature,
-        reference_temperature)
+        resistance_reference_temperature)
     slope = terminal_resistance * alpha
-    return terminal_resistance + slope * (ambient_temperature - reference_temperature), slope
+    return terminal_resistance + slope * (ambient_temperature - resistance_reference_temperature), slope
 
 
 @vectorised
-def winding_heat_capacity(winding_thermal_time_constant,
+def winding_heat_capacity(thermal_time_constant_winding,
                           thermal_resistance_winding_housing):
     """Heat capacity of the winding node.
 
     Parameters
     ----------
-    winding_thermal_time_constant : float or ndarray
+    thermal_time_constant_winding : float or ndarray
         Winding thermal time constant τw [s].
     thermal_resistance_winding_housing : float or ndarray
         Thermal resistance winding to housing Rth1 [K/W].
@@ -90,17 +95,17 @@ def winding_heat_capacity(winding_thermal_time_constant,
     ----------
     Textbook chapter on heating and cooling of electrical machines.
     """
-    return winding_thermal_time_constant / thermal_resistance_winding_housing
+    return thermal_time_constant_winding / thermal_resistance_winding_housing
 
 
 @vectorised
-def housing_heat_capacity(motor_thermal_time_constant,
+def housing_heat_capacity(thermal_time_constant_motor,
                           thermal_resistance_housing_ambient):
     """Heat capacity of the housing (stator) node.
 
     Parameters
     ----------
-    motor_thermal_time_constant : float or ndarray
+    thermal_time_constant_motor : float or ndarray
         Motor (housing) thermal time constant τ_motor [s].
     thermal_resistance_housing_ambient : float or ndarray
         Thermal resistance housing to ambient Rth2 [K/W].
@@ -119,12 +124,12 @@ def housing_heat_capacity(motor_thermal_time_constant,
     ----------
     Textbook chapter on heating and cooling of electrical machines.
     """
-    return motor_thermal_time_constant / thermal_resistance_housing_ambient
+    return thermal_time_constant_motor / thermal_resistance_housing_ambient
 
 
 @vectorised
 def copper_loss(current, terminal_resistance, winding_temperature,
-                reference_temperature=_TREF, *, temperature_coefficient=_ALPHA,
+                resistance_reference_temperature=_TREF, *, temperature_coefficient=_ALPHA,
                 coefficient_reference_temperature=_TALPHA):
     """Copper (Joule) loss in the winding.
 
@@ -136,7 +141,7 @@ def copper_loss(current, terminal_resistance, winding_temperature,
         Terminal resistance at the reference temperature [Ω].
     winding_temperature : float or ndarray
         Winding temperature Tw [K].
-    reference_temperature : float or ndarray
+    resistance_reference_temperature : float or ndarray
         Temperature at which ``terminal_resistance`` is stated [K].
     temperature_coefficient : float or ndarray
         Resistance coefficient α [1/K]; default copper α20.
@@ -157,14 +162,14 @@ def copper_loss(current, terminal_resistance, winding_temperature,
     ----------
     IEC 60028 (copper resistance law).
     """
-    r_at, slope = _resistance_terms(terminal_resistance, winding_temperature,
-                                   reference_temperature, temperature_coefficient,
+    r_at, slope = linear_resistance_terms(terminal_resistance, winding_temperature,
+                                   resistance_reference_temperature, temperature_coefficient,
                                    coefficient_reference_temperature)
     return current * current * r_at
 
 
 def _steady_rise(current, terminal_resistance, rth1, rth2, ambient, tref, alpha, talpha):
-    r_amb, slope = _resistance_terms(terminal_resistance, ambient, tref, alpha, talpha)
+    r_amb, slope = linear_resistance_terms(terminal_resistance, ambient, tref, alpha, talpha)
     rth = rth1 + rth2
     i2 = current * current
     gain = i2 * slope * rth
@@ -183,7 +188,7 @@ _COMMON_DOC = """
         Thermal resistance housing to ambient Rth2 [K/W].
     ambient_temperature : float or ndarray
         Ambient temperature Ta [K].
-    reference_temperature : float or ndarray
+    resistance_reference_temperature : float or ndarray
         Temperature at which ``terminal_resistance`` is stated [K].
     temperature_coefficient : float or ndarray
         Resistance coefficient α [1/K]; default copper α20.
@@ -195,7 +200,7 @@ _COMMON_DOC = """
 def steady_winding_temperature(current, terminal_resistance,
                                thermal_resistance_winding_housing,
                                thermal_resistance_housing_ambient, ambient_temperature,
-                               reference_temperature=_TREF, *,
+                               resistance_reference_temperature=_TREF, *,
                                temperature_coefficient=_ALPHA,
                                coefficient_reference_temperature=_TALPHA):
     """Steady-state winding temperature at a constant current.
@@ -222,7 +227,7 @@ def steady_winding_temperature(current, terminal_resistance,
     rise, _ = _steady_rise(current, terminal_resistance,
                            thermal_resistance_winding_housing,
                            thermal_resistance_housing_ambient, ambient_temperature,
-                           reference_temperature, temperature_coefficient,
+                           resistance_reference_temperature, temperature_coefficient,
                            coefficient_reference_temperature)
     return ambient_temperature + rise
 
@@ -231,7 +236,7 @@ def steady_winding_temperature(current, terminal_resistance,
 def steady_housing_temperature(current, terminal_resistance,
                                thermal_resistance_winding_housing,
                                thermal_resistance_housing_ambient, ambient_temperature,
-                               reference_temperature=_TREF, *,
+                               resistance_reference_temperature=_TREF, *,
                                temperature_coefficient=_ALPHA,
                                coefficient_reference_temperature=_TALPHA):
     """Steady-state housing temperature at a constant current.
@@ -257,7 +262,7 @@ def steady_housing_temperature(current, terminal_resistance,
     rise, _ = _steady_rise(current, terminal_resistance,
                            thermal_resistance_winding_housing,
                            thermal_resistance_housing_ambient, ambient_temperature,
-                           reference_temperature, temperature_coefficient,
+                           resistance_reference_temperature, temperature_coefficient,
                            coefficient_reference_temperature)
     share = thermal_resistance_housing_ambient / (
         thermal_resistance_winding_housing + thermal_resistance_housing_ambient)
@@ -266,7 +271,7 @@ def steady_housing_temperature(current, terminal_resistance,
 
 @vectorised
 def thermal_runaway(current, terminal_resistance, thermal_resistance_winding_housing,
-                    thermal_resistance_housing_ambient, reference_temperature=_TREF, *,
+                    thermal_resistance_housing_ambient, resistance_reference_temperature=_TREF, *,
                     temperature_coefficient=_ALPHA,
                     coefficient_reference_temperature=_TALPHA):
     """Whether a constant current has no thermal steady state.
@@ -281,7 +286,7 @@ def thermal_runaway(current, terminal_resistance, thermal_resistance_winding_hou
         Thermal resistance winding to housing Rth1 [K/W].
     thermal_resistance_housing_ambient : float or ndarray
         Thermal resistance housing to ambient Rth2 [K/W].
-    reference_temperature : float or ndarray
+    resistance_reference_temperature : float or ndarray
         Temperature at which ``terminal_resistance`` is stated [K].
     temperature_coefficient : float or ndarray
         Resistance coefficient α [1/K]; default copper α20.
@@ -304,8 +309,8 @@ def thermal_runaway(current, terminal_resistance, thermal_resistance_winding_hou
     ----------
     Textbook chapter on heating of electrical machines; IEC 60028.
     """
-    _, slope = _resistance_terms(terminal_resistance, reference_temperature,
-                                reference_temperature, temperature_coefficient,
+    _, slope = linear_resistance_terms(terminal_resistance, resistance_reference_temperature,
+                                resistance_reference_temperature, temperature_coefficient,
                                 coefficient_reference_temperature)
     rth = thermal_resistance_winding_housing + thermal_resistance_housing_ambient
     return current * current * slope * rth >= 1.0
@@ -314,7 +319,7 @@ def thermal_runaway(current, terminal_resistance, thermal_resistance_winding_hou
 @vectorised
 def thermal_runaway_current(terminal_resistance, thermal_resistance_winding_housing,
                             thermal_resistance_housing_ambient,
-                            reference_temperature=_TREF, *,
+                            resistance_reference_temperature=_TREF, *,
                             temperature_coefficient=_ALPHA,
                             coefficient_reference_temperature=_TALPHA):
     """Smallest constant current without a thermal steady state.
@@ -327,7 +332,7 @@ def thermal_runaway_current(terminal_resistance, thermal_resistance_winding_hous
         Thermal resistance winding to housing Rth1 [K/W].
     thermal_resistance_housing_ambient : float or ndarray
         Thermal resistance housing to ambient Rth2 [K/W].
-    reference_temperature : float or ndarray
+    resistance_reference_temperature : float or ndarray
         Temperature at which ``terminal_resistance`` is stated [K].
     temperature_coefficient : float or ndarray
         Resistance coefficient α [1/K]; default copper α20.
@@ -348,8 +353,8 @@ def thermal_runaway_current(terminal_resistance, thermal_resistance_winding_hous
     ----------
     Textbook chapter on heating of electrical machines; IEC 60028.
     """
-    _, slope = _resistance_terms(terminal_resistance, reference_temperature,
-                                reference_temperature, temperature_coefficient,
+    _, slope = linear_resistance_terms(terminal_resistance, resistance_reference_temperature,
+                                resistance_reference_temperature, temperature_coefficient,
                                 coefficient_reference_temperature)
     rth = thermal_resistance_winding_housing + thermal_resistance_housing_ambient
     return 1.0 / np.sqrt(slope * rth)
@@ -359,7 +364,7 @@ def thermal_runaway_current(terminal_resistance, thermal_resistance_winding_hous
 def max_continuous_current(max_winding_temperature, terminal_resistance,
                            thermal_resistance_winding_housing,
                            thermal_resistance_housing_ambient, ambient_temperature,
-                           reference_temperature=_TREF, *,
+                           resistance_reference_temperature=_TREF, *,
                            temperature_coefficient=_ALPHA,
                            coefficient_reference_temperature=_TALPHA):
     """Largest constant current that keeps the winding at or below a limit.
@@ -385,8 +390,8 @@ def max_continuous_current(max_winding_temperature, terminal_resistance,
     ----------
     Textbook chapter on heating of machines; IEC 60028; IEC 60034-1 (S1).
     """
-    r_max, _ = _resistance_terms(terminal_resistance, max_winding_temperature,
-                                reference_temperature, temperature_coefficient,
+    r_max, _ = linear_resistance_terms(terminal_resistance, max_winding_temperature,
+                                resistance_reference_temperature, temperature_coefficient,
                                 coefficient_reference_temperature)
     rth = thermal_resistance_winding_housing + thermal_resistance_housing_ambient
     rise = max_winding_temperature - ambient_temperature
@@ -398,7 +403,7 @@ def thermal_resistance_from_max_continuous_current(max_continuous_current,
                                                    max_winding_temperature,
                                                    terminal_resistance,
                                                    ambient_temperature,
-                                                   reference_temperature=_TREF, *,
+                                                   resistance_reference_temperature=_TREF, *,
                                                    temperature_coefficient=_ALPHA,
                                                    coefficient_reference_temperature=_TALPHA):
     """Total thermal resistance implied by a rated continuous current.
@@ -413,7 +418,7 @@ def thermal_resistance_from_max_continuous_current(max_continuous_current,
         Terminal resistance at the reference temperature [Ω].
     ambient_temperature : float or ndarray
         Ambient temperature of the rating Ta [K].
-    reference_temperature : float or ndarray
+    resistance_reference_temperature : float or ndarray
         Temperature at which ``terminal_resistance`` is stated [K].
     temperature_coefficient : float or ndarray
         Resistance coefficient α [1/K]; default copper α20.
@@ -434,8 +439,8 @@ def thermal_resistance_from_max_continuous_current(max_continuous_current,
     ----------
     Textbook chapter on heating of machines; IEC 60028; IEC 60034-1 (S1).
     """
-    r_max, _ = _resistance_terms(terminal_resistance, max_winding_temperature,
-                                reference_temperature, temperature_coefficient,
+    r_max, _ = linear_resistance_terms(terminal_resistance, max_winding_temperature,
+                                resistance_reference_temperature, temperature_coefficient,
                                 coefficient_reference_temperature)
     return (max_winding_temperature - ambient_temperature) / (
         max_continuous_current * max_continuous_current * r_max)

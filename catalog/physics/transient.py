@@ -30,13 +30,13 @@ from typing import NamedTuple
 
 import numpy as np
 
-from ._broadcast import vectorised
+from .broadcast import vectorised
 from .temperature import (
     COEFFICIENT_REFERENCE_TEMPERATURE,
     COPPER_TEMPERATURE_COEFFICIENT,
     DEFAULT_REFERENCE_TEMPERATURE,
 )
-from .thermal import _resistance_terms
+from .thermal import linear_resistance_terms
 
 __all__ = [
     "ThermalTrajectory",
@@ -135,7 +135,7 @@ class _Segment:
         return np.where(valid, y1, -np.inf)
 
 
-def _setup(durations, currents, terminal_resistance, rth1, rth2, tau_w, tau_m,
+def _setup(durations, currents, terminal_resistance, rth1, rth2, tau_w, tau_motor,
            ambient, tref, alpha, talpha, fast=False):
     durations = np.asarray(durations, dtype=float)
     currents = np.asarray(currents, dtype=float)
@@ -145,16 +145,16 @@ def _setup(durations, currents, terminal_resistance, rth1, rth2, tau_w, tau_m,
         raise ValueError("segment durations must not be negative")
     durations, currents = np.broadcast_arrays(durations, currents)
     params = [np.asarray(p, dtype=float) for p in
-              (terminal_resistance, rth1, rth2, tau_w, tau_m, ambient, tref, alpha,
+              (terminal_resistance, rth1, rth2, tau_w, tau_motor, ambient, tref, alpha,
                talpha)]
     batch = np.broadcast_shapes(durations.shape[:-1], *(p.shape for p in params))
     count = durations.shape[-1]
     durations = np.broadcast_to(durations, batch + (count,))
     currents = np.broadcast_to(currents, batch + (count,))
-    r, rth1, rth2, tau_w, tau_m, ambient, tref, alpha, talpha = (
+    r, rth1, rth2, tau_w, tau_motor, ambient, tref, alpha, talpha = (
         np.broadcast_to(p, batch) for p in params)
-    r_amb, slope = _resistance_terms(r, ambient, tref, alpha, talpha)
-    cw, ch = tau_w / rth1, tau_m / rth2
+    r_amb, slope = linear_resistance_terms(r, ambient, tref, alpha, talpha)
+    cw, ch = tau_w / rth1, tau_motor / rth2
     if fast:  # the whole-array path of the periodic peak: no per-segment objects
         return durations, ambient, (currents, r_amb, slope, rth1, rth2, cw, ch)
     segments = [_Segment(currents[..., k], r_amb, slope, rth1, rth2, cw, ch)
@@ -294,13 +294,13 @@ _PARAMETERS_DOC = """
         Thermal resistance winding to housing Rth1 [K/W].
     thermal_resistance_housing_ambient : float or ndarray
         Thermal resistance housing to ambient Rth2 [K/W].
-    winding_thermal_time_constant : float or ndarray
+    thermal_time_constant_winding : float or ndarray
         Winding thermal time constant τw (Cw = τw/Rth1) [s].
-    motor_thermal_time_constant : float or ndarray
+    thermal_time_constant_motor : float or ndarray
         Motor thermal time constant τ_motor (Ch = τ_motor/Rth2) [s].
     ambient_temperature : float or ndarray
         Ambient temperature Ta [K].
-    reference_temperature : float or ndarray
+    resistance_reference_temperature : float or ndarray
         Temperature at which ``terminal_resistance`` is stated [K].
     temperature_coefficient : float or ndarray
         Resistance coefficient α [1/K]; default copper α20.
@@ -318,9 +318,9 @@ _TAIL_DOC = """
 def periodic_winding_temperature(durations, currents, terminal_resistance,
                                  thermal_resistance_winding_housing,
                                  thermal_resistance_housing_ambient,
-                                 winding_thermal_time_constant,
-                                 motor_thermal_time_constant, ambient_temperature,
-                                 reference_temperature=DEFAULT_REFERENCE_TEMPERATURE,
+                                 thermal_time_constant_winding,
+                                 thermal_time_constant_motor, ambient_temperature,
+                                 resistance_reference_temperature=DEFAULT_REFERENCE_TEMPERATURE,
                                  *, temperature_coefficient=COPPER_TEMPERATURE_COEFFICIENT,
                                  coefficient_reference_temperature=COEFFICIENT_REFERENCE_TEMPERATURE,
                                  trajectory=False, samples_per_segment=16):
@@ -353,8 +353,8 @@ def periodic_winding_temperature(durations, currents, terminal_resistance,
     fast = not trajectory
     durations, ambient, segments = _setup(
         durations, currents, terminal_resistance, thermal_resistance_winding_housing,
-        thermal_resistance_housing_ambient, winding_thermal_time_constant,
-        motor_thermal_time_constant, ambient_temperature, reference_temperature,
+        thermal_resistance_housing_ambient, thermal_time_constant_winding,
+        thermal_time_constant_motor, ambient_temperature, resistance_reference_temperature,
         temperature_coefficient, coefficient_reference_temperature, fast=fast)
     if np.any(np.sum(durations, axis=-1) <= 0.0):
         raise ValueError("a periodic profile needs a positive cycle duration")
@@ -396,9 +396,9 @@ def periodic_winding_temperature(durations, currents, terminal_resistance,
 def transient_winding_temperature(durations, currents, terminal_resistance,
                                   thermal_resistance_winding_housing,
                                   thermal_resistance_housing_ambient,
-                                  winding_thermal_time_constant,
-                                  motor_thermal_time_constant, ambient_temperature,
-                                  reference_temperature=DEFAULT_REFERENCE_TEMPERATURE,
+                                  thermal_time_constant_winding,
+                                  thermal_time_constant_motor, ambient_temperature,
+                                  resistance_reference_temperature=DEFAULT_REFERENCE_TEMPERATURE,
                                   *, temperature_coefficient=COPPER_TEMPERATURE_COEFFICIENT,
                                   coefficient_reference_temperature=COEFFICIENT_REFERENCE_TEMPERATURE,
                                   initial_winding_temperature=None,
@@ -433,8 +433,8 @@ def transient_winding_temperature(durations, currents, terminal_resistance,
     """
     durations, ambient, segments = _setup(
         durations, currents, terminal_resistance, thermal_resistance_winding_housing,
-        thermal_resistance_housing_ambient, winding_thermal_time_constant,
-        motor_thermal_time_constant, ambient_temperature, reference_temperature,
+        thermal_resistance_housing_ambient, thermal_time_constant_winding,
+        thermal_time_constant_motor, ambient_temperature, resistance_reference_temperature,
         temperature_coefficient, coefficient_reference_temperature)
     start_w = ambient if initial_winding_temperature is None else initial_winding_temperature
     start_h = ambient if initial_housing_temperature is None else initial_housing_temperature

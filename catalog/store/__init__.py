@@ -312,9 +312,11 @@ class Store:
     # -- migrations ----------------------------------------------------------
     @staticmethod
     def _file_version(con) -> int | None:
+        import duckdb
+
         try:
             row = one(con.execute("SELECT max(version) FROM schema_version"))
-        except Exception:
+        except duckdb.CatalogException:  # no such table: an empty or a foreign file
             return None
         return None if row is None or row[0] is None else int(row[0])
 
@@ -328,9 +330,11 @@ class Store:
 
     @staticmethod
     def _stale_views(con) -> bool:
+        import duckdb
+
         try:
             row = one(con.execute("SELECT value FROM meta WHERE key = ?", [_FIELDS_KEY]))
-        except Exception:
+        except duckdb.CatalogException:  # no such table yet
             return True
         return row is None or row[0] != _fields_signature()
 

@@ -7,7 +7,7 @@ canonical field, generated from the schema files.
 """
 from __future__ import annotations
 
-__all__ = ["SCHEMA_VERSION", "MIGRATIONS", "view_sql"]
+__all__ = ["SCHEMA_VERSION", "MIGRATIONS", "view_sql", "all_view_sql"]
 
 from ..fields import RECORD_TYPES, fields_for
 

@@ -37,11 +37,11 @@ def _file() -> Path:
         digest = hashlib.sha1()
         for name in ("atoms.py", "spelling.py", "dimensions.py"):
             digest.update((here / name).read_bytes())
-        try:
-            from importlib.metadata import version
+        from importlib.metadata import PackageNotFoundError, version
 
+        try:
             digest.update(version("pint").encode())
-        except Exception:  # pragma: no cover - pint always installed with motorshelf
+        except PackageNotFoundError:  # pragma: no cover - pint always installed with motorshelf
             digest.update(b"pint?")
         base = os.environ.get("MOTORSHELF_CACHE_DIR") or os.path.join(
             os.environ.get("XDG_CACHE_HOME") or os.path.join(os.path.expanduser("~"), ".cache"), "motorshelf")

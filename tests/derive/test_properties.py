@@ -8,10 +8,11 @@ reference here; they are themselves checked against textbook relations in
 tests/physics.
 
 Tolerance: every value is reproduced to rel 1e-9.  The solvers marked
-``fragile`` (I0 = Is − Ts/Kt, I0 = (V − Ke·ω0)/R, R = (V − Ke·ω0)/I0) subtract two
-nearly equal numbers; the loss is bounded by the condition number Is/I0 (or
-V/(R·I0)), which the drawn range (I0 = 0.5–10 % of V/R) keeps at or below 200,
-i.e. at most ~2.3 of the ~16 digits of a double.  So 1e-9 holds for them too, with
+``fragile`` (I0 = Is − Ts/Kt, I0 = (V − Ke·ω0)/R, R = (V − Ke·ω0)/I0, I0 = In − Tn/Kt,
+I0 from the nominal point) subtract two nearly equal numbers; the loss is bounded by
+the condition number Is/I0 (or V/(R·I0), In/I0 times V/(R·In)), which the drawn ranges
+(I0 = 0.5–10 % of V/R, Tn = 10–60 % of Ts) keep below about 2000, i.e. at most ~3.3 of
+the ~16 digits of a double.  So 1e-9 holds for them too, with
 about four orders of margin: the fragility matters for rounded datasheet numbers,
 not for float round-off, and these tests use exact floats.
 """
@@ -34,11 +35,12 @@ V, R, I0, KT, KE = "nominal_voltage", "terminal_resistance", "no_load_current", 
 KV, IS, TS, W0, G = "speed_constant", "stall_current", "stall_torque", "no_load_speed", "speed_torque_gradient"
 TM, TE, J, L = "mechanical_time_constant", "electrical_time_constant", "rotor_inertia", "terminal_inductance"
 TF, KM, ETA, PMAX = "friction_torque", "motor_constant", "max_efficiency", "max_output_power"
+IETA = "max_efficiency_current"
 TN, IN, WN = "nominal_torque", "nominal_current", "nominal_speed"
 RTH1, RTH2, TMAX = "thermal_resistance_winding_housing", "thermal_resistance_housing_ambient", "max_winding_temperature"
 TREF, ICONT, TCONT = "resistance_reference_temperature", "max_continuous_current", "max_continuous_torque"
 
-FULL_FIELDS = (V, R, I0, KT, KE, KV, IS, TS, W0, G, TM, TE, J, L, TF, KM, ETA, PMAX, TN, IN, WN,
+FULL_FIELDS = (V, R, I0, KT, KE, KV, IS, TS, W0, G, TM, TE, J, L, TF, KM, ETA, IETA, PMAX, TN, IN, WN,
                RTH1, RTH2, TMAX, TREF, ICONT, TCONT)
 
 # Sufficient sets of the electrical constants: each determines V, R, Kt(=Ke), I0.
@@ -55,6 +57,8 @@ CORE_FAMILIES = {
     "V w0 G Kt Tf": {V, W0, G, KT, TF},  # I0 = Tf/Kt, Ts = ω0/G, Is, R = V/Is
     "V R Kt eta": {V, R, KT, ETA},  # I0 = Is·(1 − √η)²
     "V Ke tau_e L Ts I0": {V, KE, TE, L, TS, I0},  # R = L/τe
+    "V R Kt In Tn": {V, R, KT, IN, TN},  # I0 = In − Tn/Kt (fragile)
+    "V R Kt wn Tn": {V, R, KT, WN, TN},  # I0 from the nominal point on the speed-torque line (fragile)
 }
 # the other fields are not derivable from the electrical constants; one of each group
 MECHANICAL = ({J}, {TM})
@@ -98,6 +102,7 @@ def motors(draw):
         TF: P.friction_torque(kt, i0),
         KM: P.motor_constant(kt, r),
         ETA: P.max_efficiency(i0, i_s),
+        IETA: P.max_efficiency_current(i0, i_s),
         PMAX: P.max_output_power(v, r, i0),
         TN: tn,
         IN: P.current_at_torque(tn, kt, i0),
@@ -174,6 +179,17 @@ def test_derivation_is_idempotent(cases):
     for f, col in first.columns.items():
         np.testing.assert_array_equal(again.columns[f], col, err_msg=f)
         assert list(again.equation[f]) == list(first.equation[f])
+
+
+@settings(max_examples=300, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(motors())
+def test_every_solver_reproduces_the_full_record(rec):
+    """Every solver of every relation, given the other fields of a consistent record,
+    returns the field it solves for (the forward functions above are the reference)."""
+    for eq in EQUATIONS:
+        for s in eq.solvers:
+            got = s.func(*(rec[name] for name in s.inputs))
+            assert got == pytest.approx(rec[s.output], rel=REL), (eq.name, s.output, s.func.__name__)
 
 
 @SETTINGS

@@ -65,3 +65,39 @@ def test_relation_table_markdown_lists_every_solver():
     expected = [f"| {eq.name} | {s.output} | {', '.join(s.inputs)} |" for eq, s in SOLVERS]
     assert body == expected
     assert len(body) == len(SOLVERS)
+
+
+def test_every_solver_is_a_documented_physics_function():
+    """The solvers are the functions of :mod:`catalog.physics` (pure, documented, tested there),
+    or a thin wrapper in :mod:`catalog.derive` that fixes a rating condition; no solver twice."""
+    from catalog import derive, physics
+
+    seen = set()
+    for eq, s in SOLVERS:
+        name = s.func.__name__
+        assert getattr(physics, name, None) is s.func or getattr(derive, name, None) is s.func, name
+        assert inspect.getdoc(s.func), name
+        assert (s.output, s.func) not in seen, (eq.name, s.output)
+        seen.add((s.output, s.func))
+
+
+def test_a_relation_solves_for_each_field_at_most_once():
+    for eq in EQUATIONS:
+        outputs = [s.output for s in eq.solvers]
+        assert len(outputs) == len(set(outputs)), eq.name
+
+
+#: Parameters of an operating point, which a relation binds to the datasheet field it holds at.
+OPERATING_POINT = {"supply_voltage", "torque", "current", "speed"}
+
+
+@pytest.mark.parametrize("case", SOLVERS, ids=[_id(c) for c in SOLVERS])
+def test_solver_inputs_are_the_parameter_names(case):
+    """One name per quantity: a solver hands a field to the parameter of the same name; only an
+    operating-point parameter takes a field of another name (e.g. supply_voltage <- nominal_voltage)."""
+    eq, s = case
+    params = [p.name for p in inspect.signature(s.func).parameters.values()
+              if p.default is inspect.Parameter.empty]
+    assert len(params) == len(s.inputs), (eq.name, s.output)
+    for param, name in zip(params, s.inputs):
+        assert param == name or param in OPERATING_POINT, (eq.name, s.output, param, name)

@@ -55,7 +55,7 @@ def test_derived_rows_carry_relation_and_inputs(cat, csv_file):
     assert set(derived.field) == {
         "stall_current", "stall_torque", "no_load_speed", "back_emf_constant", "speed_constant",
         "speed_torque_gradient", "friction_torque", "motor_constant", "max_efficiency",
-        "max_output_power", "resistance_reference_temperature"}
+        "max_output_power", "max_efficiency_current", "resistance_reference_temperature"}
     present = set(v.field)
     for row in derived.itertuples():
         assert row.batch_id == report.batch_id

@@ -105,3 +105,26 @@ def test_dunder_all_lists_only_existing_unique_names():
     assert len(ph.__all__) == len(set(ph.__all__))
     for name in ph.__all__:
         assert hasattr(ph, name), name
+
+
+def test_every_parameter_is_a_schema_field_or_in_the_glossary():
+    # Source: the one-name rule (docs/glossary.md): a parameter meaning a catalogue quantity
+    # carries its schema field name; any other quantity has one name, listed in the glossary.
+    from catalog.fields import field_names
+    from catalog.glossary import OPTION_PARAMETERS, OTHER_QUANTITIES
+
+    known = set(field_names("motor")) | set(field_names("gearhead"))
+    known |= {name for _symbol, name, _unit, _meaning in OTHER_QUANTITIES} | OPTION_PARAMETERS
+    for name in FUNCTIONS:
+        for parameter in inspect.signature(getattr(ph, name)).parameters:
+            assert parameter in known, f"{name}({parameter}): a schema field name, or add it to the glossary"
+
+
+def test_glossary_names_are_no_schema_fields_and_unique():
+    from catalog.fields import field_names
+    from catalog.glossary import OTHER_QUANTITIES
+
+    names = [name for _symbol, name, _unit, _meaning in OTHER_QUANTITIES]
+    assert len(names) == len(set(names))
+    fields = set(field_names("motor")) | set(field_names("gearhead"))
+    assert set(names) & fields <= {"magnet_material"}   # listed for its role as a physics parameter

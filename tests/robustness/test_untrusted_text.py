@@ -209,6 +209,9 @@ def test_no_sql_is_built_from_text_in_the_import_path(folder):
         ("catalog/store/schema.py", "_column_expr"): "field names from schemas/*.json, asserted identifiers",
         ("catalog/store/schema.py", "view_sql"): "view and field names from the schema files",
         ("catalog/store/__init__.py", "_migrate"): "runs MIGRATIONS and view_sql(): constants of schema.py",
+        ("catalog/store/derived.py", "derive_in_store"): "scope: one of two constant conditions",
+        ("catalog/store/derived.py", "_replace_derived"): "scope: a constant condition of derive_in_store",
+        ("catalog/store/derived.py", "_replace_flags"): "scope: a constant condition of derive_in_store",
     }
     root = Path(__file__).resolve().parents[2]
     target = root / folder

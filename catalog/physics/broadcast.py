@@ -1,4 +1,4 @@
-"""Input and output handling shared by every public physics function.
+"""Input and output handling shared by every public physics function (the ``@vectorised`` wrapper).
 
 Physics functions accept Python scalars, numpy arrays and pandas Series and
 broadcast them with numpy rules.  This module converts inputs to numpy before
