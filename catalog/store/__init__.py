@@ -49,11 +49,18 @@ def check_unique_values(con, record_ids=None) -> None:
         con.execute("CREATE OR REPLACE TEMP VIEW checked_records AS SELECT record_id FROM records")
     else:
         con.register("checked_records", pa.table({"record_id": pa.array(list(record_ids), type=pa.string())}))
+    # grouped by a hash of the key first (half the work of grouping two strings on millions of
+    # rows); only where two rows share a hash are the keys themselves compared
+    suspect = one(con.execute(
+        "SELECT count(*) FROM (SELECT hash(record_id, field) FROM record_values WHERE record_id IN "
+        "(SELECT record_id FROM checked_records) GROUP BY ALL HAVING count(*) > 1 UNION ALL "
+        "SELECT hash(record_id, relation) FROM flags WHERE record_id IN (SELECT record_id FROM checked_records) "
+        "GROUP BY ALL HAVING count(*) > 1)"))[0]
     twice = con.execute(
         "SELECT record_id, field FROM record_values WHERE record_id IN (SELECT record_id FROM checked_records) "
         "GROUP BY ALL HAVING count(*) > 1 UNION ALL "
         "SELECT record_id, relation FROM flags WHERE record_id IN (SELECT record_id FROM checked_records) "
-        "GROUP BY ALL HAVING count(*) > 1 ORDER BY ALL LIMIT 3").fetchall()
+        "GROUP BY ALL HAVING count(*) > 1 ORDER BY ALL LIMIT 3").fetchall() if suspect else []
     if record_ids is None:
         con.execute("DROP VIEW checked_records")
     else:
