@@ -12,7 +12,7 @@ as ``adjust`` movements, computed again inside the write transaction.
 """
 from __future__ import annotations
 
-__all__ = ["StockFile", "read_stock_files", "import_stock", "count_stock", "STOCK_FIELDS"]
+__all__ = ["StockFile", "parse_stock_files", "read_stock_files", "import_stock", "count_stock", "STOCK_FIELDS"]
 
 import difflib
 import re
@@ -151,13 +151,24 @@ def _read_one(path, out: list, problems: list) -> None:
             out.append(rec)
 
 
-def read_stock_files(con, paths) -> StockFile:
-    """Read and check stock files, resolving every row to a catalogue record; writes nothing."""
-    import pandas as pd
+def parse_stock_files(paths) -> tuple[list, list]:
+    """The rows and problems of stock files as read, before any record is looked up.
 
+    Reading and checking the files needs no catalogue: done once, before the catalogue is
+    opened, so a write never holds the lock while files are parsed.
+    """
     recs, problems = [], []
     for path in paths:
         _read_one(path, recs, problems)
+    return recs, problems
+
+
+def read_stock_files(con, paths, parsed=None) -> StockFile:
+    """Read and check stock files (or take ``parsed``, from :func:`parse_stock_files`),
+    resolving every row to a catalogue record; writes nothing."""
+    import pandas as pd
+
+    recs, problems = parse_stock_files(paths) if parsed is None else (parsed[0], list(parsed[1]))
     cols = ["source", "row", *STOCK_FIELDS]
     frame = pd.DataFrame(recs, columns=cols)
     for name, spec in STOCK_FIELDS.items():  # text columns hold None, never NaN, where missing
@@ -167,11 +178,11 @@ def read_stock_files(con, paths) -> StockFile:
     frame["record_id"] = None
     if len(frame):
         con.register("stock_keys", frame[["id", "manufacturer", "part_number"]].assign(pos=range(len(frame))))
-        hits = con.execute(
+        hits = con.execute(  # two equality joins (hash joins), never one join on `id = ... OR key = ...`
+            "SELECT k.pos, r.record_id FROM stock_keys k JOIN records r ON r.record_id = k.id UNION ALL "
             "SELECT k.pos, r.record_id FROM stock_keys k JOIN records r ON "
-            "(k.id IS NOT NULL AND r.record_id = k.id) OR (k.id IS NULL AND "
             "lower(trim(r.manufacturer)) = lower(trim(k.manufacturer)) AND "
-            "lower(trim(r.part_number)) = lower(trim(k.part_number)))").fetchall()
+            "lower(trim(r.part_number)) = lower(trim(k.part_number)) WHERE k.id IS NULL").fetchall()
         con.unregister("stock_keys")
         found = dict(hits)
         frame["record_id"] = [found.get(i) for i in range(len(frame))]
@@ -249,8 +260,10 @@ def import_stock(store, paths, person=None, reason=None, at=None):
     """
     import pandas as pd
 
+    parsed = parse_stock_files(paths)  # before any lock: under it only the records are looked up
+
     def checked_rows(con):
-        checked = read_stock_files(con, paths)
+        checked = read_stock_files(con, paths, parsed)
         for r in checked.rows[checked.rows["quantity"] == 0].itertuples(index=False):
             checked.problems.append(Problem(r.source, r.row, "quantity",
                                             "0 pieces, expected at least 1 to receive (a count file may list 0)"))
@@ -338,14 +351,15 @@ def count_stock(store, path, apply: bool = False, keep_unlisted: bool = False, p
     import pandas as pd
 
     paths = [path]
+    parsed = parse_stock_files(paths)  # before any lock: under it only the records are looked up
     with store.read() as con:
-        checked = read_stock_files(con, paths)
+        checked = read_stock_files(con, paths, parsed)
         if checked.problems:
             _refuse(checked, store, "counted")
         if not apply:
             return _differences(con, checked.rows, keep_unlisted), False, None
     with store.write() as con:
-        checked = read_stock_files(con, paths)
+        checked = read_stock_files(con, paths, parsed)
         if checked.problems:
             _refuse(checked, store, "counted")
         diff = _differences(con, checked.rows, keep_unlisted)
