@@ -24,8 +24,10 @@ from __future__ import annotations
 __all__ = ["Store", "FileLock", "default_path", "one", "check_unique_values", "SCHEMA_VERSION"]
 
 import contextlib
+import errno
 import os
 import random
+import stat
 import time
 from pathlib import Path
 
@@ -124,16 +126,11 @@ class FileLock:
         except ImportError:  # pragma: no cover - not on POSIX
             return False
         try:
-            fd = os.open(self.path, os.O_RDWR | os.O_CREAT, 0o666)
+            fd = self._open_file()
         except OSError as exc:
             if exclusive:
-                raise StoreError(f"{self.db_path}: cannot write the catalogue (cannot create its lock file "
-                                 f"{self.path.name}: {exc.strerror or exc}); nothing was changed, check the "
-                                 "folder's permissions and try again", path=str(self.db_path)) from None
-            try:
-                fd = os.open(self.path, os.O_RDONLY)
-            except OSError:
-                return False
+                raise self._unusable(exc) from None
+            return False
         flag = (fcntl.LOCK_EX if exclusive else fcntl.LOCK_SH) | fcntl.LOCK_NB
         delay = 0.005
         while True:
@@ -150,6 +147,62 @@ class FileLock:
                 return False
             time.sleep(delay * (0.5 + random.random()))
             delay = min(delay * 1.5, 0.1)
+
+    def _open_file(self) -> int:
+        """A descriptor of the lock file, made if missing with the catalogue file's permissions and group.
+
+        A link is never followed (a link planted there could make us create or lock any
+        file) and only a plain file is used.  ``flock`` needs no write access, so a lock
+        file another user made without write permission for us is opened for reading.
+        """
+        base = os.O_NOFOLLOW | os.O_NONBLOCK | getattr(os, "O_CLOEXEC", 0)
+        created = False
+        try:
+            fd = os.open(self.path, os.O_RDWR | os.O_CREAT | os.O_EXCL | base, 0o666)
+            created = True
+        except FileExistsError:
+            try:
+                fd = os.open(self.path, os.O_RDWR | base)
+            except PermissionError:
+                fd = os.open(self.path, os.O_RDONLY | base)
+        try:
+            info = os.fstat(fd)
+            if not stat.S_ISREG(info.st_mode):
+                raise OSError(errno.EINVAL, "not a plain file")
+            if created:
+                self._share_like_the_catalogue(fd)
+        except BaseException:
+            os.close(fd)
+            raise
+        return fd
+
+    def _share_like_the_catalogue(self, fd: int) -> None:
+        """Give a new lock file the catalogue file's read/write permissions and group, so every
+        user who may write the catalogue may take its lock (whatever the creator's umask)."""
+        try:
+            cat = os.stat(self.db_path)
+        except OSError:
+            return  # a new catalogue: DuckDB creates it with the same umask as this file
+        try:
+            os.fchown(fd, -1, cat.st_gid)
+        except OSError:
+            pass  # not a member of the catalogue's group: the permissions below still hold
+        try:
+            os.fchmod(fd, stat.S_IMODE(cat.st_mode) & 0o666)
+        except OSError:
+            pass
+
+    def _unusable(self, exc: OSError) -> StoreError:
+        if exc.errno == errno.ELOOP:
+            why = "it is a symbolic link, expected a plain file; remove the link"
+        elif exc.errno == errno.EINVAL:
+            why = "it is not a plain file; remove it"
+        else:
+            why = f"cannot create its lock file {self.path.name}: {exc.strerror or exc}"
+            return StoreError(f"{self.db_path}: cannot write the catalogue ({why}); nothing was changed, check "
+                              "the folder's permissions and try again", path=str(self.db_path))
+        return StoreError(f"{self.db_path}: cannot write the catalogue (its lock file {self.path.name}: {why}); "
+                          "nothing was changed", path=str(self.db_path))
 
     def release(self) -> None:
         if self._fd is not None:
