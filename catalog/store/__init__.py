@@ -357,12 +357,39 @@ class Store:
                 raise self._newer(version)  # its layout may mean something else: read nothing
             if version is None or version < SCHEMA_VERSION or self._stale_views(con):
                 con.close()
-                with self.write():
-                    pass  # migrate, then reopen read-only
-                con = self._open_reader()
+                con = self._upgraded_reader(version)
             yield con
         finally:
             con.close()
+
+    def _upgraded_reader(self, version: int | None):
+        """A read-only connection to a file that needs migrating or new views: migrated (and
+        the views rebuilt) in the file where it can be written; where it cannot (read-only
+        storage, another user's file), the views of the current field set are built in the
+        connection only and the file is left as it is."""
+        try:
+            with self.write():
+                pass  # migrate, then reopen read-only
+        except StoreBusy:
+            raise
+        except StoreError as exc:
+            if version is None:
+                raise
+            if version < SCHEMA_VERSION:
+                why = exc.message.removeprefix(f"{self.path}: ").split("; ")[0]
+                raise StoreError(
+                    f"{self.path}: catalogue file has layout version {version}, older than this motorshelf's "
+                    f"({SCHEMA_VERSION}), and it cannot be upgraded where it is ({why}); open it once with write "
+                    "access to upgrade it; the file was not changed", path=str(self.path), version=version) from None
+            con = self._open_reader()
+            try:
+                for stmt in all_view_sql(temporary=True):
+                    con.execute(stmt)
+            except BaseException:
+                con.close()
+                raise
+            return con
+        return self._open_reader()
 
     def _open_reader(self):
         con, lock = self._open(read_only=True)
