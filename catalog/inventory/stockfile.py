@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 
 from ..errors import ImportRejected, Problem
 from ..fields import load_schema
-from .ledger import merge_serials, post, split_serials
+from .ledger import merge_serials, post, read_count, split_serials
 
 _SCHEMA = load_schema("stock")
 STOCK_FIELDS = dict(_SCHEMA["properties"])
@@ -44,26 +44,13 @@ def _key(header: str) -> str:
 
 def _cell(value, kind: str):
     """(value, error) of one cell for a field of JSON type ``kind``; value None = missing."""
-    from ..units import NumberError, parse_number
-
     if value is None or (isinstance(value, str) and not value.strip()):
         return None, None
     if isinstance(value, dict):  # a JSON/YAML {value, unit} mapping: stock fields take one plain value
         keys = ", ".join(repr(str(k)) for k in list(value)[:5])
         return None, f"a mapping with keys {keys}, expected a single value"
     if kind == "integer":
-        if isinstance(value, bool):
-            return None, f"{str(value).lower()!r} is not a whole number, expected a count of pieces"
-        text = repr(value) if isinstance(value, float) else str(value).strip()
-        try:
-            num = parse_number(text)  # strict: thousands separators, decimal commas, nan and inf say so
-        except NumberError as exc:
-            if exc.found != "no number":
-                return None, str(exc)
-            num = None
-        if num is None or num != int(num):
-            return None, f"{text!r} is not a whole number, expected a count of pieces"
-        return int(num), None
+        return read_count(value)  # strict: thousands separators, decimal commas, nan and inf say so
     if isinstance(value, float) and value.is_integer():
         value = int(value)  # a part number a spreadsheet stored as a number
     return " ".join(str(value).split()), None
