@@ -13,7 +13,7 @@ from pathlib import Path
 
 from .errors import InputError, NotFound, Problem
 from .inventory.methods import StockMethods
-from .store import Store, default_path, one
+from .store import Store, default_path, is_damage, one
 
 _VIEWS = {"motors": "motors", "gearheads": "gearheads", "motor": "motors", "gearhead": "gearheads"}
 
@@ -80,6 +80,8 @@ class Catalog(StockMethods):
                     return pd.DataFrame()
                 return rel.to_arrow_table().to_pandas()
             except duckdb.Error as exc:
+                if is_damage(exc):
+                    raise self.store.damaged(exc) from None
                 first = str(exc).splitlines()[0]
                 raise InputError(f"sql: {first}", [Problem("sql", None, None, first)]) from None
 

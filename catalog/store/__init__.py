@@ -21,7 +21,7 @@ while somebody else is changing it.
 """
 from __future__ import annotations
 
-__all__ = ["Store", "FileLock", "default_path", "one", "check_unique_values", "SCHEMA_VERSION"]
+__all__ = ["Store", "FileLock", "default_path", "one", "check_unique_values", "is_damage", "SCHEMA_VERSION"]
 
 import contextlib
 import errno
@@ -31,7 +31,7 @@ import stat
 import time
 from pathlib import Path
 
-from ..errors import StoreBusy, StoreError
+from ..errors import StoreBusy, StoreDamaged, StoreError
 from .schema import MIGRATIONS, SCHEMA_VERSION, all_view_sql
 
 _FIELDS_KEY = "fields_signature"
@@ -86,6 +86,24 @@ def one(result):
 def default_path() -> Path:
     """``$MOTORSHELF_DB`` if set, else ``./motorshelf.duckdb``."""
     return Path(os.environ.get("MOTORSHELF_DB") or "motorshelf.duckdb")
+
+
+#: What DuckDB says when a block of the file does not read back as it was written.
+_DAMAGE_TEXTS = ("Corrupt database file", "does not match stored checksum", "Could not read enough bytes",
+                 "database has been invalidated")
+
+
+def is_damage(exc: Exception, reading: bool = True) -> bool:
+    """True if the DuckDB error ``exc`` says the catalogue file is damaged (cut short, blocks
+    that fail their checksum) rather than that a query or a write went wrong.  Reading
+    (``reading``), any I/O error counts: a read-only connection writes nothing."""
+    import duckdb
+
+    if not isinstance(exc, duckdb.Error):
+        return False
+    if reading and isinstance(exc, (duckdb.IOException, duckdb.FatalException)):
+        return True
+    return any(t in str(exc) for t in _DAMAGE_TEXTS)
 
 
 def _is_lock_error(exc: Exception) -> bool:
@@ -255,7 +273,13 @@ class Store:
         delay = 0.02
         while True:
             try:
-                return duckdb.connect(str(self.path), read_only=read_only)
+                con = duckdb.connect(str(self.path), read_only=read_only)
+                try:
+                    self._check_whole(con)
+                except BaseException:
+                    con.close()
+                    raise
+                return con
             except duckdb.IOException as exc:
                 if not _is_lock_error(exc):
                     raise self._open_error(exc) from None
@@ -266,8 +290,31 @@ class Store:
             time.sleep(delay * (0.5 + random.random()))
             delay = min(delay * 1.6, 0.5)
 
+    def _check_whole(self, con) -> None:
+        """Refuse a file too short to hold the blocks its header says are in use (cut short by a
+        copy, a full disk or a crash of the storage): reading it would fail part-way, writing it
+        would add to the damage.  One pragma; the blocks themselves are checked (checksums) as
+        they are read.  (Free blocks at the end may have been cut off by DuckDB itself: only
+        the used ones count.)"""
+        if not self.path.exists():
+            return
+        row = one(con.execute("PRAGMA database_size"))
+        used, block_size = (int(row[4]), int(row[2])) if row else (0, 0)
+        size = self.path.stat().st_size
+        if size < used * block_size:
+            raise self.damaged(f"the file has {size} bytes, too few for the {used} blocks of {block_size} "
+                               "bytes it holds")
+
+    def damaged(self, exc) -> StoreDamaged:
+        """The error of a damaged catalogue file (``exc``: DuckDB's error, or what was found)."""
+        text = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        return StoreDamaged(f"{self.path}: the catalogue file is damaged ({text}); nothing was changed, "
+                            "restore it from a backup", path=str(self.path))
+
     def _open_error(self, exc) -> StoreError:
         text = str(exc).splitlines()[0]
+        if is_damage(exc, reading=False):
+            return self.damaged(exc)
         if "not a valid DuckDB database file" in text:
             return StoreError(f"{self.path}: not a catalogue file (not a DuckDB database), expected a file "
                               "made by motorshelf; the file was not changed", path=str(self.path))
@@ -275,6 +322,8 @@ class Store:
 
     def _write_error(self, exc, committed: bool = False) -> StoreError:
         text = str(exc).splitlines()[0]
+        if not committed and is_damage(exc, reading=False):
+            return self.damaged(exc)
         if committed:
             return StoreError(f"{self.path}: the change was committed, but closing the catalogue failed "
                               f"({text}); it is kept in the file's write-ahead log", path=str(self.path))
@@ -306,11 +355,15 @@ class Store:
                 con.execute("BEGIN TRANSACTION")
             except (*faults, duckdb.TransactionException) as exc:  # a migration's COMMIT included
                 raise self._write_error(exc) from None
+            except duckdb.Error as exc:
+                if is_damage(exc, reading=False):
+                    raise self.damaged(exc) from None
+                raise
             try:
                 yield con
             except BaseException as exc:
                 self._rollback(con)
-                if isinstance(exc, faults):
+                if isinstance(exc, faults) or is_damage(exc, reading=False):
                     raise self._write_error(exc) from None
                 raise
             try:
@@ -350,6 +403,8 @@ class Store:
             finally:
                 con.close()
             return
+        import duckdb
+
         con = self._open_reader()
         try:
             version = self._file_version(con)
@@ -359,6 +414,10 @@ class Store:
                 con.close()
                 con = self._upgraded_reader(version)
             yield con
+        except duckdb.Error as exc:
+            if is_damage(exc):
+                raise self.damaged(exc) from None
+            raise
         finally:
             con.close()
 
@@ -399,9 +458,11 @@ class Store:
     # -- migrations ----------------------------------------------------------
     @staticmethod
     def _file_version(con) -> int | None:
+        import duckdb
+
         try:
             row = one(con.execute("SELECT max(version) FROM schema_version"))
-        except Exception:
+        except duckdb.CatalogException:  # no such table: not (yet) a catalogue; damage is raised
             return None
         return None if row is None or row[0] is None else int(row[0])
 
@@ -415,9 +476,11 @@ class Store:
 
     @staticmethod
     def _stale_views(con) -> bool:
+        import duckdb
+
         try:
             row = one(con.execute("SELECT value FROM meta WHERE key = ?", [_FIELDS_KEY]))
-        except Exception:
+        except duckdb.CatalogException:
             return True
         return row is None or row[0] != _fields_signature()
 
