@@ -21,7 +21,7 @@ from typing import NamedTuple
 
 from .errors import InputError, Problem
 from .inventory.methods import StockMethods
-from .store import Store, default_path, one
+from .store import Store, default_path, is_damage, one
 
 #: ``list``/``export`` kind → (view, record type); the view name never comes from a caller's text.
 _KINDS = {"motors": ("motors", "motor"), "gearheads": ("gearheads", "gearhead")}
@@ -142,6 +142,8 @@ class Catalog(StockMethods):
                     return pd.DataFrame()
                 return rel.to_arrow_table().to_pandas()
             except duckdb.Error as exc:
+                if is_damage(exc):
+                    raise self.store.damaged(exc) from None
                 first = str(exc).splitlines()[0]
                 raise InputError(f"sql: {first}", [Problem("sql", None, None, first)]) from None
 

@@ -13,6 +13,7 @@ __all__ = [
     "ImportRejected",
     "StoreError",
     "StoreBusy",
+    "StoreDamaged",
     "NotFound",
     "Problem",
 ]
@@ -75,6 +76,13 @@ class StoreError(MotorshelfError, RuntimeError):
 
 class StoreBusy(StoreError):
     """Another process holds the catalogue's write lock for longer than we wait."""
+
+
+class StoreDamaged(StoreError):
+    """The catalogue file is cut short or its blocks do not read back (exit code 3: restore it
+    from a backup)."""
+
+    exit_code = 3
 
 
 class NotFound(MotorshelfError, LookupError):

@@ -68,7 +68,7 @@ def receive_cmd(obj: Context, record_id, quantity, location, condition, serial_n
 @click.argument("quantity", metavar="[QTY]", required=False)
 @_where()
 @click.option("--project", default=None, metavar="PROJECT", help="The project the pieces are for.")
-@click.option("--reservation", default=None, type=int, metavar="N",
+@click.option("--reservation", default=None, metavar="N",
               help="Take the pieces of reservation N (all that is left, or QTY of them).")
 @_SERIAL
 @_PERSON
@@ -78,7 +78,8 @@ def receive_cmd(obj: Context, record_id, quantity, location, condition, serial_n
 def take_cmd(obj: Context, record_id, quantity, location, condition, project, reservation, serial_numbers, person,
              reason):
     """Take QTY pieces of ID off the shelf for a --project (by a --person), or turn a --reservation into a take."""
-    if reservation is not None and quantity is None and record_id is not None and record_id.isdigit():
+    if reservation is not None and quantity is None and record_id is not None and record_id.isascii() \
+            and record_id.isdigit():
         record_id, quantity = None, record_id  # `take --reservation 3 1`: the one argument is the quantity
     _done(obj.catalog().stock_take(record_id, quantity, location, condition, person, project, reason, reservation,
                                    ";".join(serial_numbers) or None))
@@ -172,11 +173,7 @@ def reserve_cmd(obj: Context, record_id, quantity, project, location, condition,
 @handle_errors
 def release_cmd(obj: Context, reservation_id, quantity, person, reason):
     """Give the pieces of a reservation (its number, see `stock reservations`) back to everyone."""
-    from ..errors import InputError
-
-    if not str(reservation_id).isdigit():
-        raise InputError(f"reservation {reservation_id!r} is not a reservation number, expected e.g. 3")
-    _done(obj.catalog().stock_release(int(reservation_id), quantity, person, reason))
+    _done(obj.catalog().stock_release(reservation_id, quantity, person, reason))
 
 
 @stock.command("reservations")

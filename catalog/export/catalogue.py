@@ -13,6 +13,7 @@ __all__ = ["catalogue_tables", "export_catalogue", "provenance_table", "KINDS", 
 import datetime as _dt
 
 from ..errors import InputError, Problem
+from ..store import is_damage
 
 #: Export kind → (view, record type).
 KINDS = {"motors": ("motors", "motor"), "gearheads": ("gearheads", "gearhead")}
@@ -72,6 +73,8 @@ def _query(cat, view: str, where: str | None, params: dict | None):
             rows = (con.sql(sql, params=params) if params else con.sql(sql)).to_arrow_table().to_pandas()
             vals = (con.sql(vsql, params=params) if params else con.sql(vsql)).to_arrow_table().to_pandas()
         except duckdb.Error as exc:
+            if is_damage(exc):  # the file, not the condition
+                raise cat.store.damaged(exc) from None
             raise _where_problem(where or "", str(exc).splitlines()[0]) from None
     return rows, vals
 

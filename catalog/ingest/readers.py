@@ -15,6 +15,7 @@ import csv
 import datetime as _dt
 import io
 import json
+import re
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -206,10 +207,12 @@ def _read_csv(path: Path, source: str, header_row: int = 1) -> list[RawTable]:
 
 
 def _xlsx_has_formulas(path: Path, source: str) -> bool:
-    """Check the archive before openpyxl parses it: refuse a zip bomb, and tell whether
-    any worksheet holds a formula (``<f>`` element)."""
+    """Check the archive before openpyxl parses it: refuse a zip bomb and XML that declares a
+    document type (entities: a spreadsheet program never writes one, and entity expansion
+    can blow up), and tell whether any worksheet holds a formula (``<f>`` element)."""
     import zipfile
 
+    formulas = False
     try:
         with zipfile.ZipFile(path) as zf:
             members = zf.infolist()
@@ -217,20 +220,39 @@ def _xlsx_has_formulas(path: Path, source: str) -> bool:
             if unpacked > MAX_XLSX_UNPACKED_BYTES:
                 members = []
             for m in members:
-                if not (m.filename.startswith("xl/worksheets/") and m.filename.endswith(".xml")):
+                sheet = m.filename.startswith("xl/worksheets/") and m.filename.endswith(".xml")
+                if not (sheet or m.filename.endswith((".xml", ".rels"))):
                     continue
                 with zf.open(m) as fh:
                     tail = b""
                     while chunk := fh.read(1 << 20):
-                        if b"<f>" in tail + chunk or b"<f " in tail + chunk or b":f>" in tail + chunk:
-                            return True
-                        tail = chunk[-8:]
+                        text = tail + chunk
+                        if b"<!DOCTYPE" in text or b"<!ENTITY" in text:
+                            raise _fail(source, f"not a readable .xlsx workbook ({m.filename} declares XML "
+                                                "entities (<!DOCTYPE>), which spreadsheet programs never write)")
+                        if sheet and (b"<f>" in text or b"<f " in text or b":f>" in text):
+                            formulas = True
+                        tail = chunk[-9:]
     except (zipfile.BadZipFile, zipfile.LargeZipFile, OSError, EOFError, ValueError) as exc:
+        if isinstance(exc, InputError):
+            raise
         raise _fail(source, f"not a readable .xlsx workbook ({type(exc).__name__}: {exc})") from None
     if unpacked > MAX_XLSX_UNPACKED_BYTES:
         raise _fail(source, f"workbook unpacks to {unpacked / 1e6:.0f} MB, expected at most "
                             f"{MAX_XLSX_UNPACKED_BYTES / 1e6:.0f} MB; split it")
-    return False
+    return formulas
+
+
+#: What openpyxl raises on a workbook whose parts are cut off or damaged.
+_DAMAGED_XLSX = (KeyError, IndexError, TypeError, ValueError, AttributeError, EOFError, OSError)
+
+
+def _damaged_xlsx(source: str, exc: Exception) -> InputError:
+    from xml.etree.ElementTree import ParseError
+
+    if isinstance(exc, ParseError):
+        return _fail(source, f"not a readable .xlsx workbook (damaged XML: {exc})")
+    return _fail(source, f"not a readable .xlsx workbook (damaged content: {type(exc).__name__}: {exc})")
 
 
 def _formulas_without_value(path: Path, name: str, wanted: set) -> dict:
@@ -259,7 +281,21 @@ def _column_letter(col: int) -> str:
 
 
 def _read_xlsx(path: Path, source: str, sheet: str | None, header_row: int = 1) -> list[RawTable]:
+    """The sheets of a workbook; a damaged one (cut-off XML, cells openpyxl cannot read) is
+    one problem of the file, never a traceback."""
+    from xml.etree.ElementTree import ParseError
+
+    try:
+        return _read_xlsx_sheets(path, source, sheet, header_row)
+    except InputError:
+        raise
+    except (ParseError, *_DAMAGED_XLSX) as exc:
+        raise _damaged_xlsx(source, exc) from None
+
+
+def _read_xlsx_sheets(path: Path, source: str, sheet: str | None, header_row: int = 1) -> list[RawTable]:
     import zipfile
+    from xml.etree.ElementTree import ParseError
 
     import openpyxl
 
@@ -268,6 +304,8 @@ def _read_xlsx(path: Path, source: str, sheet: str | None, header_row: int = 1) 
         wb = openpyxl.load_workbook(path, read_only=True, data_only=True)
     except (zipfile.BadZipFile, KeyError, OSError, ValueError, EOFError) as exc:
         raise _fail(source, f"not a readable .xlsx workbook ({type(exc).__name__}: {exc})") from None
+    except ParseError as exc:
+        raise _damaged_xlsx(source, exc) from None
     try:
         names = wb.sheetnames
         if sheet is not None:
@@ -355,6 +393,27 @@ def _cell_problem(value) -> str | None:
     return f"a {type(value).__name__}, expected a single value"
 
 
+#: A UTF-16 surrogate alone: JSON and YAML escapes (``\\ud800``) can write one, UTF-8 cannot hold it.
+_SURROGATE = re.compile("[\ud800-\udfff]")
+
+
+def _surrogate(value) -> str | None:
+    """The escape of the first lone surrogate in ``value`` (text, or a {value, unit} mapping), or None."""
+    texts = value.values() if isinstance(value, dict) else (value,)
+    for text in texts:
+        if isinstance(text, str) and not text.isascii():
+            found = _SURROGATE.search(text)
+            if found:
+                return found.group().encode("unicode_escape").decode("ascii")
+    return None
+
+
+def _no_surrogate(what: str, value) -> str | None:
+    found = _surrogate(value)
+    return None if found is None else (f"{what} holds a lone surrogate ({found}), expected valid Unicode text "
+                                       "(a JSON or YAML escape of half a character)")
+
+
 def _records_to_tables(doc, source: str) -> list[RawTable]:
     """JSON/YAML: a list of records, or {motors: [...], gearheads: [...], units: {...}}."""
     groups: list[tuple[str | None, list, dict]] = []
@@ -366,6 +425,10 @@ def _records_to_tables(doc, source: str) -> list[RawTable]:
         units = doc.get("units") or {}
         if not isinstance(units, dict) or any(not isinstance(v, str) for v in units.values()):
             raise _fail(source, "'units' must map field names to unit spellings such as mNm")
+        for text in [*doc, *units, *units.values()]:
+            why = _no_surrogate(f"key or unit {text!r}", text)
+            if why:
+                raise _fail(source, why)
         unknown = [k for k in doc if k not in _TYPE_KEYS and k not in ("units", "description", "source")]
         if unknown:
             raise _fail(source, f"unknown top-level key {unknown[0]!r}, expected motors, gearheads or units")
@@ -395,26 +458,38 @@ def _records_to_tables(doc, source: str) -> list[RawTable]:
                 problems.append(Problem(label, i, str(k), f"key {k!r} appears twice in record {i}, expected once"))
             for k in rec:
                 if str(k) not in seen:
+                    why = _no_surrogate(f"key {str(k)!r}", str(k))
+                    if why:
+                        raise _fail(source, why, row=i)
                     seen.add(str(k))
                     headers.append(str(k))
         rows = [[rec.get(h) for h in headers] for rec in records]
         for i, row in enumerate(rows):
             for j, cell in enumerate(row):
                 if cell is not None and not isinstance(cell, _SCALARS):
-                    why = _cell_problem(cell)
+                    why = _cell_problem(cell) or _no_surrogate("the value", cell)
                     if why:
                         problems.append(Problem(label, i + 1, headers[j], why))
                         row[j] = None  # never turned into text
+                elif isinstance(cell, str) and not cell.isascii() and _SURROGATE.search(cell):
+                    problems.append(Problem(label, i + 1, headers[j], _no_surrogate("the text", cell)))
+                    row[j] = None
         tables.append(RawTable(label, headers, rows, list(range(1, len(records) + 1)),
                                header_row=None, record_type=rtype, units={str(k): str(v) for k, v in units.items()},
                                problems=problems))
     return tables
 
 
+def _json_int(digits: str):
+    """A JSON integer; one longer than Python turns into an int (4300 digits) stays its digits,
+    which the cell's field then reads (or refuses) as a datasheet cell of those digits."""
+    return int(digits) if len(digits) <= 4000 else digits
+
+
 def _read_json(path: Path, source: str) -> list[RawTable]:
     text = _decode(path.read_bytes(), source)
     try:
-        doc = json.loads(text, object_pairs_hook=_json_object)
+        doc = json.loads(text, object_pairs_hook=_json_object, parse_int=_json_int)
     except json.JSONDecodeError as exc:
         raise _fail(source, f"not valid JSON ({exc.msg} at column {exc.colno})", row=exc.lineno) from None
     except RecursionError:

@@ -28,7 +28,7 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 
 from ..fields import fields_for
-from ..store import check_unique_values
+from ..store import check_unique_values, one
 from .normalise import NormalTable, slug
 
 #: Records per chunk of values written and derived inside the one transaction.
@@ -57,14 +57,22 @@ def _strings(**columns):
 
 
 def _stored_ids(con, ids: list, manufacturers: list, part_numbers: list) -> dict:
-    """incoming id -> stored id of the same record, or None where the id is another record's."""
+    """incoming id -> stored id of the same record, or None where the id is another record's.
+
+    Two equality joins (by id, by key), each a hash join: one join on ``id = ... OR key =
+    ...`` is planned as a nested loop, which on a re-import of 25k records over 25k stored
+    ones took a minute while holding the write lock.
+    """
     con.register("incoming_keys", _strings(record_id=ids, manufacturer=manufacturers, part_number=part_numbers))
-    rows = con.execute(
-        "SELECT i.record_id, r.record_id, lower(trim(r.manufacturer)) = lower(trim(i.manufacturer)) "
-        "AND lower(trim(r.part_number)) = lower(trim(i.part_number)) "
-        "FROM incoming_keys i JOIN records r ON r.record_id = i.record_id "
-        "OR (lower(trim(r.manufacturer)) = lower(trim(i.manufacturer)) "
-        "AND lower(trim(r.part_number)) = lower(trim(i.part_number)))").fetchall()
+    rows = con.execute(  # a record stored under its own id and key needs nothing: left out
+        "WITH i AS (SELECT record_id, lower(trim(manufacturer)) AS man, lower(trim(part_number)) AS pn "
+        "FROM incoming_keys), "
+        "r AS (SELECT record_id, lower(trim(manufacturer)) AS man, lower(trim(part_number)) AS pn FROM records) "
+        "SELECT i.record_id, r.record_id, FALSE FROM i JOIN r ON r.record_id = i.record_id "
+        "WHERE r.man <> i.man OR r.pn <> i.pn "
+        "UNION ALL "
+        "SELECT i.record_id, r.record_id, TRUE FROM i JOIN r ON r.man = i.man AND r.pn = i.pn "
+        "WHERE r.record_id <> i.record_id").fetchall()
     con.unregister("incoming_keys")
     remap: dict = {}
     for incoming, stored, same_key in rows:
@@ -129,9 +137,10 @@ class _Incoming:
         self.ids = pa.array(full, type=pa.string())
         self.held[self.rows] = held
 
-    def given_values(self, rows: np.ndarray):
+    def given_values(self, rows: np.ndarray, keys_only: bool = False):
         """The long given values (record_id, field, value_num, value_text, raw_text, raw_unit,
-        source_file, source_row) of the table rows ``rows`` as a pyarrow table, or None."""
+        source_file, source_row) of the table rows ``rows`` as a pyarrow table, or None.
+        With ``keys_only``, only their (record_id, field)."""
         import pyarrow as pa
 
         tables = []
@@ -139,15 +148,19 @@ class _Incoming:
             if text is None:
                 values = np.asarray(self.table.columns[fname].values, dtype=float)[rows]
                 present = rows[~np.isnan(values)]
-                value_num = pa.array(values[~np.isnan(values)], type=pa.float64())
+                value_num = None if keys_only else pa.array(values[~np.isnan(values)], type=pa.float64())
                 value_text = pa.nulls(len(present), type=pa.string())
             else:
                 present = rows[text.take(pa.array(rows)).is_valid().to_numpy(zero_copy_only=False)]
                 value_num = pa.nulls(len(present), type=pa.float64())
-                value_text = text.take(pa.array(present))
+                value_text = None if keys_only else text.take(pa.array(present))
             if len(present) == 0:
                 continue
             where = pa.array(present)
+            if keys_only:
+                tables.append(pa.table({"record_id": self.ids.take(where),
+                                        "field": _repeat(fname, len(present))}))
+                continue
             tables.append(pa.table({
                 "record_id": self.ids.take(where),
                 "field": _repeat(fname, len(present)),
@@ -168,18 +181,45 @@ def _repeat(text: str, n: int):
     return pa.DictionaryArray.from_arrays(pa.array(np.zeros(n, dtype=np.int32)), pa.array([text], type=pa.string()))
 
 
-def _replace_given(con, values, batch: int) -> None:
-    """Store given values (a table of :meth:`_Incoming.given_values`) of records the catalogue
-    held before: the stored values of the same record and field go to history first."""
+def _replace_given(con, incoming: list, batch: int, report) -> None:
+    """Store the given values of the records the catalogue held before.
+
+    The stored values of the same record and field go to history, then are overwritten
+    in place (one UPDATE: the rows keep their place in the file, so the checkpoint writes
+    the changed columns instead of compacting the table around deleted rows); fields the
+    record did not hold are inserted.  Each step is one pass over the stored values for
+    the whole import.
+    """
+    import pyarrow as pa
+
+    tables = [inc.given_values(np.flatnonzero(inc.held)) for inc in incoming if inc.held.any()]
+    tables = [t for t in tables if t is not None]
+    if not tables:
+        return
+    values = pa.concat_tables(tables)
     con.register("incoming_values", values)
-    con.execute(
+    moved = one(con.execute(
         "INSERT INTO value_history SELECT v.*, ?, now() FROM record_values v "
-        "WHERE (v.record_id, v.field) IN (SELECT record_id, field FROM incoming_values)", [batch])
+        "WHERE (v.record_id, v.field) IN (SELECT record_id, field FROM incoming_values)", [batch]))[0]
+    # the value columns only where they change (writing a column costs more than finding the rows),
+    # the provenance of every value
+    same_key = "record_values.record_id = i.record_id AND record_values.field = i.field"
     con.execute(
-        "DELETE FROM record_values WHERE (record_id, field) IN (SELECT record_id, field FROM incoming_values)")
-    con.execute("INSERT INTO record_values SELECT record_id, field, value_num, value_text, raw_text, raw_unit, "
-                "'given', NULL, NULL, source_file, source_row, ? FROM incoming_values", [batch])
+        "UPDATE record_values SET value_num = i.value_num, value_text = i.value_text, raw_text = i.raw_text, "
+        "raw_unit = i.raw_unit, origin = 'given', relation = NULL, inputs = NULL FROM incoming_values i "
+        f"WHERE {same_key} AND (record_values.value_num IS DISTINCT FROM i.value_num "
+        "OR record_values.value_text IS DISTINCT FROM i.value_text OR record_values.raw_text IS DISTINCT FROM "
+        "i.raw_text OR record_values.raw_unit IS DISTINCT FROM i.raw_unit OR record_values.origin <> 'given' "
+        "OR record_values.relation IS NOT NULL OR record_values.inputs IS NOT NULL)")
+    con.execute("UPDATE record_values SET source_file = i.source_file, source_row = i.source_row, batch_id = ? "
+                f"FROM incoming_values i WHERE {same_key}", [batch])
+    if moved < values.num_rows:  # fields the records did not hold yet
+        con.execute(
+            "INSERT INTO record_values SELECT i.record_id, i.field, i.value_num, i.value_text, i.raw_text, "
+            "i.raw_unit, 'given', NULL, NULL, i.source_file, i.source_row, ? FROM incoming_values i "
+            "ANTI JOIN record_values v ON v.record_id = i.record_id AND v.field = i.field", [batch])
     con.unregister("incoming_values")
+    report.values += values.num_rows
 
 
 def _no_given():
@@ -227,15 +267,16 @@ def _held_before(con) -> tuple[set, set]:
     stored = {r for (r,) in con.execute(
         "SELECT record_id FROM incoming_records WHERE record_id IN (SELECT record_id FROM records)").fetchall()}
     leftovers = {r for (r,) in con.execute(
-        "SELECT record_id FROM incoming_records WHERE record_id IN (SELECT record_id FROM record_values) "
-        "OR record_id IN (SELECT record_id FROM flags)").fetchall()} - stored
+        "WITH new AS (SELECT record_id FROM incoming_records WHERE record_id NOT IN (SELECT record_id FROM records)) "
+        "SELECT record_id FROM new SEMI JOIN record_values USING (record_id) UNION "
+        "SELECT record_id FROM new SEMI JOIN flags USING (record_id)").fetchall()}
     return stored, leftovers
 
 
 def store_tables(store, report, kept, files: str, derive: bool = True) -> None:
     """Store ``kept`` — (table, ids, keep mask) of every table with rows to import — in the
     catalogue in one transaction, filling ``report`` (batch, created, updated, values,
-    derived, flags).  (Writing tables to files is :func:`catalog.export.writers.write_tables`.)"""
+    derived, flags).  (Writing tables to files is :func:`catalog.export.writers.write_tables_to_file`.)"""
     import pyarrow as pa
 
     incoming = [_Incoming(table, keep) for table, _ids, keep in kept]
@@ -281,54 +322,49 @@ def store_tables(store, report, kept, files: str, derive: bool = True) -> None:
                 con.unregister("touched_records")
             # else derive_in_store (below) replaces what changed and keeps the old values in history;
             # their given values replace the stored ones before anything is derived from the store
-            for inc in incoming:
-                for lo in range(0, inc.table.n, CHUNK_ROWS):
-                    rows = lo + np.flatnonzero(inc.held[lo:lo + CHUNK_ROWS])
-                    values = inc.given_values(rows) if len(rows) else None
-                    if values is not None:
-                        _replace_given(con, values, batch)
-                        report.values += values.num_rows
+            _replace_given(con, incoming, batch, report)
         _write_chunks(con, batch, report, incoming, rids, held, derive)
         if held.any():  # where stored rows and new ones meet (new records hold one row per field by construction)
             check_unique_values(con, [r for r, h in zip(rids, held) if h])
 
 
 def _write_chunks(con, batch: int, report, incoming: list, rids: list, held: np.ndarray, derive: bool) -> None:
-    """Chunk by chunk of records: derive those held before from the store, and insert the new
-    ones with the values derived from their columns in memory.  Flags are reported in the
-    order the store path gives for the whole chunk: by relation, then by record id."""
+    """Derive the records held before from the store (all at once: each pass over the stored
+    values serves the whole import), then chunk by chunk insert the new ones with the values
+    derived from their columns in memory.  Flags are reported by relation, then by record id."""
+    from ..derive import flag_rank
+    from ..store.derived import derive_in_store
+
     numeric = [f.name for f in fields_for("motor").values() if f.is_numeric]
     # where each record of the import is: its table and its row there
     where_table = np.concatenate([np.full(len(inc.rows), t) for t, inc in enumerate(incoming)])
     where_row = np.concatenate([inc.rows for inc in incoming])
-    # DuckDB inserts a chunk (without the GIL) while the next one is made ready; ``con`` is
-    # used by one thread at a time: every use below waits for the insert in flight
-    with ThreadPoolExecutor(max_workers=1) as inserter:
-        pending = None
-        for lo in range(0, len(rids), CHUNK_ROWS):
-            pending = _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_table, where_row,
-                                  numeric, inserter, pending)
-        if pending is not None:
-            pending.result()
-
-
-def _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_table, where_row, numeric, inserter,
-                pending):
-    """Make the records ``lo:lo + CHUNK_ROWS`` ready and hand their insert to ``inserter``
-    once the insert ``pending`` (a future, or None) is done; returns the new insert's future."""
-    from ..derive import flag_rank
-    from ..store.derived import DerivedRows, derive_in_store, derive_rows
-
-    hi = lo + CHUNK_ROWS
     flags = []
-    old = [r for r, h in zip(rids[lo:hi], held[lo:hi]) if h]
-    if derive and old:
-        if pending is not None:
-            pending.result()
-            pending = None
-        outcome = derive_in_store(con, batch, record_ids=old)
+    if derive and held.any():
+        outcome = derive_in_store(con, batch, record_ids=[r for r, h in zip(rids, held) if h])
         report.derived += outcome.derived
         flags += outcome.flags
+    # DuckDB inserts a chunk (without the GIL) while the next one is made ready; ``con`` is
+    # used by one thread at a time: every use below waits for the insert in flight
+    if not held.all():
+        with ThreadPoolExecutor(max_workers=1) as inserter:
+            pending = None
+            for lo in range(0, len(rids), CHUNK_ROWS):
+                pending = _next_chunk(con, batch, report, incoming, held, derive, lo, where_table, where_row,
+                                      numeric, flags, inserter, pending)
+            if pending is not None:
+                pending.result()
+    report.flags.extend(sorted(flags, key=lambda f: (flag_rank(f.relation), f.record_id)))
+
+
+def _next_chunk(con, batch, report, incoming, held, derive, lo, where_table, where_row, numeric, flags,
+                inserter, pending):
+    """Make the new records of ``lo:lo + CHUNK_ROWS`` ready (their flags added to ``flags``) and
+    hand their insert to ``inserter`` once the insert ``pending`` (a future, or None) is done;
+    returns the new insert's future."""
+    from ..store.derived import DerivedRows, derive_rows
+
+    hi = lo + CHUNK_ROWS
     new = lo + np.flatnonzero(~held[lo:hi])
     given, ids, parts, basis = [], [], {f: [] for f in numeric}, []
     for t, inc in enumerate(incoming):
@@ -357,5 +393,4 @@ def _next_chunk(con, batch, report, incoming, rids, held, derive, lo, where_tabl
         flags += derived.flagged
     if pending is not None:
         pending.result()
-    report.flags.extend(sorted(flags, key=lambda f: (flag_rank(f.relation), f.record_id)))
     return inserter.submit(_insert_new, con, given, derived, batch)

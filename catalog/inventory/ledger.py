@@ -12,7 +12,8 @@ The functions here take an open write connection and a batch id (see
 """
 from __future__ import annotations
 
-__all__ = ["CONDITIONS", "USABLE", "KINDS", "clean_location", "check_condition", "check_quantity",
+__all__ = ["CONDITIONS", "USABLE", "KINDS", "clean_location", "check_condition", "check_quantity", "read_count",
+           "check_reservation",
            "require_record", "items_of", "find_item", "get_or_create_item", "post", "merge_serials",
            "split_serials"]
 
@@ -50,16 +51,59 @@ def check_condition(condition) -> str:
     return cond
 
 
-def check_quantity(quantity, what: str = "quantity", minimum: int = 1) -> int:
+def read_count(value) -> tuple[int | None, str | None]:
+    """(count, None) or (None, why) for a number of pieces as written: a whole number in ASCII
+    digits, read as a datasheet number is (:func:`catalog.units.parse_number`: no thousands
+    separators, decimal commas, other scripts' digits, nan or inf).  Stock files and the
+    stock commands read counts with this one rule."""
+    from ..units import NumberError, parse_number
+
+    if isinstance(value, bool):
+        return None, f"{str(value).lower()!r} is not a whole number, expected a count of pieces"
+    if isinstance(value, int):
+        return value, None
+    text = repr(value) if isinstance(value, float) else str(value).strip()
     try:
-        q = int(quantity)
-        if q != float(quantity):
-            raise ValueError
-    except (TypeError, ValueError):
-        raise InputError(f"{what} {quantity!r} is not a whole number, expected a count of pieces") from None
+        num = parse_number(text)
+    except NumberError as exc:
+        if exc.found != "no number":
+            return None, str(exc)
+        num = None
+    if num is None or num != int(num):
+        return None, f"{text!r} is not a whole number, expected a count of pieces"
+    return int(num), None
+
+
+def _count_limit(field: str) -> int:
+    """The largest count of ``field`` (``quantity``, ``min_quantity``) the stock schema allows."""
+    from ..fields import load_schema
+
+    return int(load_schema("stock")["properties"][field]["maximum"])
+
+
+def check_quantity(quantity, what: str = "quantity", minimum: int = 1, field: str = "quantity") -> int:
+    """A count of pieces given to a stock operation, within the stock schema's bounds of ``field``."""
+    q, why = read_count(quantity)
+    if why:
+        raise InputError(f"{what} {why}" if why.startswith("'") else f"{what}: {why}")
     if q < minimum:
         raise InputError(f"{what} {q} is too small, expected at least {minimum}")
+    limit = _count_limit(field)
+    if q > limit:
+        raise InputError(f"{what} {q} is too large, expected at most {limit}")
     return q
+
+
+#: Reservation numbers are stored as INTEGER.
+_MAX_RESERVATION = 2**31 - 1
+
+
+def check_reservation(number) -> int:
+    """A reservation number as given (ASCII digits, in the range the ledger stores)."""
+    text = str(number).strip()
+    if isinstance(number, bool) or not (text.isascii() and text.isdigit()) or int(text) > _MAX_RESERVATION:
+        raise InputError(f"reservation {number!r} is not a reservation number, expected e.g. 3")
+    return int(text)
 
 
 def split_serials(text) -> list[str]:

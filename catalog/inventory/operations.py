@@ -14,8 +14,8 @@ from dataclasses import dataclass, field
 
 from ..errors import InputError
 from ..store import one
-from .ledger import (check_condition, check_quantity, clean_location, find_item, get_or_create_item,
-                     items_of, merge_serials, post, require_record, split_serials)
+from .ledger import (check_condition, check_quantity, check_reservation, clean_location, find_item,
+                     get_or_create_item, items_of, merge_serials, post, require_record, split_serials)
 
 
 @dataclass
@@ -100,7 +100,7 @@ def receive(store, record_id, quantity, location, condition="new", serial_number
             con.execute("UPDATE stock_items SET notes = ? WHERE item_id = ?", [notes, item])
         if min_quantity is not None:
             con.execute("INSERT OR REPLACE INTO stock_levels VALUES (?, ?, ?)",
-                        [record_id, check_quantity(min_quantity, "min_quantity", 0), batch])
+                        [record_id, check_quantity(min_quantity, "min_quantity", 0, "min_quantity"), batch])
         change = StockChange("receive", record_id, q, summary=f"received {q} x {record_id} at {loc!r} ({cond})")
         row = _row(item, record_id, loc, cond, "receive", q, at=at, person=_text(person, "person"),
                    reason=_text(reason, "reason", 2000), serial_numbers=";".join(serials) or None)
@@ -149,7 +149,7 @@ def take(store, record_id=None, quantity=None, location=None, condition=None, pe
     serials = split_serials(serial_numbers)
     with store.write() as con:
         if reservation is not None:
-            res = _reservation(con, int(reservation))
+            res = _reservation(con, check_reservation(reservation))
             if record_id is not None and record_id != res["record_id"]:
                 raise InputError(f"reservation {reservation} is for {res['record_id']}, not {record_id}")
             q = res["left"] if quantity is None else check_quantity(quantity)
@@ -298,8 +298,9 @@ def reserve(store, record_id, quantity, project, location=None, condition=None, 
 
 def release(store, reservation_id, quantity=None, person=None, reason=None, at=None) -> StockChange:
     """Give reserved pieces back to everyone (all that is left of the reservation, or ``quantity``)."""
+    reservation_id = check_reservation(reservation_id)
     with store.write() as con:
-        res = _reservation(con, int(reservation_id))
+        res = _reservation(con, reservation_id)
         q = res["left"] if quantity is None else check_quantity(quantity)
         if q > res["left"]:
             raise InputError(f"cannot release {q} of reservation {reservation_id}: only {res['left']} reserved")

@@ -12,7 +12,7 @@ as ``adjust`` movements, computed again inside the write transaction.
 """
 from __future__ import annotations
 
-__all__ = ["StockFile", "read_stock_files", "import_stock", "count_stock", "STOCK_FIELDS"]
+__all__ = ["StockFile", "parse_stock_files", "read_stock_files", "import_stock", "count_stock", "STOCK_FIELDS"]
 
 import difflib
 import re
@@ -20,7 +20,7 @@ from dataclasses import dataclass, field
 
 from ..errors import ImportRejected, Problem
 from ..fields import load_schema
-from .ledger import merge_serials, post, split_serials
+from .ledger import merge_serials, post, read_count, split_serials
 
 _SCHEMA = load_schema("stock")
 STOCK_FIELDS = dict(_SCHEMA["properties"])
@@ -44,26 +44,13 @@ def _key(header: str) -> str:
 
 def _cell(value, kind: str):
     """(value, error) of one cell for a field of JSON type ``kind``; value None = missing."""
-    from ..units import NumberError, parse_number
-
     if value is None or (isinstance(value, str) and not value.strip()):
         return None, None
     if isinstance(value, dict):  # a JSON/YAML {value, unit} mapping: stock fields take one plain value
         keys = ", ".join(repr(str(k)) for k in list(value)[:5])
         return None, f"a mapping with keys {keys}, expected a single value"
     if kind == "integer":
-        if isinstance(value, bool):
-            return None, f"{str(value).lower()!r} is not a whole number, expected a count of pieces"
-        text = repr(value) if isinstance(value, float) else str(value).strip()
-        try:
-            num = parse_number(text)  # strict: thousands separators, decimal commas, nan and inf say so
-        except NumberError as exc:
-            if exc.found != "no number":
-                return None, str(exc)
-            num = None
-        if num is None or num != int(num):
-            return None, f"{text!r} is not a whole number, expected a count of pieces"
-        return int(num), None
+        return read_count(value)  # strict: thousands separators, decimal commas, nan and inf say so
     if isinstance(value, float) and value.is_integer():
         value = int(value)  # a part number a spreadsheet stored as a number
     return " ".join(str(value).split()), None
@@ -151,13 +138,24 @@ def _read_one(path, out: list, problems: list) -> None:
             out.append(rec)
 
 
-def read_stock_files(con, paths) -> StockFile:
-    """Read and check stock files, resolving every row to a catalogue record; writes nothing."""
-    import pandas as pd
+def parse_stock_files(paths) -> tuple[list, list]:
+    """The rows and problems of stock files as read, before any record is looked up.
 
+    Reading and checking the files needs no catalogue: done once, before the catalogue is
+    opened, so a write never holds the lock while files are parsed.
+    """
     recs, problems = [], []
     for path in paths:
         _read_one(path, recs, problems)
+    return recs, problems
+
+
+def read_stock_files(con, paths, parsed=None) -> StockFile:
+    """Read and check stock files (or take ``parsed``, from :func:`parse_stock_files`),
+    resolving every row to a catalogue record; writes nothing."""
+    import pandas as pd
+
+    recs, problems = parse_stock_files(paths) if parsed is None else (parsed[0], list(parsed[1]))
     cols = ["source", "row", *STOCK_FIELDS]
     frame = pd.DataFrame(recs, columns=cols)
     for name, spec in STOCK_FIELDS.items():  # text columns hold None, never NaN, where missing
@@ -167,11 +165,11 @@ def read_stock_files(con, paths) -> StockFile:
     frame["record_id"] = None
     if len(frame):
         con.register("stock_keys", frame[["id", "manufacturer", "part_number"]].assign(pos=range(len(frame))))
-        hits = con.execute(
+        hits = con.execute(  # two equality joins (hash joins), never one join on `id = ... OR key = ...`
+            "SELECT k.pos, r.record_id FROM stock_keys k JOIN records r ON r.record_id = k.id UNION ALL "
             "SELECT k.pos, r.record_id FROM stock_keys k JOIN records r ON "
-            "(k.id IS NOT NULL AND r.record_id = k.id) OR (k.id IS NULL AND "
             "lower(trim(r.manufacturer)) = lower(trim(k.manufacturer)) AND "
-            "lower(trim(r.part_number)) = lower(trim(k.part_number)))").fetchall()
+            "lower(trim(r.part_number)) = lower(trim(k.part_number)) WHERE k.id IS NULL").fetchall()
         con.unregister("stock_keys")
         found = dict(hits)
         frame["record_id"] = [found.get(i) for i in range(len(frame))]
@@ -249,8 +247,10 @@ def import_stock(store, paths, person=None, reason=None, at=None):
     """
     import pandas as pd
 
+    parsed = parse_stock_files(paths)  # before any lock: under it only the records are looked up
+
     def checked_rows(con):
-        checked = read_stock_files(con, paths)
+        checked = read_stock_files(con, paths, parsed)
         for r in checked.rows[checked.rows["quantity"] == 0].itertuples(index=False):
             checked.problems.append(Problem(r.source, r.row, "quantity",
                                             "0 pieces, expected at least 1 to receive (a count file may list 0)"))
@@ -338,14 +338,15 @@ def count_stock(store, path, apply: bool = False, keep_unlisted: bool = False, p
     import pandas as pd
 
     paths = [path]
+    parsed = parse_stock_files(paths)  # before any lock: under it only the records are looked up
     with store.read() as con:
-        checked = read_stock_files(con, paths)
+        checked = read_stock_files(con, paths, parsed)
         if checked.problems:
             _refuse(checked, store, "counted")
         if not apply:
             return _differences(con, checked.rows, keep_unlisted), False, None
     with store.write() as con:
-        checked = read_stock_files(con, paths)
+        checked = read_stock_files(con, paths, parsed)
         if checked.problems:
             _refuse(checked, store, "counted")
         diff = _differences(con, checked.rows, keep_unlisted)

@@ -21,7 +21,8 @@ source of each segment and the reflected load inertia.
 """
 from __future__ import annotations
 
-__all__ = ["Envelope", "load_envelope", "envelope_schema", "RANK_KEYS"]
+__all__ = ["Envelope", "load_envelope", "envelope_schema", "RANK_KEYS", "MAX_ENVELOPE_BYTES",
+           "MAX_ENVELOPE_DEPTH", "MAX_SEGMENTS", "MAX_RATIOS"]
 
 import json
 import math
@@ -302,11 +303,24 @@ def _non_finite(node, where, source) -> list:
     if isinstance(node, float) and not math.isfinite(node):
         return [Problem(source, None, _path(where), f"{node} is not a finite number, expected a number "
                                                     "(or leave the key out for its default)")]
+    if isinstance(node, int) and not isinstance(node, bool) and abs(node) > 1e300:
+        return [Problem(source, None, _path(where), f"an integer of {len(str(abs(node)))} digits, expected a "
+                                                    "number of ordinary size")]
     return []
 
 
 #: Envelopes are a few kilobytes; anything much larger is not one.
 MAX_ENVELOPE_BYTES = 1 << 20
+#: Tables and lists inside each other (an envelope needs 3: ``cycle.segments[0].torque``).
+MAX_ENVELOPE_DEPTH = 16
+#: Cycle segments (or operating points) of one envelope, as written.  Every candidate is
+#: evaluated segment by segment (memory and time grow with candidates x segments; the
+#: thermal response of a motor with its segments squared): a measured profile of more
+#: segments is resampled or split.
+MAX_SEGMENTS = 1000
+#: Assumed gear ratios (``gearing.ratios`` plus ``gearing.ratio_range.steps``): every motor
+#: is a candidate with each, so they multiply the catalogue.
+MAX_RATIOS = 1000
 
 
 def _read_toml(path: Path, source: str) -> dict:
@@ -346,6 +360,8 @@ def _read_toml(path: Path, source: str) -> dict:
         raise refuse("empty, expected a load envelope (see the examples in queries/)")
     try:
         return tomllib.loads(text)
+    except RecursionError:
+        raise refuse(_TOO_DEEP) from None
     except tomllib.TOMLDecodeError as exc:
         message = str(exc)
         match = re.search(r"\s*\(at line (\d+), column (\d+)\)$", message)
@@ -357,6 +373,51 @@ def _read_toml(path: Path, source: str) -> dict:
             line = text.count("\n") + 1
             message = message[:-len("(at end of document)")].rstrip() + " (at the end of the file)"
         raise refuse(f"not valid TOML: {message[:1].lower() + message[1:]}", line) from None
+    except ValueError as exc:  # an integer of more digits than Python converts
+        digits = re.search(r"has (\d+) digits", str(exc))
+        what = f"an integer of {digits.group(1)} digits" if digits else str(exc).split(";")[0]
+        raise refuse(f"not valid TOML: {what}, expected numbers of ordinary size") from None
+
+
+_TOO_DEEP = (f"tables or lists nested more than {MAX_ENVELOPE_DEPTH} levels deep, expected the tables of an "
+             "envelope (see the examples in queries/)")
+
+
+def _too_deep(data) -> bool:
+    """True if ``data`` nests tables and lists deeper than :data:`MAX_ENVELOPE_DEPTH` (walked
+    without recursion: the checks after it recurse)."""
+    stack = [(data, 0)]
+    while stack:
+        node, depth = stack.pop()
+        if isinstance(node, (dict, list)):
+            if depth >= MAX_ENVELOPE_DEPTH:
+                return True
+            stack.extend((v, depth + 1) for v in (node.values() if isinstance(node, dict) else node))
+    return False
+
+
+def _sizes(data, source) -> list:
+    """Segments, points and assumed ratios beyond the documented limits: one problem each."""
+    problems = []
+    cycle = data.get("cycle")
+    for key, items, what in (("points", data.get("points"), "operating points"),
+                             ("cycle.segments", cycle.get("segments") if isinstance(cycle, dict) else None,
+                              "segments")):
+        if isinstance(items, list) and len(items) > MAX_SEGMENTS:
+            problems.append(Problem(source, None, key, f"{len(items)} {what}, expected at most {MAX_SEGMENTS}; "
+                                                       "merge segments of one load or split the cycle"))
+    gear = data.get("gearing")
+    if isinstance(gear, dict):
+        listed = gear.get("ratios") if isinstance(gear.get("ratios"), list) else []
+        rr = gear.get("ratio_range")
+        steps = rr.get("steps") if isinstance(rr, dict) else None
+        steps = steps if isinstance(steps, int) and not isinstance(steps, bool) and steps > 0 else 0
+        if len(listed) + steps > MAX_RATIOS:
+            key = "gearing.ratios" if len(listed) > MAX_RATIOS or not steps else "gearing.ratio_range.steps"
+            problems.append(Problem(source, None, key,
+                                    f"{len(listed) + steps} assumed ratios (ratios and ratio_range.steps), "
+                                    f"expected at most {MAX_RATIOS}; every motor is a candidate with each"))
+    return problems
 
 
 def _ratio_label(ratio: float) -> float:
@@ -422,6 +483,11 @@ def load_envelope(envelope, source: str | None = None) -> Envelope:
         source, data = source or "envelope", envelope
     else:
         raise TypeError("envelope must be a path, a dict or an Envelope")
+    if _too_deep(data):
+        raise InputError(f"{source}: {_TOO_DEEP}", [Problem(source, None, None, _TOO_DEEP)])
+    problems = _sizes(data, source)
+    if problems:
+        raise InputError(f"{source}: {len(problems)} problem(s) in the envelope", problems)
     schema = envelope_schema(data)
     problems = _non_finite(data, [], source)
     errors = sorted(Draft202012Validator(schema).iter_errors(data), key=lambda e: list(map(str, e.absolute_path)))

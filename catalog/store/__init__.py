@@ -21,15 +21,17 @@ while somebody else is changing it.
 """
 from __future__ import annotations
 
-__all__ = ["Store", "FileLock", "default_path", "one", "check_unique_values", "SCHEMA_VERSION"]
+__all__ = ["Store", "FileLock", "default_path", "one", "check_unique_values", "is_damage", "SCHEMA_VERSION"]
 
 import contextlib
+import errno
 import os
 import random
+import stat
 import time
 from pathlib import Path
 
-from ..errors import StoreBusy, StoreError
+from ..errors import StoreBusy, StoreDamaged, StoreError
 from .schema import MIGRATIONS, SCHEMA_VERSION, all_view_sql
 
 _FIELDS_KEY = "fields_signature"
@@ -49,11 +51,18 @@ def check_unique_values(con, record_ids=None) -> None:
         con.execute("CREATE OR REPLACE TEMP VIEW checked_records AS SELECT record_id FROM records")
     else:
         con.register("checked_records", pa.table({"record_id": pa.array(list(record_ids), type=pa.string())}))
+    # grouped by a hash of the key first (half the work of grouping two strings on millions of
+    # rows); only where two rows share a hash are the keys themselves compared
+    suspect = one(con.execute(
+        "SELECT count(*) FROM (SELECT hash(record_id, field) FROM record_values WHERE record_id IN "
+        "(SELECT record_id FROM checked_records) GROUP BY ALL HAVING count(*) > 1 UNION ALL "
+        "SELECT hash(record_id, relation) FROM flags WHERE record_id IN (SELECT record_id FROM checked_records) "
+        "GROUP BY ALL HAVING count(*) > 1)"))[0]
     twice = con.execute(
         "SELECT record_id, field FROM record_values WHERE record_id IN (SELECT record_id FROM checked_records) "
         "GROUP BY ALL HAVING count(*) > 1 UNION ALL "
         "SELECT record_id, relation FROM flags WHERE record_id IN (SELECT record_id FROM checked_records) "
-        "GROUP BY ALL HAVING count(*) > 1 ORDER BY ALL LIMIT 3").fetchall()
+        "GROUP BY ALL HAVING count(*) > 1 ORDER BY ALL LIMIT 3").fetchall() if suspect else []
     if record_ids is None:
         con.execute("DROP VIEW checked_records")
     else:
@@ -77,6 +86,24 @@ def one(result):
 def default_path() -> Path:
     """``$MOTORSHELF_DB`` if set, else ``./motorshelf.duckdb``."""
     return Path(os.environ.get("MOTORSHELF_DB") or "motorshelf.duckdb")
+
+
+#: What DuckDB says when a block of the file does not read back as it was written.
+_DAMAGE_TEXTS = ("Corrupt database file", "does not match stored checksum", "Could not read enough bytes",
+                 "database has been invalidated")
+
+
+def is_damage(exc: Exception, reading: bool = True) -> bool:
+    """True if the DuckDB error ``exc`` says the catalogue file is damaged (cut short, blocks
+    that fail their checksum) rather than that a query or a write went wrong.  Reading
+    (``reading``), any I/O error counts: a read-only connection writes nothing."""
+    import duckdb
+
+    if not isinstance(exc, duckdb.Error):
+        return False
+    if reading and isinstance(exc, (duckdb.IOException, duckdb.FatalException)):
+        return True
+    return any(t in str(exc) for t in _DAMAGE_TEXTS)
 
 
 def _is_lock_error(exc: Exception) -> bool:
@@ -117,16 +144,11 @@ class FileLock:
         except ImportError:  # pragma: no cover - not on POSIX
             return False
         try:
-            fd = os.open(self.path, os.O_RDWR | os.O_CREAT, 0o666)
+            fd = self._open_file()
         except OSError as exc:
             if exclusive:
-                raise StoreError(f"{self.db_path}: cannot write the catalogue (cannot create its lock file "
-                                 f"{self.path.name}: {exc.strerror or exc}); nothing was changed, check the "
-                                 "folder's permissions and try again", path=str(self.db_path)) from None
-            try:
-                fd = os.open(self.path, os.O_RDONLY)
-            except OSError:
-                return False
+                raise self._unusable(exc) from None
+            return False
         flag = (fcntl.LOCK_EX if exclusive else fcntl.LOCK_SH) | fcntl.LOCK_NB
         delay = 0.005
         while True:
@@ -143,6 +165,62 @@ class FileLock:
                 return False
             time.sleep(delay * (0.5 + random.random()))
             delay = min(delay * 1.5, 0.1)
+
+    def _open_file(self) -> int:
+        """A descriptor of the lock file, made if missing with the catalogue file's permissions and group.
+
+        A link is never followed (a link planted there could make us create or lock any
+        file) and only a plain file is used.  ``flock`` needs no write access, so a lock
+        file another user made without write permission for us is opened for reading.
+        """
+        base = os.O_NOFOLLOW | os.O_NONBLOCK | getattr(os, "O_CLOEXEC", 0)
+        created = False
+        try:
+            fd = os.open(self.path, os.O_RDWR | os.O_CREAT | os.O_EXCL | base, 0o666)
+            created = True
+        except FileExistsError:
+            try:
+                fd = os.open(self.path, os.O_RDWR | base)
+            except PermissionError:
+                fd = os.open(self.path, os.O_RDONLY | base)
+        try:
+            info = os.fstat(fd)
+            if not stat.S_ISREG(info.st_mode):
+                raise OSError(errno.EINVAL, "not a plain file")
+            if created:
+                self._share_like_the_catalogue(fd)
+        except BaseException:
+            os.close(fd)
+            raise
+        return fd
+
+    def _share_like_the_catalogue(self, fd: int) -> None:
+        """Give a new lock file the catalogue file's read/write permissions and group, so every
+        user who may write the catalogue may take its lock (whatever the creator's umask)."""
+        try:
+            cat = os.stat(self.db_path)
+        except OSError:
+            return  # a new catalogue: DuckDB creates it with the same umask as this file
+        try:
+            os.fchown(fd, -1, cat.st_gid)
+        except OSError:
+            pass  # not a member of the catalogue's group: the permissions below still hold
+        try:
+            os.fchmod(fd, stat.S_IMODE(cat.st_mode) & 0o666)
+        except OSError:
+            pass
+
+    def _unusable(self, exc: OSError) -> StoreError:
+        if exc.errno == errno.ELOOP:
+            why = "it is a symbolic link, expected a plain file; remove the link"
+        elif exc.errno == errno.EINVAL:
+            why = "it is not a plain file; remove it"
+        else:
+            why = f"cannot create its lock file {self.path.name}: {exc.strerror or exc}"
+            return StoreError(f"{self.db_path}: cannot write the catalogue ({why}); nothing was changed, check "
+                              "the folder's permissions and try again", path=str(self.db_path))
+        return StoreError(f"{self.db_path}: cannot write the catalogue (its lock file {self.path.name}: {why}); "
+                          "nothing was changed", path=str(self.db_path))
 
     def release(self) -> None:
         if self._fd is not None:
@@ -195,7 +273,13 @@ class Store:
         delay = 0.02
         while True:
             try:
-                return duckdb.connect(str(self.path), read_only=read_only)
+                con = duckdb.connect(str(self.path), read_only=read_only)
+                try:
+                    self._check_whole(con)
+                except BaseException:
+                    con.close()
+                    raise
+                return con
             except duckdb.IOException as exc:
                 if not _is_lock_error(exc):
                     raise self._open_error(exc) from None
@@ -206,8 +290,31 @@ class Store:
             time.sleep(delay * (0.5 + random.random()))
             delay = min(delay * 1.6, 0.5)
 
+    def _check_whole(self, con) -> None:
+        """Refuse a file too short to hold the blocks its header says are in use (cut short by a
+        copy, a full disk or a crash of the storage): reading it would fail part-way, writing it
+        would add to the damage.  One pragma; the blocks themselves are checked (checksums) as
+        they are read.  (Free blocks at the end may have been cut off by DuckDB itself: only
+        the used ones count.)"""
+        if not self.path.exists():
+            return
+        row = one(con.execute("PRAGMA database_size"))
+        used, block_size = (int(row[4]), int(row[2])) if row else (0, 0)
+        size = self.path.stat().st_size
+        if size < used * block_size:
+            raise self.damaged(f"the file has {size} bytes, too few for the {used} blocks of {block_size} "
+                               "bytes it holds")
+
+    def damaged(self, exc) -> StoreDamaged:
+        """The error of a damaged catalogue file (``exc``: DuckDB's error, or what was found)."""
+        text = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        return StoreDamaged(f"{self.path}: the catalogue file is damaged ({text}); nothing was changed, "
+                            "restore it from a backup", path=str(self.path))
+
     def _open_error(self, exc) -> StoreError:
         text = str(exc).splitlines()[0]
+        if is_damage(exc, reading=False):
+            return self.damaged(exc)
         if "not a valid DuckDB database file" in text:
             return StoreError(f"{self.path}: not a catalogue file (not a DuckDB database), expected a file "
                               "made by motorshelf; the file was not changed", path=str(self.path))
@@ -215,6 +322,8 @@ class Store:
 
     def _write_error(self, exc, committed: bool = False) -> StoreError:
         text = str(exc).splitlines()[0]
+        if not committed and is_damage(exc, reading=False):
+            return self.damaged(exc)
         if committed:
             return StoreError(f"{self.path}: the change was committed, but closing the catalogue failed "
                               f"({text}); it is kept in the file's write-ahead log", path=str(self.path))
@@ -246,11 +355,15 @@ class Store:
                 con.execute("BEGIN TRANSACTION")
             except (*faults, duckdb.TransactionException) as exc:  # a migration's COMMIT included
                 raise self._write_error(exc) from None
+            except duckdb.Error as exc:
+                if is_damage(exc, reading=False):
+                    raise self.damaged(exc) from None
+                raise
             try:
                 yield con
             except BaseException as exc:
                 self._rollback(con)
-                if isinstance(exc, faults):
+                if isinstance(exc, faults) or is_damage(exc, reading=False):
                     raise self._write_error(exc) from None
                 raise
             try:
@@ -290,6 +403,8 @@ class Store:
             finally:
                 con.close()
             return
+        import duckdb
+
         con = self._open_reader()
         try:
             version = self._file_version(con)
@@ -297,12 +412,43 @@ class Store:
                 raise self._newer(version)  # its layout may mean something else: read nothing
             if version is None or version < SCHEMA_VERSION or self._stale_views(con):
                 con.close()
-                with self.write():
-                    pass  # migrate, then reopen read-only
-                con = self._open_reader()
+                con = self._upgraded_reader(version)
             yield con
+        except duckdb.Error as exc:
+            if is_damage(exc):
+                raise self.damaged(exc) from None
+            raise
         finally:
             con.close()
+
+    def _upgraded_reader(self, version: int | None):
+        """A read-only connection to a file that needs migrating or new views: migrated (and
+        the views rebuilt) in the file where it can be written; where it cannot (read-only
+        storage, another user's file), the views of the current field set are built in the
+        connection only and the file is left as it is."""
+        try:
+            with self.write():
+                pass  # migrate, then reopen read-only
+        except StoreBusy:
+            raise
+        except StoreError as exc:
+            if version is None:
+                raise
+            if version < SCHEMA_VERSION:
+                why = exc.message.removeprefix(f"{self.path}: ").split("; ")[0]
+                raise StoreError(
+                    f"{self.path}: catalogue file has layout version {version}, older than this motorshelf's "
+                    f"({SCHEMA_VERSION}), and it cannot be upgraded where it is ({why}); open it once with write "
+                    "access to upgrade it; the file was not changed", path=str(self.path), version=version) from None
+            con = self._open_reader()
+            try:
+                for stmt in all_view_sql(temporary=True):
+                    con.execute(stmt)
+            except BaseException:
+                con.close()
+                raise
+            return con
+        return self._open_reader()
 
     def _open_reader(self):
         con, lock = self._open(read_only=True)
@@ -316,7 +462,7 @@ class Store:
 
         try:
             row = one(con.execute("SELECT max(version) FROM schema_version"))
-        except duckdb.CatalogException:  # no such table: an empty or a foreign file
+        except duckdb.CatalogException:  # no such table: not (yet) a catalogue; damage is raised
             return None
         return None if row is None or row[0] is None else int(row[0])
 
@@ -334,7 +480,7 @@ class Store:
 
         try:
             row = one(con.execute("SELECT value FROM meta WHERE key = ?", [_FIELDS_KEY]))
-        except duckdb.CatalogException:  # no such table yet
+        except duckdb.CatalogException:
             return True
         return row is None or row[0] != _fields_signature()
 

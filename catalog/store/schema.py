@@ -135,5 +135,10 @@ def view_sql(record_type: str) -> str:
     )
 
 
-def all_view_sql() -> list[str]:
-    return [view_sql(t) for t in RECORD_TYPES]
+def all_view_sql(temporary: bool = False) -> list[str]:
+    """The views of every record type; ``temporary``: as views of the connection only (they
+    shadow the file's own, for a file that cannot be written)."""
+    out = [view_sql(t) for t in RECORD_TYPES]
+    if temporary:
+        out = [sql.replace("CREATE OR REPLACE VIEW", "CREATE OR REPLACE TEMP VIEW", 1) for sql in out]
+    return out

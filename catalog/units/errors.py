@@ -22,6 +22,15 @@ def _rebuild(cls, kwargs):
     return cls(**kwargs)
 
 
+def _quoted(text) -> str:
+    """``text`` in quotes for a message; a long one as its start and end and its length (a cell of
+    thousands of digits stays one readable line)."""
+    text = str(text)
+    if len(text) <= 80:
+        return f"'{text}'"
+    return f"'{text[:32]}…{text[-16:]}' ({len(text)} characters)"
+
+
 class UnitError(MotorshelfError, ValueError):
     """A unit spelling (or a cell) cannot be read as the expected dimension."""
 
@@ -43,17 +52,17 @@ class UnitError(MotorshelfError, ValueError):
     def _render(self) -> str:
         k = self.kind
         if k == "unknown":
-            msg = f"unknown unit '{self.unit}', expected {self.expected}"
+            msg = f"unknown unit {_quoted(self.unit)}, expected {self.expected}"
         elif k == "dimension":
-            msg = f"'{self.text}' is {self.found}, expected {self.expected}"
+            msg = f"{_quoted(self.text)} is {self.found}, expected {self.expected}"
         elif k == "ambiguous":
-            msg = f"'{self.text}' is ambiguous ({self.found}), expected {self.expected}"
+            msg = f"{_quoted(self.text)} is ambiguous ({self.found}), expected {self.expected}"
         elif k == "missing":
             msg = f"no unit given, expected {self.expected}"
         elif k == "syntax":
-            msg = f"cannot read unit '{self.unit}' ({self.found}), expected {self.expected}"
+            msg = f"cannot read unit {_quoted(self.unit)} ({self.found}), expected {self.expected}"
         else:  # number
-            msg = f"{self.found} in '{self.text}'"
+            msg = f"{self.found} in {_quoted(self.text)}"
         return f"{msg}: {self.hint}" if self.hint else msg
 
     def with_text(self, text: str) -> "UnitError":

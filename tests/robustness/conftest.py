@@ -108,3 +108,57 @@ def fingerprint(db: Path, skip_timestamps: bool = True) -> dict:
 
 
 PYTHON = sys.executable
+
+
+# -- another user ------------------------------------------------------------------------------
+#: Two users without a name on most systems (nobody, and the uid below it), and a group they share.
+USER_A, USER_B, SHARED_GROUP = 65534, 65533, 65530
+
+
+def as_user(uid: int, func, gid: int | None = None, groups=(), umask: int = 0o022):
+    """Run ``func()`` in a forked child as user ``uid`` (primary group ``gid``, default
+    ``uid``; supplementary ``groups``) with ``umask``; returns what it returned, or
+    re-raises its exception as an AssertionError with the child's text.
+
+    The tests run as root, whom file permissions do not stop, so a second user is made
+    here with ``os.setuid`` (root only: see :func:`needs_root`).  The child cannot read
+    this interpreter's files under /root, so everything ``func`` needs must be imported
+    (and its lazy imports run once) before; the result travels back pickled.
+    """
+    import os
+    import pickle
+    import traceback
+
+    read, write = os.pipe()
+    pid = os.fork()
+    if pid == 0:  # the child: never returns into pytest
+        code = 0
+        try:
+            os.close(read)
+            os.setgroups(list(groups))
+            os.setgid(uid if gid is None else gid)
+            os.setuid(uid)
+            os.umask(umask)
+            payload = pickle.dumps(("ok", func()))
+        except BaseException as exc:  # noqa: BLE001 - everything goes back to the parent
+            payload = pickle.dumps(("error", f"{type(exc).__name__}: {exc}\n{traceback.format_exc()}"))
+            code = 1
+        with os.fdopen(write, "wb") as fh:
+            fh.write(payload)
+        os._exit(code)
+    os.close(write)
+    with os.fdopen(read, "rb") as fh:
+        data = fh.read()
+    os.waitpid(pid, 0)
+    kind, value = pickle.loads(data)
+    if kind == "error":
+        raise AssertionError(f"as user {uid}: {value}")
+    return value
+
+
+def needs_root():
+    """Skip unless running as root (only root can become another user)."""
+    import os
+
+    if os.geteuid() != 0:
+        pytest.skip("needs root: the test becomes two other users with os.setuid")
