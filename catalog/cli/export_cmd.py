@@ -12,7 +12,7 @@ from . import Context, cli, handle_errors
 from .output import echo
 
 OUT_UNITS_OPTION = click.option(
-    "--units", "units", type=click.Choice(["si", "datasheet", "imperial"]), default="datasheet",
+    "--units", "units", type=click.Choice(["si", "metric", "imperial", "datasheet"]), default="metric",
     show_default=True, help="Units of the values written (Parquet always keeps SI).")
 SIDE_OPTION = click.option(
     "--side", type=click.Choice(["motor", "load"]), default="motor", show_default=True,

@@ -10,8 +10,9 @@ import click
 
 FORMAT_OPTION = click.option("--format", "fmt", type=click.Choice(["table", "csv", "json"]), default="table",
                              show_default=True, help="Output format.")
-UNITS_OPTION = click.option("--units", "units", type=click.Choice(["si", "datasheet", "imperial"]),
-                            default="datasheet", show_default=True, help="Units to display values in.")
+UNITS_OPTION = click.option("--units", "units", type=click.Choice(["si", "metric", "imperial", "datasheet"]),
+                            default="metric", show_default=True,
+                            help="Units to display values in (datasheet: older name of metric).")
 
 
 #: Characters a terminal acts on rather than shows: C0 controls but tab and newline, DEL, C1

@@ -57,7 +57,7 @@ def display_shortlist(shortlist):
 @click.option("--out", "out", type=click.Path(dir_okay=False), default=None, metavar="FILE",
               help="Also write the shortlist (XLSX: with rejected, envelope, provenance, cautions) to FILE: "
                    ".xlsx, .csv, .json or .parquet.")
-@click.option("--units", "units", type=click.Choice(["si", "datasheet", "imperial"]), default="datasheet",
+@click.option("--units", "units", type=click.Choice(["si", "metric", "imperial", "datasheet"]), default="metric",
               show_default=True, help="Units of the --out file (Parquet always keeps SI).")
 @click.pass_obj
 @handle_errors

@@ -10,7 +10,7 @@ __all__ = ["candidate_figure", "comparison_figure", "write_plots"]
 from pathlib import Path
 
 
-def candidate_figure(selection, candidate_id: str, catalog=None, units: str = "datasheet",
+def candidate_figure(selection, candidate_id: str, catalog=None, units: str = "metric",
                      side: str = "motor", title: str | None = None):
     """The speed-torque diagram of one candidate (a matplotlib Figure)."""
     from .detail import candidate_detail
@@ -22,7 +22,7 @@ def candidate_figure(selection, candidate_id: str, catalog=None, units: str = "d
                              subtitle=f"{where} · envelope {selection.envelope.name} · {units} units")
 
 
-def comparison_figure(selection, candidates=None, catalog=None, units: str = "datasheet", top: int = 4):
+def comparison_figure(selection, candidates=None, catalog=None, units: str = "metric", top: int = 4):
     """The top ``top`` (or the given) candidates in one diagram at the gear output."""
     from .detail import candidate_detail, load_points, records_used
     from .plots import plot_comparison
@@ -38,7 +38,7 @@ def _safe(name: str) -> str:
     return "".join(ch if ch.isalnum() or ch in "-_.@+" else "_" for ch in name)
 
 
-def write_plots(selection, folder, catalog=None, units: str = "datasheet", side: str = "motor",
+def write_plots(selection, folder, catalog=None, units: str = "metric", side: str = "motor",
                 fmt: str = "png", candidates=None, compare: int = 4) -> list[Path]:
     """One diagram file per shortlisted (or given) candidate and ``compare.<fmt>``; returns the paths."""
     from .detail import candidate_detail, load_points, records_used

@@ -58,7 +58,7 @@ def _num(v) -> str:
     return f"{v:.4g}"
 
 
-def temperature_text(kelvin: float, preset: str = "datasheet") -> str:
+def temperature_text(kelvin: float, preset: str = "metric") -> str:
     """A temperature [K] as text in the preset's unit: ``'66 °C'``, ``'151 °F'``, ``'339 K'``."""
     from ..units import display_unit, parse_unit
 
@@ -92,7 +92,7 @@ def _figure(width=8.0, height=5.6):
     return Figure(figsize=(width, height), dpi=110, layout="constrained")
 
 
-def plot_speed_torque(model: MotorModel, cond: Conditions, points=(), units: str = "datasheet",
+def plot_speed_torque(model: MotorModel, cond: Conditions, points=(), units: str = "metric",
                       side: str = "motor", title: str | None = None, subtitle: str | None = None):
     """The speed-torque diagram of one motor; returns a matplotlib Figure.
 
@@ -253,7 +253,7 @@ class _Labeller:
                          bbox=dict(boxstyle="round,pad=0.12", fc="white", ec="none", alpha=0.75))
 
 
-def plot_comparison(entries, units: str = "datasheet", side: str = "load", title: str = "", load=None):
+def plot_comparison(entries, units: str = "metric", side: str = "load", title: str = "", load=None):
     """The hot speed-torque lines, continuous limits and points of several candidates.
 
     ``entries`` is a list of ``(model, conditions, points)``; each candidate

@@ -204,7 +204,7 @@ def _provenance(tables, motor_ids) -> str:
             "and its inputs). Every field is in the spreadsheet export.</p>" + "".join(out))
 
 
-def render_report(selection, units: str = "datasheet", catalog=None, side: str = "motor",
+def render_report(selection, units: str = "metric", catalog=None, side: str = "motor",
                   plots: int | None = None, compare: int = 4) -> str:
     """The report as an HTML string (see :func:`write_report`)."""
     from .catalogue import about_block
@@ -252,7 +252,7 @@ def render_report(selection, units: str = "datasheet", catalog=None, side: str =
             f"{esc(CAUTION)}</footer></main></body></html>\n")
 
 
-def write_report(selection, path, units: str = "datasheet", catalog=None, side: str = "motor",
+def write_report(selection, path, units: str = "metric", catalog=None, side: str = "motor",
                  plots: int | None = None, compare: int = 4) -> Path:
     """Write the HTML report of ``selection`` to ``path``.
 
@@ -263,7 +263,7 @@ def write_report(selection, path, units: str = "datasheet", catalog=None, side: 
     path : str or Path
         The ``.html`` file.
     units : str
-        Display preset ``si``, ``datasheet`` or ``imperial``.
+        Display preset ``si``, ``metric`` (or its older name ``datasheet``) or ``imperial``.
     catalog : Catalog, optional
         The catalogue the selection came from (diagrams and provenance need it);
         default ``selection.catalog``.
