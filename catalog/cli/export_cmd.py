@@ -55,7 +55,7 @@ def _check_out(path: str, allowed: tuple) -> Path:
 
 
 @cli.command("export")
-@click.argument("kind", type=click.Choice(["motors", "gearheads"]))
+@click.argument("kind", type=click.Choice(["motors", "gearheads", "stock"]))
 @click.option("--out", "out", required=True, type=click.Path(dir_okay=False), metavar="FILE",
               help="Output file: .xlsx, .csv, .json or .parquet (the format follows the extension).")
 @click.option("--where", default=None, metavar="CONDITION",
@@ -66,7 +66,8 @@ def _check_out(path: str, allowed: tuple) -> Path:
 @click.pass_obj
 @handle_errors
 def export_cmd(obj: Context, kind, out, where, params, units):
-    """Write the motors or gearheads of the catalogue (all, or those matching --where) to a file.
+    """Write the motors or gearheads of the catalogue (all, or those matching --where) to a file,
+    or the stock: every item with its value, and the value per location and in total.
 
     XLSX has a sheet with the records and one with the provenance of every value; ids and part
     numbers are text cells.  CSV (RFC 4180, UTF-8) has the records only: a spreadsheet opening a
@@ -80,7 +81,7 @@ def export_cmd(obj: Context, kind, out, where, params, units):
     cat = obj.catalog()
     written, count = export_catalogue(cat, kind, path, where=where, params=values, units=units)
     shown = "si (Parquet keeps SI)" if path.suffix.lower() == ".parquet" else units
-    echo(f"{written}: {count} {kind} written ({shown} units)")
+    echo(f"{written}: {count} {'stock items' if kind == 'stock' else kind} written ({shown} units)")
 
 
 @cli.command("report")

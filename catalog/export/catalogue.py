@@ -173,6 +173,14 @@ def catalogue_tables(cat, kind: str, where: str | None = None, params: dict | No
     return [main, prov]
 
 
+def _export_stock(cat, path, where, units):
+    from .stock import export_stock
+
+    if where:
+        raise _where_problem(where, "the stock export writes the whole shelf; --where filters motors or gearheads")
+    return export_stock(cat, path, units)
+
+
 def export_catalogue(cat, kind: str, path, where: str | None = None, params: dict | None = None,
                      units: str = "metric"):
     """Write the ``motors`` or ``gearheads`` of ``cat`` (optionally filtered) to ``path``.
@@ -182,7 +190,8 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
     cat : Catalog
         The catalogue (``catalog.open(path)``).
     kind : str
-        ``motors`` or ``gearheads``.
+        ``motors`` or ``gearheads``; ``stock`` writes the shelf and its value
+        (:func:`catalog.export.stock.export_stock`).
     path : str or Path
         ``.csv``, ``.xlsx``, ``.json`` or ``.parquet``.
     where : str, optional
@@ -201,6 +210,8 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
     from .writers import format_for, write_tables
 
     format_for(path)
+    if kind == "stock":
+        return _export_stock(cat, path, where, units)
     tables = catalogue_tables(cat, kind, where, params, units)
     about = about_block(cat, units if format_for(path) != "parquet" else "si", export=kind,
                         where=where or "", parameters=dict(params or {}), records=len(tables[0]))
