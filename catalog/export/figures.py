@@ -17,9 +17,8 @@ def candidate_figure(selection, candidate_id: str, catalog=None, units: str = "m
     from .plots import plot_speed_torque
 
     d = candidate_detail(selection, candidate_id, catalog)
-    where = "motor shaft" if side == "motor" else "gear output"
     return plot_speed_torque(d.model, d.conditions, d.points, units, side, title=title or candidate_id,
-                             subtitle=f"{where} · envelope {selection.envelope.name} · {units} units")
+                             subtitle=f"envelope {selection.envelope.name} · {units} units")
 
 
 def comparison_figure(selection, candidates=None, catalog=None, units: str = "metric", top: int = 4):
@@ -31,7 +30,7 @@ def comparison_figure(selection, candidates=None, catalog=None, units: str = "me
     motors, gears = records_used(selection, catalog, ids)
     details = [candidate_detail(selection, cid, catalog, motors, gears) for cid in ids]
     return plot_comparison([(d.model, d.conditions, d.points) for d in details], units, "load",
-                           title=f"Top {len(ids)} compared at the gear output", load=load_points(selection.envelope))
+                           title=f"Top {len(ids)} compared", load=load_points(selection.envelope))
 
 
 def _safe(name: str) -> str:
@@ -51,15 +50,14 @@ def write_plots(selection, folder, catalog=None, units: str = "metric", side: st
         return []
     motors, gears = records_used(selection, catalog, ids)
     details = [candidate_detail(selection, cid, catalog, motors, gears) for cid in ids]
-    where = "motor shaft" if side == "motor" else "gear output"
     out = []
     for i, d in enumerate(details, start=1):
         fig = plot_speed_torque(d.model, d.conditions, d.points, units, side, title=f"{i}. {d.candidate}",
-                                subtitle=f"{where} · envelope {selection.envelope.name} · {units} units")
+                                subtitle=f"envelope {selection.envelope.name} · {units} units")
         out.append(save_figure(fig, folder / f"{i:02d}-{_safe(d.candidate)}.{fmt}"))
     if len(details) > 1 and compare > 1:
         entries = [(d.model, d.conditions, d.points) for d in details[:compare]]
-        fig = plot_comparison(entries, units, "load", title=f"Top {len(entries)} compared at the gear output",
+        fig = plot_comparison(entries, units, "load", title=f"Top {len(entries)} compared",
                               load=load_points(selection.envelope))
         out.append(save_figure(fig, folder / f"compare.{fmt}"))
     return out
