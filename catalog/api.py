@@ -38,20 +38,24 @@ class Catalog(StockMethods):
 
     # -- import ----------------------------------------------------------------
     def import_files(self, paths, mapping=None, keep_valid: bool = False, rejects=None,
-                     derive: bool = True, progress=None):
-        """Import datasheet files (CSV, XLSX, JSON, YAML); see :func:`catalog.ingest.import_files`."""
+                     derive: bool = True, progress=None, manifest=None):
+        """Import datasheet files (CSV, XLSX, JSON, YAML); see :func:`catalog.ingest.import_files`.
+
+        ``mapping``: one profile for every file, or ``{file: profile}``; ``manifest``: an
+        import manifest choosing profiles by file pattern (:mod:`catalog.ingest.manifest`).
+        """
         from .ingest import import_files
 
         paths = [paths] if isinstance(paths, (str, Path)) else list(paths)
         return import_files(self.store, paths, mapping=mapping, keep_valid=keep_valid,
-                            rejects=rejects, derive=derive, progress=progress)
+                            rejects=rejects, derive=derive, progress=progress, manifest=manifest)
 
-    def validate_files(self, paths, mapping=None):
+    def validate_files(self, paths, mapping=None, manifest=None):
         """Check files as an import would; writes nothing."""
         from .ingest import validate_files
 
         paths = [paths] if isinstance(paths, (str, Path)) else list(paths)
-        return validate_files(paths, mapping=mapping)
+        return validate_files(paths, mapping=mapping, manifest=manifest)
 
     # -- reading ---------------------------------------------------------------
     def _view(self, name: str):
