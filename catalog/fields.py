@@ -16,6 +16,8 @@ __all__ = [
     "field_names",
     "numeric_fields",
     "schema_version",
+    "list_separators",
+    "split_list",
 ]
 
 import json
@@ -61,6 +63,8 @@ class Field:
     pattern: str | None = None
     max_length: int | None = None
     min_length: int | None = None
+    separator: str | None = None  # a list of codes in one text, e.g. "F22; F28" (``x-list-separator``)
+    pattern_words: str | None = None  # the pattern said for people (``x-pattern-words``)
 
     @property
     def is_numeric(self) -> bool:
@@ -96,8 +100,22 @@ def fields_for(record_type: str) -> dict[str, Field]:
             pattern=spec.get("pattern"),
             max_length=spec.get("maxLength"),
             min_length=spec.get("minLength"),
+            separator=spec.get("x-list-separator"),
+            pattern_words=spec.get("x-pattern-words"),
         )
     return out
+
+
+def list_separators() -> dict[str, str]:
+    """Field name → separator of the text fields that hold a list (any record type)."""
+    return {f.name: f.separator for rt in RECORD_TYPES for f in fields_for(rt).values() if f.separator}
+
+
+def split_list(text, separator: str = ";") -> list[str]:
+    """The codes of a list field's text: ``'F22; F28'`` → ``['F22', 'F28']`` (empty parts dropped)."""
+    if not isinstance(text, str):
+        return []
+    return [part.strip() for part in text.split(separator) if part.strip()]
 
 
 def field_names(record_type: str) -> list[str]:
