@@ -23,6 +23,7 @@ LIST_COLUMNS = {
 #: back-EMF constant shares the torque constant's dimension, but its SI unit is V·s/rad).
 FIELD_UNITS = {
     "back_emf_constant": {"si": "V·s/rad", "metric": "mV/rpm", "imperial": "V/krpm"},
+    "lead_time": {"metric": "d", "imperial": "d"},     # a delivery time in days, not in minutes
 }
 
 
