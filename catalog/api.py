@@ -48,9 +48,11 @@ def _kind(kind: str) -> tuple[str, str]:
 
 
 def _preset(units: str) -> str:
+    """``units`` checked: a display preset, or an older name of one (``datasheet`` is ``metric``)."""
     from .units import PRESETS
+    from .units.dimensions import PRESET_ALIASES
 
-    if units not in PRESETS:
+    if units not in PRESETS and units not in PRESET_ALIASES:
         raise _input_problem("units", f"{units!r} is not a units preset, expected one of {', '.join(PRESETS)}")
     return units
 
@@ -83,23 +85,25 @@ class Catalog(StockMethods):
 
     # -- import ----------------------------------------------------------------
     def import_(self, files, mapping=None, keep_valid: bool = False, rejects=None, derive: bool = True,
-                progress=None):
+                progress=None, manifest=None):
         """Import datasheet files (CSV, XLSX, JSON, YAML) in one transaction; see :func:`catalog.ingest.import_files`.
 
-        ``mapping`` is a mapping profile for a supplier's own headers; with
+        ``mapping`` is a mapping profile for a supplier's own headers: one for every
+        file, or ``{file: profile}``; ``manifest`` an import manifest choosing
+        profiles by file pattern (:mod:`catalog.ingest.manifest`).  With
         ``keep_valid`` the valid rows are imported and the rejected ones written
         to ``rejects`` (CSV).  Returns an :class:`~catalog.ingest.ImportReport`.
         """
         from .ingest import import_files
 
         return import_files(self.store, _as_list(files), mapping=mapping, keep_valid=keep_valid,
-                            rejects=rejects, derive=derive, progress=progress)
+                            rejects=rejects, derive=derive, progress=progress, manifest=manifest)
 
-    def validate(self, files, mapping=None):
+    def validate(self, files, mapping=None, manifest=None):
         """Check datasheet files as :meth:`import_` would; writes nothing.  Returns an ImportReport."""
         from .ingest import validate_files
 
-        return validate_files(_as_list(files), mapping=mapping)
+        return validate_files(_as_list(files), mapping=mapping, manifest=manifest)
 
     # -- reading ---------------------------------------------------------------
     def _view(self, kind: str):
@@ -115,7 +119,7 @@ class Catalog(StockMethods):
         """Every gearhead as a pandas DataFrame, one SI column per canonical field."""
         return self._view("gearheads")
 
-    def list(self, kind: str, units: str = "datasheet"):
+    def list(self, kind: str, units: str = "metric"):
         """The ``motors`` or ``gearheads`` as ``motorshelf list`` shows them.
 
         The main columns (:data:`catalog.present.LIST_COLUMNS`) in the display
@@ -152,7 +156,7 @@ class Catalog(StockMethods):
         with self.store.read() as con:
             return [r[0] for r in con.execute("SELECT record_id FROM records ORDER BY record_id").fetchall()]
 
-    def show(self, record_id: str, units: str = "datasheet") -> RecordView:
+    def show(self, record_id: str, units: str = "metric") -> RecordView:
         """One record: every field with its value, unit and origin, and the record's consistency flags.
 
         Returns a :class:`RecordView`.  Its ``values`` frame has one row per field
@@ -253,7 +257,7 @@ class Catalog(StockMethods):
 
     # -- selection and what comes out of it -------------------------------------
     def select(self, envelope, top: int | None = None, stock: str | None = None, out=None,
-               units: str = "datasheet", **kw):
+               units: str = "metric", **kw):
         """Evaluate every motor × gear option against a load envelope; see :func:`catalog.select.select`.
 
         ``envelope`` is a TOML path or a parsed dict; ``top`` the shortlist length
@@ -295,8 +299,9 @@ class Catalog(StockMethods):
                 for rid, n in counts.items()}
 
     def export(self, kind: str, out, where: str | None = None, params: dict | None = None,
-               units: str = "datasheet"):
-        """Write the ``motors`` or ``gearheads`` (all, or those matching ``where``) to the file ``out``.
+               units: str = "metric"):
+        """Write the ``motors``, ``gearheads`` (all, or those matching ``where``) or the ``stock`` items
+        with their value to the file ``out``.
 
         The format follows the extension (:data:`catalog.export.formats.FORMATS`);
         ``where`` is a SQL condition on the view (SI units) with named values in
@@ -307,11 +312,12 @@ class Catalog(StockMethods):
         from .export.catalogue import export_catalogue
         from .export.writers import check_out
 
-        _kind(kind)
+        if kind != "stock":
+            _kind(kind)
         path = check_out(out)
         return export_catalogue(self, kind, path, where=where, params=params, units=_preset(units))
 
-    def report(self, envelope, out, top: int | None = None, plots: int | None = None, units: str = "datasheet",
+    def report(self, envelope, out, top: int | None = None, plots: int | None = None, units: str = "metric",
                side: str = "motor", stock: str | None = None):
         """Select against ``envelope`` and write the self-contained HTML report to ``out``.
 
@@ -330,7 +336,7 @@ class Catalog(StockMethods):
         return sel
 
     def plot(self, envelope, out, candidates=None, top: int | None = None, format: str = "png",  # noqa: A002
-             units: str = "datasheet", side: str = "motor", stock: str | None = None) -> list:
+             units: str = "metric", side: str = "motor", stock: str | None = None) -> list:
         """Select against ``envelope`` and draw the speed-torque diagram of each shortlisted candidate.
 
         One file per candidate (or per id of ``candidates``) and ``compare.<format>``
@@ -350,16 +356,16 @@ class Catalog(StockMethods):
 
     # -- old names -----------------------------------------------------------------
     def import_files(self, paths, mapping=None, keep_valid: bool = False, rejects=None, derive: bool = True,
-                     progress=None):
+                     progress=None, manifest=None):
         """Deprecated name of :meth:`import_`."""
         _renamed("import_files", "import_")
         return self.import_(paths, mapping=mapping, keep_valid=keep_valid, rejects=rejects, derive=derive,
-                            progress=progress)
+                            progress=progress, manifest=manifest)
 
-    def validate_files(self, paths, mapping=None):
+    def validate_files(self, paths, mapping=None, manifest=None):
         """Deprecated name of :meth:`validate`."""
         _renamed("validate_files", "validate")
-        return self.validate(paths, mapping=mapping)
+        return self.validate(paths, mapping=mapping, manifest=manifest)
 
     def record(self, record_id: str):
         """Deprecated: ``(record_type, manufacturer, part_number, stored values)``; use :meth:`show`."""

@@ -379,9 +379,9 @@ class Flag:
     residual: float
 
     def __str__(self) -> str:
-        return self.describe("datasheet")
+        return self.describe("metric")
 
-    def describe(self, preset: str = "datasheet") -> str:
+    def describe(self, preset: str = "metric") -> str:
         """The flag as one line, values in the display ``preset`` (si, datasheet, imperial)."""
         def show(name, value):
             from .fields import fields_for

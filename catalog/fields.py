@@ -16,6 +16,8 @@ __all__ = [
     "field_names",
     "numeric_fields",
     "schema_version",
+    "list_separators",
+    "split_list",
 ]
 
 import json
@@ -84,6 +86,8 @@ class Field:
                 v = seen[v]
             out.append(v)
         return out
+    separator: str | None = None  # a list of codes in one text, e.g. "F22; F28" (``x-list-separator``)
+    pattern_words: str | None = None  # the pattern said for people (``x-pattern-words``)
 
     @property
     def is_numeric(self) -> bool:
@@ -148,8 +152,22 @@ def fields_for(record_type: str) -> dict[str, Field]:
             symbol=spec.get("x-symbol"),
             synonyms=tuple((spelling, value) for value, spellings in spec.get("x-synonyms", {}).items()
                            for spelling in spellings),
+            separator=spec.get("x-list-separator"),
+            pattern_words=spec.get("x-pattern-words"),
         )
     return out
+
+
+def list_separators() -> dict[str, str]:
+    """Field name → separator of the text fields that hold a list (any record type)."""
+    return {f.name: f.separator for rt in RECORD_TYPES for f in fields_for(rt).values() if f.separator}
+
+
+def split_list(text, separator: str = ";") -> list[str]:
+    """The codes of a list field's text: ``'F22; F28'`` → ``['F22', 'F28']`` (empty parts dropped)."""
+    if not isinstance(text, str):
+        return []
+    return [part.strip() for part in text.split(separator) if part.strip()]
 
 
 def field_names(record_type: str) -> list[str]:

@@ -1,12 +1,12 @@
 """Presenting SI frames in display units (the way out of the program).
 
-Values are stored in SI; users see them in a preset: ``si``, ``datasheet``
-(mN·m, rpm, g·cm², °C, ...) or ``imperial`` (oz·in, oz·in², lb, in, °F, ...).
+Values are stored in SI; users see them in a preset: ``si``, ``metric``
+(mN·m, rpm, g·cm², °C, ...; also read under its older name ``datasheet``) or ``imperial`` (oz·in, oz·in², lb, in, °F, ...).
 Headers carry the unit: ``stall_torque [mN·m]``.
 """
 from __future__ import annotations
 
-__all__ = ["display_frame", "display_value", "LIST_COLUMNS"]
+__all__ = ["display_frame", "display_value", "LIST_COLUMNS", "FIELD_UNITS", "field_unit"]
 
 from .fields import fields_for
 
@@ -19,10 +19,19 @@ LIST_COLUMNS = {
 }
 
 
-#: Fields shown in another unit than their dimension's preset (datasheet habit).
+#: Fields shown in another unit than their dimension's preset (datasheet habit; the
+#: back-EMF constant shares the torque constant's dimension, but its SI unit is V·s/rad).
 FIELD_UNITS = {
-    "back_emf_constant": {"datasheet": "mV/rpm", "imperial": "V/krpm"},
+    "back_emf_constant": {"si": "V·s/rad", "metric": "mV/rpm", "imperial": "V/krpm"},
+    "lead_time": {"metric": "d", "imperial": "d"},     # a delivery time in days, not in minutes
 }
+
+
+def field_unit(field_name: str | None, preset: str) -> str | None:
+    """The unit ``field_name`` is always shown in under ``preset`` (:data:`FIELD_UNITS`), or None."""
+    from .units import preset_name
+
+    return FIELD_UNITS.get(field_name or "", {}).get(preset_name(preset))
 
 
 def _field_display(si_values, field, preset):
@@ -31,14 +40,14 @@ def _field_display(si_values, field, preset):
 
     from .units import parse_unit, to_display
 
-    unit = FIELD_UNITS.get(field.name, {}).get(preset) if field is not None else None
+    unit = field_unit(field.name, preset) if field is not None else None
     if unit is not None:
         conv = parse_unit(unit, field.dimension)
         return (np.asarray(si_values, dtype=float) - conv.offset) / conv.factor, unit
     return to_display(np.asarray(si_values, dtype=float), field.dimension, preset)
 
 
-def display_value(si_value: float, dimension: str | None, preset: str = "datasheet",
+def display_value(si_value: float, dimension: str | None, preset: str = "metric",
                   field=None) -> tuple[float, str]:
     """(value, unit label) of one SI value in the preset's unit."""
     import numpy as np
@@ -54,7 +63,7 @@ def display_value(si_value: float, dimension: str | None, preset: str = "datashe
     return float(vals[0]), label
 
 
-def display_frame(df, record_type: str, preset: str = "datasheet", columns=None):
+def display_frame(df, record_type: str, preset: str = "metric", columns=None):
     """A copy of ``df`` with quantity columns converted to ``preset`` and headers with units."""
     import numpy as np
 

@@ -82,7 +82,8 @@ def column_problems(field: Field, values, raw=None) -> list[tuple[int, str]]:
         if field.enum is not None and s not in field.enum:
             out.append((i, f"{s!r} is not allowed, expected one of {', '.join(field.enum)}"))
         if field.pattern is not None and not re.search(field.pattern, s):
-            out.append((i, f"{s!r} does not match the expected form {field.pattern}"))
+            form = field.pattern_words or field.pattern
+            out.append((i, f"{s!r} does not match the expected form {form}"))
         if field.max_length is not None and len(s) > field.max_length:
             out.append((i, f"text of {len(s)} characters, expected at most {field.max_length}"))
     return out

@@ -19,26 +19,59 @@ def _print_report(report, verb: str) -> None:
     for f in report.files:
         state = "ok" if not f.problems else ("rejected" if f.accepted == 0 else f"{len(f.problems)} problem(s)")
         echo(f"{f.source}: {f.record_type or '?'}s, {f.rows} row(s), {f.accepted} {verb}, "
-                   f"{f.converted} value(s) converted to SI [{state}]")
+                   f"{f.converted} value(s) converted to SI, {_mapping_words(f)} [{state}]")
     _echo_problems(report.warnings, "warning")
+
+
+def _mapping_words(result) -> str:
+    """Which mapping a file was read with, for the import and validate lines."""
+    if not getattr(result, "mapping", None):
+        return "canonical headers (no mapping)"
+    return f"mapping {result.mapping} ({result.mapping_from})"
+
+
+def _files_and_mappings(files, mapping):
+    """FILE or FILE=MAPPING arguments → (paths, mapping for the API: one profile or {file: profile})."""
+    from ..ingest.manifest import split_file_argument
+
+    paths, own = [], {}
+    for arg in files:
+        path, mp = split_file_argument(arg)
+        paths.append(path)
+        if mp is not None:
+            own[path] = mp
+    if not own:
+        return paths, mapping
+    return paths, {p: own.get(p, mapping) for p in paths}
+
+
+_MANIFEST_OPTION = click.option(
+    "--manifest", type=click.Path(dir_okay=False), default=None, metavar="FILE",
+    help="Import manifest (YAML): the mapping profile of each file by file name or pattern.")
 
 
 @cli.command("import")
 @click.argument("files", nargs=-1, required=True, type=click.Path())
 @click.option("--mapping", type=click.Path(), default=None, metavar="PROFILE",
-              help="Mapping profile (YAML) for files with a supplier's own column headers.")
+              help="Mapping profile (YAML) for the files without one of their own (FILE=PROFILE or --manifest).")
+@_MANIFEST_OPTION
 @click.option("--keep-valid", is_flag=True, help="Import the valid rows and write the rejected ones to --rejects.")
 @click.option("--rejects", type=click.Path(dir_okay=False), default=None, metavar="FILE",
               help="CSV file receiving the rejected rows with their reasons (with --keep-valid).")
 @click.pass_obj
 @handle_errors
-def import_cmd(obj: Context, files, mapping, keep_valid, rejects):
-    """Import datasheet files (CSV, XLSX, JSON, YAML) into the catalogue, in one transaction."""
+def import_cmd(obj: Context, files, mapping, manifest, keep_valid, rejects):
+    """Import datasheet files (CSV, XLSX, JSON, YAML) into the catalogue, in one transaction.
+
+    Each FILE may carry its own mapping profile as FILE=PROFILE (a supplier's own headers);
+    --manifest chooses profiles by file pattern; --mapping serves the files left.
+    """
     from ..errors import ImportRejected
 
     cat = obj.catalog()
+    paths, mapping = _files_and_mappings(files, mapping)
     try:
-        report = cat.import_(list(files), mapping=mapping, keep_valid=keep_valid, rejects=rejects)
+        report = cat.import_(paths, mapping=mapping, keep_valid=keep_valid, rejects=rejects, manifest=manifest)
     except ImportRejected as exc:
         _print_report(exc.report, "importable")
         _echo_problems(exc.problems)
@@ -60,12 +93,14 @@ def import_cmd(obj: Context, files, mapping, keep_valid, rejects):
 @cli.command("validate")
 @click.argument("files", nargs=-1, required=True, type=click.Path())
 @click.option("--mapping", type=click.Path(), default=None, metavar="PROFILE",
-              help="Mapping profile (YAML) for files with a supplier's own column headers.")
+              help="Mapping profile (YAML) for the files without one of their own (FILE=PROFILE or --manifest).")
+@_MANIFEST_OPTION
 @click.pass_obj
 @handle_errors
-def validate_cmd(obj: Context, files, mapping):
-    """Check datasheet files as an import would, writing nothing."""
-    report = obj.catalog().validate(list(files), mapping=mapping)
+def validate_cmd(obj: Context, files, mapping, manifest):
+    """Check datasheet files as an import would, writing nothing (FILE=PROFILE: a file's own mapping)."""
+    paths, mapping = _files_and_mappings(files, mapping)
+    report = obj.catalog().validate(paths, mapping=mapping, manifest=manifest)
     _print_report(report, "valid")
     if report.problems:
         _echo_problems(report.problems)

@@ -36,7 +36,7 @@ def parse_params(items) -> dict:
 
 
 @cli.command("export")
-@click.argument("kind", type=click.Choice(["motors", "gearheads"]))
+@click.argument("kind", type=click.Choice(["motors", "gearheads", "stock"]))
 @click.option("--out", "out", required=True, type=click.Path(dir_okay=False), metavar="FILE",
               help=f"Output file: {extension_list()} (the format follows the extension).")
 @click.option("--where", default=None, metavar="CONDITION",
@@ -47,7 +47,8 @@ def parse_params(items) -> dict:
 @click.pass_obj
 @handle_errors
 def export_cmd(obj: Context, kind, out, where, params, units):
-    """Write the motors or gearheads of the catalogue (all, or those matching --where) to a file.
+    """Write the motors or gearheads of the catalogue (all, or those matching --where) to a file,
+    or the stock: every item with its value, and the value per location and in total.
 
     XLSX has a sheet with the records and one with the provenance of every value; ids and part
     numbers are text cells.  CSV (RFC 4180, UTF-8) has the records only: a spreadsheet opening a
@@ -55,7 +56,8 @@ def export_cmd(obj: Context, kind, out, where, params, units):
     """
     written, count = obj.catalog().export(kind, out, where=where, params=parse_params(params), units=units)
     fmt = FORMATS[written.suffix.lower()]
-    echo(f"{written}: {count} {kind} written ({f'si ({fmt.label} keeps SI)' if fmt.keeps_si else units} units)")
+    shown = f"si ({fmt.label} keeps SI)" if fmt.keeps_si else units
+    echo(f"{written}: {count} {'stock items' if kind == 'stock' else kind} written ({shown} units)")
 
 
 @cli.command("report")

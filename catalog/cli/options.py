@@ -53,9 +53,9 @@ class LazyChoice(click.Choice):
 
 
 def _presets():
-    from ..units.dimensions import PRESETS
+    from ..units.dimensions import PRESET_ALIASES, PRESETS
 
-    return PRESETS
+    return (*PRESETS, *PRESET_ALIASES)   # old names are still read
 
 
 class OutputOption(click.Option):
@@ -113,9 +113,9 @@ DB_OPTION = click.option("--db", "db", type=click.Path(dir_okay=False), default=
                          help="Catalogue file (default: $MOTORSHELF_DB, else ./motorshelf.duckdb).")
 FORMAT_OPTION = click.option("--format", "fmt", cls=OutputOption, type=click.Choice(["table", "csv", "json"]),
                              default="table", show_default=True, help="Output format.")
-UNITS_OPTION = click.option("--units", "units", type=LazyChoice(_presets), default="datasheet",
+UNITS_OPTION = click.option("--units", "units", type=LazyChoice(_presets), default="metric",
                             show_default=True, help="Units to display values in.")
-OUT_UNITS_OPTION = click.option("--units", "units", type=LazyChoice(_presets), default="datasheet",
+OUT_UNITS_OPTION = click.option("--units", "units", type=LazyChoice(_presets), default="metric",
                                 show_default=True, help=f"Units of the values written ({keeps_si_text()}).")
 TOP_OPTION = click.option("--top", type=click.IntRange(min=1), default=None, metavar="N",
                           help="Shortlist length (default: the envelope's ranking.top, else 10).")

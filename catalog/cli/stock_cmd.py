@@ -204,17 +204,46 @@ def reservations_cmd(obj: Context, open_only, project, fmt):
 @handle_errors
 def list_cmd(obj: Context, location, low, include_empty, fmt):
     """List the stock items: record, location, condition, on hand, reserved, available."""
-    df = obj.catalog().stock_list(location, include_empty=include_empty, low=low)
+    cat = obj.catalog()
+    df = cat.stock_list(location, include_empty=include_empty, low=low)
     if low:
         title = f"{len(df)} record(s) below their reorder level"
     else:
         if fmt == "table":
-            df = df.drop(columns=["record_type", "manufacturer", "part_number", "last_movement"])
+            df = df.drop(columns=["record_type", "manufacturer", "part_number", "last_movement", "unit_price"])
+            df["value"] = [f"{v:,.2f}" if v == v and v is not None else "" for v in df["value"]]
         title = f"{len(df)} stock item(s), {int(df['on_hand'].sum()) if len(df) else 0} piece(s)"
     if fmt == "table" and df.empty:
         echo("nothing below its reorder level" if low else "no stock" + (f" at {location!r}" if location else ""))
         return
     print_frame(df, fmt, title=title)
+    if not low and fmt == "table":
+        for line in value_lines(cat.stock_value(location)):
+            echo(line)
+
+
+def value_lines(values) -> list[str]:
+    """The stock value of ``Catalog.stock_value`` as lines for people: per location, then the total."""
+    def money(rows) -> str:
+        parts = [f"{r.value:,.2f} {r.currency}" for r in rows.itertuples(index=False)
+                 if r.value == r.value and isinstance(r.currency, str)]
+        nocur = rows[rows["currency"].isna() & rows["value"].notna()]
+        parts += [f"{v:,.2f} (no currency given)" for v in nocur["value"]]
+        return " + ".join(parts) or "-"
+
+    per = values[values["scope"] == "location"]
+    total = values[values["scope"] == "total"]
+    if per.empty:
+        return []
+    width = max(len(str(loc)) for loc in per["location"])
+    out = ["value on hand at catalogue prices (faulty pieces not valued):"]
+    for loc, rows in per.groupby("location", sort=True):
+        out.append(f"  {loc:<{width}}  {money(rows)}")
+    out.append(f"  {'total':<{width}}  {money(total)}")
+    unpriced = int(total["unpriced"].sum())
+    if unpriced:
+        out.append(f"  {unpriced} piece(s) without a catalogue price are not in these sums")
+    return out
 
 
 @stock.command("history")
@@ -237,16 +266,17 @@ def stock_history_cmd(obj: Context, record_id, fmt):
 
 @stock.command("import")
 @click.argument("files", nargs=-1, required=True, type=click.Path())
+@click.option("--again", is_flag=True, help="Receive a file whose content was received before (once more).")
 @_PERSON
 @click.pass_obj
 @handle_errors
-def import_cmd(obj: Context, files, person):
+def import_cmd(obj: Context, files, again, person):
     """Receive every row of stock files (CSV, XLSX, JSON, YAML; schemas/stock.schema.json), in one transaction."""
     from ..errors import ImportRejected
 
     cat = obj.catalog()
     try:
-        rows, pieces, batch = cat.stock_import(list(files), person=person)
+        rows, pieces, batch = cat.stock_import(list(files), person=person, again=again)
     except ImportRejected as exc:
         for p in exc.problems:
             echo(f"error: {p}", err=True)

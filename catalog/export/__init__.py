@@ -2,11 +2,11 @@
 
 Python API (every heavy library is imported on first use):
 
-* :func:`write_selection` (``selection, path, units="datasheet", catalog=None``):
+* :func:`write_selection` (``selection, path, units="metric", catalog=None``):
   the shortlist and everything behind it to a file of any format of :data:`FORMATS`
   (see :mod:`catalog.export.selection`, :mod:`catalog.export.writers`);
 * :func:`export_catalogue` (``catalog, "motors"|"gearheads", path, where=None,
-  params=None, units="datasheet"``): the catalogue or a SQL filter of it;
+  params=None, units="metric"``): the catalogue or a SQL filter of it;
 * :func:`write_report` (``selection, path, units, catalog, side``): the HTML report;
 * :func:`candidate_figure` / :func:`comparison_figure`: matplotlib figures of a
   selection's candidates; :func:`plot_speed_torque` draws from plain values

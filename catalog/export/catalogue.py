@@ -19,14 +19,15 @@ from ..store import is_damage
 KINDS = {"motors": ("motors", "motor"), "gearheads": ("gearheads", "gearhead")}
 
 
-def about_block(cat=None, preset: str = "datasheet", **more) -> dict:
+def about_block(cat=None, preset: str = "metric", **more) -> dict:
     """Run details written with every export (``about`` sheet / object)."""
     from .. import __version__
+    from ..units import preset_name
 
     out = {"program": f"motorshelf {__version__}",
            "created": _dt.datetime.now(_dt.timezone.utc).replace(microsecond=0).isoformat(),
            "catalogue": str(cat.path) if cat is not None else "",
-           "units": preset,
+           "units": preset_name(preset),
            "values": "display units in the headers; stored in SI"}
     out.update(more)
     return out
@@ -79,7 +80,7 @@ def _query(cat, view: str, where: str | None, params: dict | None):
     return rows, vals
 
 
-def provenance_table(values, record_types: dict, preset: str = "datasheet", name: str = "provenance"):
+def provenance_table(values, record_types: dict, preset: str = "metric", name: str = "provenance"):
     """The provenance sheet: one row per record and field used.
 
     ``values`` has the columns of ``record_values`` (record_id, field,
@@ -91,8 +92,8 @@ def provenance_table(values, record_types: dict, preset: str = "datasheet", name
     import numpy as np
 
     from ..fields import fields_for
-    from ..units import get_dimension
-    from .columns import UNITLESS, Column, Table, clean_number, text_column, unit_conversion
+    from .columns import (NO_CURRENCY, UNITLESS, Column, Table, clean_number, given_digits, si_unit_label,
+                          text_column, unit_conversion)
 
     values = values.reset_index(drop=True)
     n = len(values)
@@ -100,6 +101,8 @@ def provenance_table(values, record_types: dict, preset: str = "datasheet", name
     si_vals = [None] * n
     fields = {t: fields_for(t) for t in ("motor", "gearhead")}
     keyed = values.assign(_rt=values["record_id"].map(record_types).fillna("motor"))
+    cur = values[values["field"] == "currency"]
+    currency_of = dict(zip(cur["record_id"], cur["value_text"]))
     for (rt, fname), grp in keyed.groupby(["_rt", "field"], sort=False):
         f = fields[rt].get(fname)
         nums = grp["value_num"].to_numpy(dtype=float, na_value=np.nan)
@@ -107,19 +110,22 @@ def provenance_table(values, record_types: dict, preset: str = "datasheet", name
         if f is None or not f.is_numeric or np.all(np.isnan(nums)):
             continue
         if f.dimension is None:
-            disp, label, si_label = nums, ("currency" if fname == "price" else UNITLESS), None
+            disp, label, si_label = nums, UNITLESS, None
         else:
             convert, label = unit_conversion(f.dimension, preset, fname)
             label = label or convert.label_for(nums)
             disp = convert(nums)
-            si_label = get_dimension(f.dimension).display["si"][0] or UNITLESS
+            si_label = si_unit_label(f.dimension, fname)
             label = label or UNITLESS
+        ids = grp["record_id"].tolist()
         for k, p in enumerate(pos):
             i = int(p)
             shown[i] = clean_number(disp[k], f.kind == "integer")
             si_vals[i] = clean_number(nums[k])
             unit[i] = label
-            si_unit[i] = si_label or label
+            if fname == "price":
+                unit[i] = currency_of.get(ids[k]) or NO_CURRENCY
+            si_unit[i] = si_label or unit[i]
     src = [f"{a}:{int(b)}" if isinstance(a, str) and a and b == b and b is not None else (a or None)
            for a, b in zip(values["source_file"], values["source_row"])]
     origin_text = []
@@ -132,12 +138,13 @@ def provenance_table(values, record_types: dict, preset: str = "datasheet", name
             if isinstance(ru, str) and ru and (not isinstance(raw, str) or ru not in raw):
                 written += f" [{ru}]"
             origin_text.append(f"given: {written}" + (f" ({s})" if s else ""))
+    digits = [given_digits(t) if o == "given" else None for t, o in zip(values["raw_text"], values["origin"])]
     cols = [
         text_column("record_id", values["record_id"].tolist()),
         text_column("field", values["field"].tolist()),
-        Column("value", "number", shown, si_vals, "see unit", "see si_unit"),
+        Column("value", "number", shown, si_vals, "see unit", "see si_unit", digits=digits),
         text_column("unit", unit),
-        Column("value_si", "number", si_vals, si_vals, "see si_unit", "see si_unit"),
+        Column("value_si", "number", si_vals, si_vals, "see si_unit", "see si_unit", digits=list(digits)),
         text_column("si_unit", si_unit),
         text_column("text", values["value_text"].tolist()),
         text_column("origin", values["origin"].tolist()),
@@ -152,10 +159,10 @@ def provenance_table(values, record_types: dict, preset: str = "datasheet", name
 
 
 def catalogue_tables(cat, kind: str, where: str | None = None, params: dict | None = None,
-                     preset: str = "datasheet"):
+                     preset: str = "metric"):
     """``[records table, provenance table]`` of ``kind`` (``motors`` or ``gearheads``)."""
     from ..fields import fields_for
-    from .columns import table_from_frame
+    from .columns import apply_given_digits, table_from_frame
 
     if kind not in KINDS:
         raise InputError(f"unknown kind {kind!r}, expected motors or gearheads",
@@ -164,12 +171,21 @@ def catalogue_tables(cat, kind: str, where: str | None = None, params: dict | No
     rows, vals = _query(cat, view, where, params)
     order = [c for c in fields_for(rtype) if c in rows.columns]
     main = table_from_frame(rows, kind, preset, record_type=rtype, columns=order, freeze_columns=1)
+    apply_given_digits(main, vals)
     prov = provenance_table(vals.reset_index(drop=True), {r: rtype for r in rows["id"]}, preset)
     return [main, prov]
 
 
+def _export_stock(cat, path, where, units):
+    from .stock import export_stock
+
+    if where:
+        raise _where_problem(where, "the stock export writes the whole shelf; --where filters motors or gearheads")
+    return export_stock(cat, path, units)
+
+
 def export_catalogue(cat, kind: str, path, where: str | None = None, params: dict | None = None,
-                     units: str = "datasheet"):
+                     units: str = "metric"):
     """Write the ``motors`` or ``gearheads`` of ``cat`` (optionally filtered) to ``path``.
 
     Parameters
@@ -177,7 +193,8 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
     cat : Catalog
         The catalogue (``catalog.open(path)``).
     kind : str
-        ``motors`` or ``gearheads``.
+        ``motors`` or ``gearheads``; ``stock`` writes the shelf and its value
+        (:func:`catalog.export.stock.export_stock`).
     path : str or Path
         The file; its extension picks the format (:data:`catalog.export.formats.FORMATS`).
     where : str, optional
@@ -185,7 +202,8 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
     params : dict, optional
         Named parameters of ``where`` (``{"m": 0.2}``).
     units : str
-        Display preset ``si``, ``datasheet`` or ``imperial`` (a format that keeps SI ignores it).
+        Display preset ``si``, ``metric`` (also read as ``datasheet``) or ``imperial`` (a format that
+        keeps SI ignores it).
 
     Returns
     -------
@@ -195,6 +213,8 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
     from .writers import format_for, units_written, write_tables_to_file
 
     format_for(path)   # a wrong extension is an input error before any work
+    if kind == "stock":
+        return _export_stock(cat, path, where, units)
     tables = catalogue_tables(cat, kind, where, params, units)
     about = about_block(cat, units_written(path, units), export=kind,
                         where=where or "", parameters=dict(params or {}), records=len(tables[0]))

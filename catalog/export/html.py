@@ -4,7 +4,11 @@ Everything is inline: no script, no external style sheet, font or image.
 """
 from __future__ import annotations
 
-__all__ = ["esc", "table_html", "inline_svg", "STYLE", "fmt_number"]
+__all__ = ["esc", "table_html", "inline_svg", "STYLE", "fmt_number", "print_parts", "PRINT_WIDTH_CHARS"]
+
+#: Characters of 8 pt table text across an A4 landscape page (277 mm less cell padding), the
+#: width a printed table may take before it is split into parts (each repeating the id columns).
+PRINT_WIDTH_CHARS = 150
 
 import html
 import math
@@ -58,19 +62,30 @@ ul.cautions li { margin: 4px 0; }
 footer { color: var(--muted); font-size: 12.5px; border-top: 1px solid var(--line); margin-top: 36px;
          padding-top: 10px; }
 @media (max-width: 700px) { main { padding: 0 12px 32px; } .facts li { min-width: 120px; } }
+.print-only { display: none; }
+p.part { color: var(--muted); font-size: 12px; margin: 10px 0 0; }
 @media print {
-  @page { size: A4; margin: 14mm 12mm; }
-  body { font-size: 10pt; }
+  @page { size: A4 landscape; margin: 10mm 10mm; }
+  body { font-size: 9.5pt; }
   main { max-width: none; padding: 0; }
   nav.toc { display: none; }
   h2 { break-after: avoid; page-break-after: avoid; }
   h3 { break-after: avoid; page-break-after: avoid; }
   .scroll { overflow: visible; }
-  table { font-size: 8.5pt; }
+  .screen-only { display: none; }
+  .print-only { display: block; }
+  table { font-size: 8pt; width: 100%; table-layout: auto; }
+  th, td { padding: 2px 5px; }
+  td { overflow-wrap: anywhere; }
+  td.id { white-space: nowrap; font-size: 7.5pt; }
+  div.part { break-inside: avoid; page-break-inside: avoid; }
+  p.part { break-after: avoid; page-break-after: avoid; }
+  td.num { white-space: nowrap; }
   thead { display: table-header-group; }
   tr { break-inside: avoid; page-break-inside: avoid; }
   figure { break-inside: avoid; page-break-inside: avoid; }
-  figure svg { max-width: 100%; max-height: 235mm; }
+  figure svg { max-width: 100%; max-height: 150mm; margin: 0 auto; }
+  figcaption { max-width: none; }
   .caution, thead th, tbody tr:nth-child(even) td { -webkit-print-color-adjust: exact; print-color-adjust: exact; }
   section.plots figure.candidate { break-before: page; page-break-before: always; }
 }
@@ -100,17 +115,65 @@ def fmt_number(v, digits: int = 4) -> str:
     return text.replace("-", "−") if text.startswith("-") else text
 
 
-def table_html(table, columns=None, id_columns=(), low=None, caption: str | None = None) -> str:
-    """A :class:`~catalog.export.columns.Table` as an HTML table (units under the names)."""
-    cols = [c for c in table.columns if columns is None or c.name in columns]
-    if columns is not None:
-        order = {name: i for i, name in enumerate(columns)}
-        cols.sort(key=lambda c: order[c.name])
+def _shown(c, v) -> str:
+    if c.is_numeric:
+        return fmt_number(v)
+    if c.kind == "bool":
+        return "yes" if v else ""
+    return "" if v is None else str(v)
+
+
+def _width(c, n_rows: int) -> int:
+    """Characters a column needs when printed: its longest value, its header's longest word, padding."""
+    words = (c.title or c.name).replace("_", " ").split() + ([f"[{c.unit}]"] if c.is_numeric else [])
+    longest = max([len(_shown(c, c.values[i])) for i in range(min(n_rows, 500))] + [0])
+    if c.kind == "text" and longest > 30:
+        longest = 30          # long text wraps
+    return max([len(w) for w in words] + [longest]) + 2
+
+
+def print_parts(table, cols, id_columns=(), width: int = PRINT_WIDTH_CHARS) -> list:
+    """The columns ``cols`` split into parts that each fit ``width`` characters when printed.
+
+    Every part starts with the id columns (the leading columns named in ``id_columns``
+    and any ``rank`` before them), so each printed row says which candidate it is.
+    One part when everything fits.
+    """
+    n = len(table)
+    need = {c.name: _width(c, n) for c in cols}
+    keys = []
+    for c in cols:
+        if c.name in id_columns or c.name == "rank":
+            keys.append(c)
+        else:
+            break
+    rest = [c for c in cols if c not in keys]
+    if sum(need.values()) <= width or not rest:
+        return [cols]
+    import math
+
+    base = sum(need[c.name] for c in keys)
+    room = max(width - base, 1)
+    total = sum(need[c.name] for c in rest)
+    target = total / math.ceil(total / room)           # as many parts as needed, of even width
+    parts, current, used = [], [], 0
+    for c in rest:
+        if current and (used + need[c.name] > room or used + need[c.name] / 2 > target):
+            parts.append(keys + current)
+            current, used = [], 0
+        current.append(c)
+        used += need[c.name]
+    if current:
+        parts.append(keys + current)
+    return parts
+
+
+def _table(table, cols, id_columns, low, cap) -> str:
     head = []
     for c in cols:
         cls = ' class="num"' if c.is_numeric else ""
         unit = f"<br><small>[{esc(c.unit)}]</small>" if c.is_numeric and c.unit != "1" else ""
-        head.append(f"<th{cls} scope=\"col\">{esc(c.name.replace('_', ' '))}{unit}</th>")
+        head.append(f"<th{cls} scope=\"col\">{esc((c.title or c.name).replace('_', ' '))}{unit}</th>")
     rows = []
     for i in range(len(table)):
         cells = []
@@ -125,9 +188,29 @@ def table_html(table, columns=None, id_columns=(), low=None, caption: str | None
                 cls = ' class="id"' if c.name in id_columns else ""
                 cells.append(f"<td{cls}>{esc(v)}</td>")
         rows.append("<tr>" + "".join(cells) + "</tr>")
+    return f'<table>{cap}<thead><tr>{"".join(head)}</tr></thead><tbody>{"".join(rows)}</tbody></table>'
+
+
+def table_html(table, columns=None, id_columns=(), low=None, caption: str | None = None) -> str:
+    """A :class:`~catalog.export.columns.Table` as an HTML table (units under the names).
+
+    On screen the whole table scrolls sideways; in print a table too wide for an
+    A4 landscape page is printed as parts (:func:`print_parts`), each repeating the
+    id columns, so that every column of every row is on paper.
+    """
+    cols = [c for c in table.columns if columns is None or c.name in columns]
+    if columns is not None:
+        order = {name: i for i, name in enumerate(columns)}
+        cols.sort(key=lambda c: order[c.name])
     cap = f"<caption>{esc(caption)}</caption>" if caption else ""
-    return (f'<div class="scroll"><table>{cap}<thead><tr>{"".join(head)}</tr></thead>'
-            f'<tbody>{"".join(rows)}</tbody></table></div>')
+    parts = print_parts(table, cols, id_columns)
+    whole = f'<div class="scroll">{_table(table, cols, id_columns, low, cap)}</div>'
+    if len(parts) == 1:
+        return whole
+    printed = "".join(f'<div class="part"><p class="part">part {k} of {len(parts)}</p>'
+                      + _table(table, part, id_columns, low, cap) + "</div>" for k, part in enumerate(parts, start=1))
+    return f'<div class="screen-only">{whole}</div><div class="print-only">{printed}</div>'
+
 
 
 _ID = re.compile(r'\bid="([^"]+)"')

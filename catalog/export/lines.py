@@ -87,6 +87,9 @@ def characteristics(model: MotorModel, cond: Conditions) -> dict:
     R [Ω], Kt, Ke, I0 [A], ``stall_torque`` [N·m], ``no_load_speed`` [rad/s]),
     ``continuous_torque`` [N·m] with ``continuous_current`` [A],
     ``peak_torque`` [N·m], ``max_speed`` and ``gear_max_speed`` [rad/s].
+    ``continuous_torque_back`` and ``peak_torque_back`` [N·m, negative] are the
+    same current limits where the load drives the motor: the shaft torque at
+    −I is −(Kt·I + Tf), friction now helping the current hold the load.
     """
     from .. import physics as ph
 
@@ -116,10 +119,13 @@ def characteristics(model: MotorModel, cond: Conditions) -> dict:
                                                m.magnet_coefficient, m.reference_temperature)
     t_cont = kt_max * i_cont - m.friction_torque
     t_peak = hot["Kt"] * cond.peak_current - m.friction_torque if math.isfinite(cond.peak_current) else math.nan
+    t_cont_back = -(kt_max * i_cont + m.friction_torque)
+    t_peak_back = -(hot["Kt"] * cond.peak_current + m.friction_torque) if math.isfinite(cond.peak_current) \
+        else math.nan
     # gearhead output ratings on the motor shaft (motor driving)
     gear = m.ratio * m.efficiency
     return {"hot": hot, "cold": cold, "continuous_current": i_cont, "continuous_torque": t_cont,
-            "peak_torque": t_peak, "max_speed": m.max_speed, "gear_max_speed": m.gear_max_speed,
+            "peak_torque": t_peak, "continuous_torque_back": t_cont_back, "peak_torque_back": t_peak_back, "max_speed": m.max_speed, "gear_max_speed": m.gear_max_speed,
             "gear_continuous_torque": m.gear_continuous_torque / gear,
             "gear_peak_torque": m.gear_peak_torque / gear}
 

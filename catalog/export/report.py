@@ -5,7 +5,9 @@ the speed-torque diagrams (a comparison of the top few, then one per
 shortlisted candidate, inline SVG), one section per rejection reason with
 its count and examples, the provenance of the values the checks used, and
 the cautions.  No script, no external style sheet, font or image: the file
-opens offline and prints cleanly (print style sheet, one diagram per page).
+opens offline and prints whole on A4 landscape pages (print style sheet: one
+diagram per page, tables too wide for the page printed in parts that each
+repeat the candidate column).
 """
 from __future__ import annotations
 
@@ -94,7 +96,8 @@ def _shortlist(selection, tables) -> str:
         return "<p><strong>No candidate meets the envelope.</strong> The rejection reasons below say why.</p>"
     req = selection.envelope.margins
     low = {"smallest_margin": 0.0}
-    cols = [c for c in REPORT_COLUMNS if any(col.name == c for col in short.columns)]
+    names = [col.name for col in short.columns]
+    cols = [n for c in REPORT_COLUMNS for n in names if n == c or (c == "price" and n.startswith("price_"))]
     keys = ", ".join(selection.envelope.rank_keys)
     return (f'<p class="lead">Ranked by {esc(keys)}. Margins are the headroom to each limit '
             f"(required: voltage {req['voltage']:.0%}, current {req['current']:.0%}, gearhead torque "
@@ -114,14 +117,13 @@ def _plots(selection, details, units, side, compare) -> str:
     if len(details) > 1 and compare > 1:
         entries = [(d.model, d.conditions, d.points) for d in details[:compare]]
         fig = plot_comparison(entries, units, side="load", load=load_points(env),
-                              title=f"Top {len(entries)} compared at the gear output")
+                              title=f"Top {len(entries)} compared")
         out.append('<figure id="plot-compare" class="compare">' + inline_svg(fig, "cmp", "comparison diagram")
                    + "<figcaption>The hot speed-torque line and continuous limit of each candidate, with the "
                      "cycle's operating points, all at the gear output so that the same load can be "
                      "compared.</figcaption></figure>")
     for i, d in enumerate(details):
-        sub = (f"{'motor shaft' if side == 'motor' else 'gear output'} · envelope {env.name} · "
-               f"{units} units")
+        sub = f"envelope {env.name} · {units} units"
         fig = plot_speed_torque(d.model, d.conditions, d.points, units, side,
                                 title=f"{i + 1}. {d.candidate}", subtitle=sub)
         tw = temperature_text(d.conditions.winding_temperature, units)
@@ -204,7 +206,7 @@ def _provenance(tables, motor_ids) -> str:
             "and its inputs). Every field is in the spreadsheet export.</p>" + "".join(out))
 
 
-def render_report(selection, units: str = "datasheet", catalog=None, side: str = "motor",
+def render_report(selection, units: str = "metric", catalog=None, side: str = "motor",
                   plots: int | None = None, compare: int = 4) -> str:
     """The report as an HTML string (see :func:`write_report`)."""
     from .catalogue import about_block
@@ -249,7 +251,7 @@ def render_report(selection, units: str = "datasheet", catalog=None, side: str =
             f"{esc(CAUTION)}</footer></main></body></html>\n")
 
 
-def write_report(selection, path, units: str = "datasheet", catalog=None, side: str = "motor",
+def write_report(selection, path, units: str = "metric", catalog=None, side: str = "motor",
                  plots: int | None = None, compare: int = 4) -> Path:
     """Write the HTML report of ``selection`` to ``path``.
 
@@ -260,7 +262,7 @@ def write_report(selection, path, units: str = "datasheet", catalog=None, side: 
     path : str or Path
         The ``.html`` file.
     units : str
-        Display preset ``si``, ``datasheet`` or ``imperial``.
+        Display preset ``si``, ``metric`` (or its older name ``datasheet``) or ``imperial``.
     catalog : Catalog, optional
         The catalogue the selection came from (diagrams and provenance need it);
         default ``selection.catalog``.

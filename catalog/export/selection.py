@@ -46,7 +46,7 @@ def key_text(path) -> str:
     return out
 
 
-def envelope_table(envelope, preset: str = "datasheet"):
+def envelope_table(envelope, preset: str = "metric"):
     """The envelope as given: one row per input with its value in display units and in SI."""
     from ..select.envelope import envelope_schema
     from ..units import UnitError, get_dimension, parse_quantity
@@ -120,7 +120,7 @@ def caution_lines(selection, catalog=None) -> list[tuple[str, str]]:
     return rows
 
 
-def selection_tables(selection, preset: str = "datasheet", catalog=None) -> list:
+def selection_tables(selection, preset: str = "metric", catalog=None) -> list:
     """The tables of a selection export, the shortlist first."""
     import pandas as pd
 
@@ -171,7 +171,7 @@ def _about(selection, cat, preset) -> dict:
                        rejected=n_rej, ranking=", ".join(env.rank_keys), caution=CAUTION)
 
 
-def write_selection(selection, path, units: str = "datasheet", catalog=None):
+def write_selection(selection, path, units: str = "metric", catalog=None):
     """Write a selection to ``path``, the format by its extension (:data:`catalog.export.formats.FORMATS`).
 
     Parameters
@@ -181,7 +181,8 @@ def write_selection(selection, path, units: str = "datasheet", catalog=None):
     path : str or Path
         Output file; the format follows the extension.
     units : str
-        Display preset ``si``, ``datasheet`` or ``imperial`` (a format that keeps SI ignores it).
+        Display preset ``si``, ``metric`` (or its older name ``datasheet``) or ``imperial`` (a format that
+        keeps SI ignores it).
     catalog : Catalog, optional
         The catalogue the selection came from, for the provenance sheet
         (default ``selection.catalog`` when the selection carries it).

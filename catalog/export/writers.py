@@ -71,22 +71,17 @@ def _finite(v):
     return v is not None and not (isinstance(v, float) and (math.isnan(v) or math.isinf(v)))
 
 
-def number_format(values, integer: bool = False) -> str:
-    """A spreadsheet number format showing about four significant digits.
+def number_format(value, digits: int | None = None, integer: bool = False) -> str:
+    """The number format of one cell: ``value`` with ``digits`` significant digits (at least three).
 
-    Integers: ``0``; magnitudes below 0.001 or from 1e9: ``0.000E+00``;
-    otherwise a fixed count of decimals from the typical magnitude.
+    Formats are chosen per cell, not per column: a column of 350 and 0.45 shows
+    ``350`` and ``0.450``, never ``0`` (:func:`catalog.export.columns.display_format`).
     """
+    from .columns import MIN_DIGITS, display_format
+
     if integer:
         return "0"
-    mags = sorted(abs(v) for v in values if _finite(v) and v != 0)
-    if not mags:
-        return "0.###"
-    typical = mags[round(0.9 * (len(mags) - 1))]
-    if typical < 1e-3 or typical >= 1e9:
-        return "0.000E+00"
-    decimals = max(0, min(6, 3 - math.floor(math.log10(typical))))
-    return "0" if decimals == 0 else "0." + "0" * decimals
+    return display_format(value, digits or MIN_DIGITS)
 
 
 # -- CSV -------------------------------------------------------------------------
@@ -204,7 +199,6 @@ def _xlsx_sheet(wb, table, used: set) -> None:
         cell = ws.cell(row=1, column=j, value=col.header)
         cell.data_type = "s"
         cell.font, cell.fill, cell.border, cell.alignment = head_font, head_fill, head_border, head_align
-        fmt = number_format(col.values, col.kind == "integer") if col.is_numeric else "@"
         long_text = not col.is_numeric and any(
             isinstance(v, str) and (len(v) > _MAX_WIDTH or "\n" in v) for v in col.values)
         styles = {}   # one style per kind of cell, copied (setting styles cell by cell is slow)
@@ -226,9 +220,11 @@ def _xlsx_sheet(wb, table, used: set) -> None:
                 if not col.is_numeric:
                     style_of("text", c, "@")
                 continue
+            fmt = "@"
             if col.is_numeric:
                 c.value = v
-                style_of("num", c, fmt)
+                fmt = col.cell_format(i)       # digits kept per cell, whatever the magnitude
+                style_of(("num", fmt), c, fmt)
             elif col.kind == "bool":
                 c.value = bool(v)
                 style_of("bool", c, "General")
@@ -279,7 +275,7 @@ def _about_text(v) -> str:
 def write_tables_to_file(tables, path, about: dict | None = None, fmt: str | None = None) -> Path:
     """Write ``tables`` (a list of :class:`Table`, the main one first) to the file ``path``.
 
-    (Writing imported records into the catalogue is :func:`catalog.ingest.writer.write_tables`.)
+    (Writing imported records into the catalogue is :func:`catalog.ingest.writer.store_tables`.)
 
     Parameters
     ----------

@@ -28,6 +28,8 @@ from .writer import store_tables, unique_id
 class FileResult:
     source: str
     record_type: str | None = None
+    mapping: str | None = None          # the mapping profile the file was read with, None: canonical headers
+    mapping_from: str = ""              # where that mapping came from (given with the file, a manifest, --mapping)
     rows: int = 0
     accepted: int = 0
     problems: list = field(default_factory=list)
@@ -155,26 +157,35 @@ def _where(first: tuple, table: NormalTable) -> str:
     return f"this import (first in {source} at row {row})"
 
 
-def read_and_check(paths, mapping=None) -> list[tuple[NormalTable | None, FileResult, list]]:
+def read_and_check(paths, mapping=None, manifest=None) -> list[tuple[NormalTable | None, FileResult, list]]:
     """Read, normalise and check every file; nothing is written.
 
-    Returns, per table, the normalised table, its :class:`FileResult` and its ids.
+    ``mapping`` is one profile for every file or a dict ``{file: profile}``;
+    ``manifest`` an import manifest choosing profiles by file pattern (see
+    :func:`catalog.ingest.manifest.mappings_for` for which wins).  Returns, per
+    table, the normalised table, its :class:`FileResult` (naming the mapping used)
+    and its ids.
     """
-    profile = None
+    from .manifest import mappings_for
+
     out = []
     seen: dict = {}  # ids and keys of every table so far (see _identity)
-    if mapping is not None:
-        profile = load_mapping(mapping)  # an invalid profile raises: nothing else is read
-    for path in paths:
+    chosen = mappings_for(paths, mapping, manifest)
+    profiles: dict = {}
+    for _, mp, _ in chosen:     # an invalid profile raises: nothing else is read
+        if mp is not None and mp not in profiles:
+            profiles[mp] = load_mapping(mp)
+    for path, mp, why in chosen:
+        profile = profiles.get(mp) if mp is not None else None
         try:
             raws = read_file(path, sheet=profile.sheet if profile else None,
                              header_row=profile.header_row if profile else 1)
         except InputError as exc:
-            out.append((None, FileResult(str(path), problems=list(exc.problems)), []))
+            out.append((None, FileResult(str(path), None, mp, why, problems=list(exc.problems)), []))
             continue
         for raw in raws:
             table = normalise(raw, profile)
-            result = FileResult(raw.source, table.record_type, rows=table.n,
+            result = FileResult(raw.source, table.record_type, mp, why, rows=table.n,
                                 problems=list(raw.problems) + list(table.problems), warnings=list(table.warnings),
                                 converted=table.converted)
             if table.n == 0:
@@ -224,10 +235,10 @@ def write_rejects(path, checked) -> int:
     return len(rows)
 
 
-def validate_files(paths, mapping=None) -> ImportReport:
+def validate_files(paths, mapping=None, manifest=None) -> ImportReport:
     """Check files as an import would, writing nothing."""
     report = ImportReport()
-    for table, result, _ids in read_and_check(paths, mapping):
+    for table, result, _ids in read_and_check(paths, mapping, manifest):
         result.accepted = 0 if result.problems else result.rows
         report.files.append(result)
         report.converted += result.converted
@@ -235,16 +246,17 @@ def validate_files(paths, mapping=None) -> ImportReport:
 
 
 def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, derive=True,
-                 progress=None) -> ImportReport:
+                 progress=None, manifest=None) -> ImportReport:
     """Import ``paths`` into ``store`` in one transaction; see the module docstring.
 
     Raises :class:`~catalog.errors.ImportRejected` (nothing written) when any file has
-    a problem and ``keep_valid`` is false.
+    a problem and ``keep_valid`` is false.  ``mapping`` and ``manifest`` choose each
+    file's mapping profile (:func:`read_and_check`).
     """
     if keep_valid and rejects is None:
         raise InputError("--keep-valid needs --rejects FILE to write the rejected rows to",
                          [Problem("--rejects", None, None, "missing, expected a file for the rejected rows")])
-    checked = read_and_check(paths, mapping)
+    checked = read_and_check(paths, mapping, manifest)
     report = ImportReport()
     kept = []  # (table, ids, keep mask) of the tables with rows to import
     for table, result, ids in checked:

@@ -414,6 +414,17 @@ def _no_surrogate(what: str, value) -> str | None:
                                        "(a JSON or YAML escape of half a character)")
 
 
+def _list_fields() -> dict:
+    """Field name → separator of the fields a JSON/YAML record may give as a list (``mount: [F22, F28]``)."""
+    from ..fields import list_separators
+
+    return list_separators()
+
+
+def _plain_list(value) -> bool:
+    return bool(value) and all(isinstance(v, (str, int, float)) and not isinstance(v, bool) for v in value)
+
+
 def _records_to_tables(doc, source: str) -> list[RawTable]:
     """JSON/YAML: a list of records, or {motors: [...], gearheads: [...], units: {...}}."""
     groups: list[tuple[str | None, list, dict]] = []
@@ -464,9 +475,13 @@ def _records_to_tables(doc, source: str) -> list[RawTable]:
                     seen.add(str(k))
                     headers.append(str(k))
         rows = [[rec.get(h) for h in headers] for rec in records]
+        lists = _list_fields()
         for i, row in enumerate(rows):
             for j, cell in enumerate(row):
                 if cell is not None and not isinstance(cell, _SCALARS):
+                    if isinstance(cell, list) and headers[j] in lists and _plain_list(cell):
+                        row[j] = f"{lists[headers[j]]} ".join(str(v).strip() for v in cell)   # ['F22', 'F28']
+                        continue
                     why = _cell_problem(cell) or _no_surrogate("the value", cell)
                     if why:
                         problems.append(Problem(label, i + 1, headers[j], why))

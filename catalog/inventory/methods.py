@@ -75,18 +75,19 @@ class StockMethods:
         return release(self.store, reservation_id, quantity, person, reason, at)
 
     # -- stock files -----------------------------------------------------------
-    def stock_import(self, files, person=None, reason=None, at=None):
+    def stock_import(self, files, person=None, reason=None, at=None, again: bool = False):
         """Receive every row of stock files (schema ``stock``) in one transaction.
 
         Returns ``(rows, pieces, batch_id)``; a file with any problem raises
-        :class:`~catalog.errors.ImportRejected` and nothing is written.
+        :class:`~catalog.errors.ImportRejected` and nothing is written.  A file
+        whose content was received before is such a problem unless ``again``.
         """
         from pathlib import Path
 
         from . import import_stock
 
         files = [files] if isinstance(files, (str, Path)) else list(files)
-        return import_stock(self.store, files, person=person, reason=reason, at=at)
+        return import_stock(self.store, files, person=person, reason=reason, at=at, again=again)
 
     def stock_count(self, path, apply: bool = False, keep_unlisted: bool = False, person=None):
         """Reconcile a counted shelf file; see :func:`catalog.inventory.count_stock`.
@@ -110,6 +111,16 @@ class StockMethods:
             return self.stock_low(location)
         with self.store.read() as con:
             return stock_list(con, location, record_id, include_empty)
+
+    def stock_value(self, location=None):
+        """Value on hand at catalogue prices per location and currency, then totals per currency.
+
+        Faulty pieces are not valued; see :func:`catalog.inventory.stock_value`.
+        """
+        from . import stock_value
+
+        with self.store.read() as con:
+            return stock_value(con, location)
 
     def stock_low(self, location=None):
         """Records with fewer usable pieces available than their reorder level (default 1)."""

@@ -6,7 +6,7 @@ pandas DataFrame; quantities are counts of pieces.
 """
 from __future__ import annotations
 
-__all__ = ["stock_list", "low_stock", "stock_history", "reservations", "available_stock"]
+__all__ = ["stock_list", "low_stock", "stock_history", "reservations", "available_stock", "stock_value"]
 
 from .ledger import USABLE, require_record
 
@@ -15,23 +15,61 @@ def _frame(con, sql: str, params: list):
     return con.execute(sql, params).fetchdf()
 
 
+#: Catalogue price and currency per record (the record's given or derived values).
+_PRICES = ("(SELECT record_id, max(value_num) FILTER (WHERE field = 'price') AS unit_price, "
+           "max(value_text) FILTER (WHERE field = 'currency') AS currency FROM record_values "
+           "WHERE field IN ('price', 'currency') GROUP BY record_id)")
+
+
 def stock_list(con, location: str | None = None, record_id: str | None = None, include_empty: bool = False):
-    """Stock items with on hand, reserved and available quantities.
+    """Stock items with on hand, reserved and available quantities, and their value.
 
     ``location`` keeps the items whose location contains the text (ignoring case),
     so ``'Lab 2'`` lists every cabinet of Lab 2.  Items with nothing on hand are left
-    out unless ``include_empty``.
+    out unless ``include_empty``.  Faulty pieces are never available (``available``
+    is 0 for a faulty item, as for selection and ``low_stock``).  ``unit_price`` and
+    ``currency`` are the catalogue's; ``value`` is on hand × unit price, 0 for faulty
+    pieces (not valued), empty where the catalogue has no price.
     """
-    sql = ("SELECT record_id AS id, record_type, manufacturer, part_number, location, condition, on_hand, "
-           "reserved, available, serial_numbers, notes, last_movement FROM stock WHERE (? OR on_hand > 0)")
-    params: list = [bool(include_empty)]
+    sql = ("SELECT s.record_id AS id, record_type, manufacturer, part_number, location, condition, on_hand, "
+           "reserved, CAST(CASE WHEN condition IN (SELECT unnest(?)) THEN available ELSE 0 END AS INTEGER) "
+           "AS available, p.unit_price, p.currency, "
+           "CASE WHEN condition IN (SELECT unnest(?)) THEN on_hand * p.unit_price ELSE 0.0 END AS value, "
+           f"serial_numbers, notes, last_movement FROM stock s LEFT JOIN {_PRICES} p USING (record_id) "
+           "WHERE (? OR on_hand > 0)")
+    params: list = [list(USABLE), list(USABLE), bool(include_empty)]
     if location:
         sql += " AND contains(lower(location), lower(?))"
         params.append(" ".join(str(location).split()))
     if record_id:
-        sql += " AND record_id = ?"
+        sql += " AND s.record_id = ?"
         params.append(record_id)
     return _frame(con, sql + " ORDER BY location, id, condition", params)
+
+
+def stock_value(con, location: str | None = None):
+    """The value on hand at catalogue prices, per location and currency, with totals.
+
+    One row per location and currency (``location``, ``currency``, ``pieces``
+    valued, ``value``), then one ``total`` row per currency (``location`` empty,
+    ``scope`` = 'total').  Faulty pieces are not valued; pieces of a record without
+    a catalogue price are counted in ``unpriced`` (currency empty); a price without
+    a currency has currency empty too.  ``location`` filters as in :func:`stock_list`.
+    """
+    sql = (f"WITH s AS (SELECT s.location, s.on_hand, p.unit_price, p.currency FROM stock s "
+           f"LEFT JOIN {_PRICES} p USING (record_id) WHERE s.on_hand > 0 AND s.condition IN (SELECT unnest(?)) "
+           "AND (? IS NULL OR contains(lower(s.location), lower(?)))), "
+           "per AS (SELECT 'location' AS scope, location, currency, "
+           "CAST(sum(on_hand) FILTER (WHERE unit_price IS NOT NULL) AS INTEGER) AS pieces, "
+           "sum(on_hand * unit_price) AS value, "
+           "CAST(coalesce(sum(on_hand) FILTER (WHERE unit_price IS NULL), 0) AS INTEGER) AS unpriced "
+           "FROM s GROUP BY location, currency), "
+           "tot AS (SELECT 'total' AS scope, NULL AS location, currency, CAST(sum(pieces) AS INTEGER) AS pieces, "
+           "sum(value) AS value, CAST(sum(unpriced) AS INTEGER) AS unpriced FROM per GROUP BY currency) "
+           "SELECT * FROM (SELECT * FROM per UNION ALL SELECT * FROM tot) "
+           "ORDER BY scope = 'total', location, currency NULLS LAST")
+    loc = " ".join(str(location).split()) if location else None
+    return _frame(con, sql, [list(USABLE), loc, loc])
 
 
 def low_stock(con, location: str | None = None):

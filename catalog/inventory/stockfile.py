@@ -6,13 +6,17 @@ condition, serial numbers, notes, reorder level).  Files are read with the
 datasheet readers, every row is checked before anything is written, and a file
 with any problem is refused whole.
 
-``import_stock`` receives every row.  ``count_stock`` reconciles a counted shelf
+``import_stock`` receives every row; a file whose content was received before
+(the same bytes, under any name) is refused unless ``again=True``, naming the
+batch that received it (the content's SHA-256 is kept in the batch's note).
+``count_stock`` reconciles a counted shelf
 against the records: the differences come first, and ``apply=True`` writes them
 as ``adjust`` movements, computed again inside the write transaction.
 """
 from __future__ import annotations
 
-__all__ = ["StockFile", "parse_stock_files", "read_stock_files", "import_stock", "count_stock", "STOCK_FIELDS"]
+__all__ = ["StockFile", "parse_stock_files", "read_stock_files", "import_stock", "count_stock", "STOCK_FIELDS",
+           "content_prints", "earlier_receipts"]
 
 import difflib
 import re
@@ -216,6 +220,49 @@ def read_stock_files(con, paths, parsed=None) -> StockFile:
     return StockFile(frame, problems, [str(p) for p in paths])
 
 
+_PRINT = "content sha256:"
+
+
+def content_prints(paths) -> list[tuple[str, str]]:
+    """``(path, SHA-256 of the file's bytes)`` of each stock file that can be read (others are skipped)."""
+    import hashlib
+
+    out = []
+    for path in paths:
+        try:
+            with open(path, "rb") as fh:
+                out.append((str(path), hashlib.file_digest(fh, "sha256").hexdigest()))
+        except OSError:
+            continue  # the reader reports a file it cannot open
+    return out
+
+
+def _receipt_note(prints) -> str:
+    return "; ".join(f"{_PRINT}{digest} {path}" for path, digest in prints)
+
+
+def earlier_receipts(con, prints) -> list[Problem]:
+    """One problem per stock file whose content a stock import received before (or twice in ``prints``)."""
+    problems, seen = [], {}
+    for path, digest in prints:
+        if digest in seen:
+            problems.append(Problem(path, None, None, f"the same content as {seen[digest]} in this import, "
+                                                      "expected each shelf once"))
+            continue
+        seen[digest] = path
+        hit = con.execute(
+            "SELECT batch_id, started_at, files, user_name FROM batches WHERE kind = 'stock-import' "
+            "AND contains(note, ?) ORDER BY batch_id LIMIT 1", [_PRINT + digest]).fetchall()
+        if hit:
+            batch, at, files, user = hit[0]
+            when = at.strftime("%Y-%m-%d %H:%M") if at is not None else "?"
+            by = f" by {user}" if user else ""
+            problems.append(Problem(path, None, None,
+                                    f"already received in batch {batch} on {when}{by} (as {files}); "
+                                    "nothing received twice: pass --again to receive the same content again"))
+    return problems
+
+
 def _refuse(checked: StockFile, store, verb: str):
     n = len(checked.problems)
     raise ImportRejected(f"{n} problem(s); nothing was {verb}, {store.path} is unchanged", checked.problems)
@@ -239,18 +286,22 @@ def _ensure_items(con, batch, frame):
     return {(r, loc, c): (item, stored) for r, loc, c, item, stored in rows}
 
 
-def import_stock(store, paths, person=None, reason=None, at=None):
+def import_stock(store, paths, person=None, reason=None, at=None, again: bool = False):
     """Receive every row of the stock files in one transaction; returns (rows received, pieces, batch id).
 
     ``at`` (a datetime, default now) dates the receive movements, e.g. for a shelf
-    recorded after the fact.
+    recorded after the fact.  A file whose content an earlier stock import received
+    is refused (naming that batch) unless ``again``.
     """
     import pandas as pd
 
     parsed = parse_stock_files(paths)  # before any lock: under it only the records are looked up
+    prints = content_prints(paths)
 
     def checked_rows(con):
         checked = read_stock_files(con, paths, parsed)
+        if not again:
+            checked.problems.extend(earlier_receipts(con, prints))
         for r in checked.rows[checked.rows["quantity"] == 0].itertuples(index=False):
             checked.problems.append(Problem(r.source, r.row, "quantity",
                                             "0 pieces, expected at least 1 to receive (a count file may list 0)"))
@@ -264,7 +315,7 @@ def import_stock(store, paths, person=None, reason=None, at=None):
     with store.write() as con:
         checked = checked_rows(con)
         frame = checked.rows
-        batch = store.new_batch(con, "stock-import", files=", ".join(checked.sources))
+        batch = store.new_batch(con, "stock-import", files=", ".join(checked.sources), note=_receipt_note(prints))
         items = _ensure_items(con, batch, frame)
         moves, attrs, levels = [], [], []
         for r in frame.itertuples(index=False):

@@ -99,6 +99,15 @@ def _stages(ratio: np.ndarray) -> np.ndarray:
     return np.maximum(1, np.ceil(np.log(ratio) / np.log(7.0) - 1e-9))
 
 
+def _each_mount(gears):
+    """One row per mount a gearhead lists (``'F22; F28'`` fits motors of F22 and of F28)."""
+    from ..fields import split_list
+
+    codes = gears["mount"].map(split_list)
+    out = gears.assign(mount=codes).explode("mount").dropna(subset=["mount"])
+    return out.drop_duplicates(["o", "mount"]).astype({"o": np.intp})
+
+
 def _text(frame, name) -> np.ndarray:
     return _col(frame, name, object).fillna("").astype(str).to_numpy(dtype=object)
 
@@ -284,7 +293,7 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
     cat_rows = np.flatnonzero(kind == GEAR_CATALOGUE)
     if len(cat_rows) and n_motor:
         left = pd.DataFrame({"m": motor_rows, "mount": mv["mount"]})
-        right = pd.DataFrame({"o": cat_rows, "mount": options["mount"][cat_rows]})
+        right = _each_mount(pd.DataFrame({"o": cat_rows, "mount": options["mount"][cat_rows]}))
         both = left[left["mount"] != ""].merge(right[right["mount"] != ""], on="mount").sort_values(
             ["m", "o"], kind="stable")
         pairs.append((both["m"].to_numpy(dtype=np.intp), both["o"].to_numpy(dtype=np.intp)))

@@ -51,13 +51,16 @@ __all__ = [
     "parse_quantity",
     "to_display",
     "display_unit",
+    "preset_name",
+    "choose_label",
+    "PRESET_ALIASES",
     "normalise_spelling",
     "spelling_table_markdown",
 ]
 
 from .atoms import spelling_table_markdown
-from .dimensions import DIMENSIONS, PRESETS, Dimension, dimension_noun, get_dimension
-from .display import display_unit, to_display
+from .dimensions import DIMENSIONS, PRESET_ALIASES, PRESETS, Dimension, dimension_noun, get_dimension
+from .display import choose_label, display_unit, preset_name, to_display
 from .errors import NumberError, UnitError
 from .registry import get_registry
 from .spelling import Conversion, normalise_spelling, parse_unit

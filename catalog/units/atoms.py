@@ -107,6 +107,8 @@ _TABLE: list[tuple[tuple[str, ...], tuple[Meaning, ...], str, bool, str]] = [
     (("µs", "us"), (_m("us", "microsecond"),), "time", False, ""),
     (("min", "mins"), (_m("min", "minute"),), "minute", False, "minute, never m·in"),
     (("h", "hr", "hrs"), (_m("h", "hour"),), "minute", False, ""),
+    (("d", "day", "days"), (_m("d", "day"),), "minute", False, "lead times"),
+    (("wk", "week", "weeks"), (_m("wk", "week"),), "minute", False, "lead times"),
     (("Hz",), (_m("Hz", "hertz"),), "hz", False, "ambiguous in speed fields"),
     # --- angle and angular speed -----------------------------------------
     (("rad",), (_m("rad", "radian"),), "angle", True, ""),

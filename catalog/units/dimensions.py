@@ -5,19 +5,26 @@ example for messages, the angle powers it allows (rad is dimensionless to pint, 
 we count angles ourselves) and its display units per preset:
 
 ``si``         the SI unit
-``datasheet``  what datasheets print (mN·m, rpm, g·cm², °C ...)
+``metric``     the metric units datasheets print (mN·m, rpm, g·cm², °C ...); the
+               name ``datasheet`` is still read as ``metric`` (:data:`PRESET_ALIASES`)
 ``imperial``   oz·in, oz·in², lb, in, °F ...
 
-A preset entry with several labels is chosen "as fits" by :func:`~catalog.units.to_display`.
+A preset entry with several labels lists the habitual unit first and the others it
+may switch to; :func:`~catalog.units.to_display` chooses by magnitude (a load inertia
+of 0.347 kg·m² is shown as 3470 kg·cm², not 3,470,000 g·cm²).
 Every label is itself a spelling :func:`~catalog.units.parse_unit` reads.
 """
 from __future__ import annotations
 
-__all__ = ["Dimension", "DIMENSIONS", "PRESETS", "dimension_noun", "get_dimension"]
+__all__ = ["Dimension", "DIMENSIONS", "PRESETS", "PRESET_ALIASES", "dimension_noun", "get_dimension"]
 
 from dataclasses import dataclass, field
 
-PRESETS = ("si", "datasheet", "imperial")
+PRESETS = ("si", "metric", "imperial")
+#: Older preset names still accepted → the preset they mean.  ``datasheet`` was the
+#: metric preset's first name; it never meant "the units each supplier used" (those
+#: are kept per value as ``raw_unit`` and shown by ``show`` and the provenance sheet).
+PRESET_ALIASES = {"datasheet": "metric"}
 
 
 @dataclass(frozen=True)
@@ -50,11 +57,11 @@ class Dimension:
         return f"{self.noun} such as {self.example}"
 
 
-def _d(name, si_unit, pint_si, noun, example, si, datasheet, imperial, **kw) -> Dimension:
+def _d(name, si_unit, pint_si, noun, example, si, metric, imperial, **kw) -> Dimension:
     def tup(x):
         return x if isinstance(x, tuple) else (x,)
 
-    display = {"si": tup(si), "datasheet": tup(datasheet), "imperial": tup(imperial)}
+    display = {"si": tup(si), "metric": tup(metric), "imperial": tup(imperial)}
     if "angles" in kw:
         kw["angles"] = frozenset(kw["angles"])
     return Dimension(name, si_unit, pint_si, noun, example, display, **kw)
@@ -63,28 +70,28 @@ def _d(name, si_unit, pint_si, noun, example, si, datasheet, imperial, **kw) -> 
 _SPEED = dict(angles={1}, speed_like=True)
 
 _ALL = [
-    _d("torque", "N*m", "newton * meter", "a torque", "mN*m or oz-in", "N·m", "mN·m", "oz·in"),
+    _d("torque", "N*m", "newton * meter", "a torque", "mN*m or oz-in", "N·m", ("mN·m", "N·m"), ("oz·in", "lbf·in", "lbf·ft")),
     _d("angular_speed", "rad/s", "radian / second", "a speed", "rpm or rad/s",
        "rad/s", "rpm", "rpm", **_SPEED),
     _d("current", "A", "ampere", "a current", "A or mA", "A", "A", "A"),
     _d("voltage", "V", "volt", "a voltage", "V or mV", "V", "V", "V"),
     _d("resistance", "ohm", "ohm", "a resistance", "ohm or mOhm", "Ω", "Ω", "Ω"),
-    _d("inductance", "H", "henry", "an inductance", "mH or uH", "H", "mH", "mH"),
+    _d("inductance", "H", "henry", "an inductance", "mH or uH", "H", ("mH", "µH"), ("mH", "µH")),
     _d("inertia", "kg*m**2", "kilogram * meter ** 2", "an inertia", "g*cm**2 or oz-in**2",
-       "kg·m²", "g·cm²", "oz·in²"),
-    _d("mass", "kg", "kilogram", "a mass", "g or oz", "kg", "g", "lb"),
-    _d("length", "m", "meter", "a length", "mm or in", "m", "mm", "in"),
-    _d("time", "s", "second", "a time", "s or ms", "s", ("s", "ms"), "s"),
+       "kg·m²", ("g·cm²", "kg·cm²", "kg·m²"), ("oz·in²", "lb·in²", "lb·ft²")),
+    _d("mass", "kg", "kilogram", "a mass", "g or oz", "kg", ("g", "kg"), ("lb", "oz")),
+    _d("length", "m", "meter", "a length", "mm or in", "m", ("mm", "m"), "in"),
+    _d("time", "s", "second", "a time", "s or ms", "s", ("s", "ms", "min"), ("s", "ms", "min")),
     _d("temperature", "K", "kelvin", "a temperature", "°C or K", "K", "°C", "°F",
        absolute_temperature=True, temperature_family=True),
     _d("temperature_difference", "K", "kelvin", "a temperature difference", "K or °C",
        "K", "K", "°F", temperature_family=True),
     _d("thermal_resistance", "K/W", "kelvin / watt", "a thermal resistance", "K/W or °C/W",
        "K/W", "K/W", "°F/W", temperature_family=True),
-    _d("power", "W", "watt", "a power", "W or mW", "W", "W", "W"),
+    _d("power", "W", "watt", "a power", "W or mW", "W", ("W", "kW"), ("W", "kW")),
     _d("energy", "J", "joule", "an energy", "J or mJ", "J", "J", "J"),
     _d("torque_constant", "N*m/A", "newton * meter / ampere", "a torque constant",
-       "mN*m/A, oz-in/A or V/krpm", "N·m/A", "mN·m/A", "oz·in/A",
+       "mN*m/A, oz-in/A or V/krpm", "N·m/A", ("mN·m/A", "N·m/A"), "oz·in/A",
        angles={0, -1}, back_emf=True),
     _d("speed_constant", "(rad/s)/V", "radian / second / volt", "a speed constant",
        "rpm/V or (rad/s)/V", "(rad/s)/V", "rpm/V", "rpm/V", **_SPEED),

@@ -6,7 +6,8 @@ what was found and what was expected; the parts are kept as attributes:
 
 ``text``      the cell or spelling as written (``'12 N*m'``)
 ``unit``      the unit spelling alone (``'N*m'``), for "unknown unit" messages
-``kind``      ``unknown``, ``dimension``, ``ambiguous``, ``missing``, ``syntax`` or ``number``
+``kind``      ``unknown``, ``dimension``, ``ambiguous``, ``missing``, ``syntax``, ``number``
+              or ``date`` (a date where a number belongs)
 ``found``     what the text reads as (``'a torque'``), if anything
 ``expected``  what the field wants (``'a speed'`` or ``'a speed such as rpm or rad/s'``)
 ``hint``      how to fix it, or None
@@ -61,6 +62,8 @@ class UnitError(MotorshelfError, ValueError):
             msg = f"no unit given, expected {self.expected}"
         elif k == "syntax":
             msg = f"cannot read unit {_quoted(self.unit)} ({self.found}), expected {self.expected}"
+        elif k == "date":
+            msg = f"'{self.text}' is a date, expected {self.expected}"
         else:  # number
             msg = f"{self.found} in {_quoted(self.text)}"
         return f"{msg}: {self.hint}" if self.hint else msg

@@ -271,6 +271,55 @@ def _named_dimensions():
             if not d.unitless_only]
 
 
+#: Quantities outside the schema's dimensions that a datasheet unit may still be, by pint
+#: spelling, so that a message says what was written in words ("a thermal conductance").
+_OTHER_QUANTITIES = (
+    ("watt / kelvin", "a thermal conductance (the reciprocal of a thermal resistance)"),
+    ("newton", "a force"), ("meter ** 2", "an area"), ("meter ** 3", "a volume"),
+    ("meter / second", "a linear speed"), ("meter / second ** 2", "an acceleration"),
+    ("pascal", "a pressure"), ("coulomb", "an electric charge"), ("farad", "a capacitance"),
+    ("siemens", "an electric conductance (the reciprocal of a resistance)"), ("weber", "a magnetic flux"),
+    ("tesla", "a magnetic flux density"), ("kilogram / meter ** 3", "a density"),
+    ("newton * meter * second", "an angular momentum"),
+    ("watt / meter / kelvin", "a thermal conductivity"), ("joule / kelvin", "a heat capacity"),
+)
+#: Words for pint's base dimensions.
+_BASE_WORDS = {"[mass]": "mass", "[length]": "length", "[time]": "time", "[current]": "current",
+               "[temperature]": "temperature", "[substance]": "amount of substance",
+               "[luminosity]": "luminous intensity"}
+
+
+@lru_cache(maxsize=None)
+def _other_quantities():
+    return [(quantity(spelling).dimensionality, noun) for spelling, noun in _OTHER_QUANTITIES]
+
+
+def _dimension_words(dimensionality) -> str:
+    """``[mass] * [length] ** 2 / [time] ** 3`` in words: ``mass × length² / time³``."""
+    sup = str.maketrans("0123456789-.", "⁰¹²³⁴⁵⁶⁷⁸⁹⁻·")
+
+    def part(items):
+        return " × ".join(_BASE_WORDS.get(k, k.strip("[]")) + ("" if e == 1 else f"{_pe(Fraction(e))}".translate(sup))
+                          for k, e in items) or "1"
+    items = sorted(dict(dimensionality).items())
+    num = [(k, e) for k, e in items if e > 0]
+    den = [(k, -e) for k, e in items if e < 0]
+    text = part(num) + (f" / {part(den)}" if len(den) == 1 else f" / ({part(den)})" if den else "")
+    return f"a quantity of {text}"
+
+
+def _unnamed_noun(q) -> tuple[bool, str]:
+    """(known quantity?, words) for a unit of none of the schema's dimensions."""
+    dims = q.dimensionality
+    for dd, noun in _other_quantities():
+        if dd == dims:
+            return True, noun
+    for d, dd in _named_dimensions():
+        if dd == 1 / dims:
+            return True, f"the reciprocal of {d.noun}"
+    return False, _dimension_words(dims)
+
+
 def _found_noun(q, angle, energy: bool) -> str | None:
     same = [d for d, dd in _named_dimensions() if dd == q.dimensionality]
     if not same:
@@ -339,7 +388,11 @@ def _interpret_product(factors, dim: Dimension, original: str, found: list) -> l
             out.append((float(q.to(target.units).magnitude) * mag, 0.0, _render(items)))
         else:
             noun = _found_noun(q, angle + extra, energy)
-            found.append((noun is not None, noun or f"{_render(items)} of dimension {q.dimensionality}"))
+            if noun is not None:
+                found.append((2, noun))
+            else:
+                known, words = _unnamed_noun(q)
+                found.append((1 if known else 0, words))
     return out
 
 
@@ -369,9 +422,12 @@ def _interpret(spelling: str, dim: Dimension) -> Conversion:
     if not cands:
         if errors:
             raise errors[0]
-        named = [text for ok, text in found if ok]
-        nouns = list(dict.fromkeys(named or [text for _, text in found]))
-        raise UnitError(original, kind="dimension", expected=dim.noun, found=" or ".join(nouns[:2]))
+        best = max((rank for rank, _ in found), default=0)   # the schema's nouns, else other quantities, else words
+        nouns = list(dict.fromkeys(text for rank, text in found if rank == best))
+        ours = {d.noun for d in DIMENSIONS.values()}
+        hint = None if any(n.split(" per ")[0].split(" times ")[0] in ours for n in nouns[:2]) else \
+            f"{dim.noun} is {dim.example.replace('*', '·')}"
+        raise UnitError(original, kind="dimension", expected=dim.noun, found=" or ".join(nouns[:2]), hint=hint)
     distinct: list = []
     for c in cands:
         if not any(math.isclose(c[0], d[0], rel_tol=1e-12) and math.isclose(c[1], d[1], abs_tol=1e-9)

@@ -93,6 +93,22 @@ def parse_number(text) -> float | None:
     raise NumberError(s, found="no number", hint="expected a number such as 12.5")
 
 
+#: A calendar date (and time) as a spreadsheet or a reader writes it: 2024-05-01, 2024-05-01 12:00:00.
+_DATE = re.compile(r"\s*\d{4}-\d{1,2}-\d{1,2}(?:[ T]\d{1,2}:\d{2}(?::\d{2}(?:\.\d+)?)?)?\s*")
+
+
+def date_error(text, expected: str = "a number with its unit") -> UnitError | None:
+    """The error for a date written where a number belongs (``'2024-05-01'``), else None.
+
+    A spreadsheet cell formatted as a date holds a date, whatever was typed into it.
+    """
+    if isinstance(text, str) and _DATE.fullmatch(text):
+        return UnitError(text.strip(), kind="date", expected=expected,
+                         hint="a spreadsheet may have turned the cell into a date; format the column as "
+                              "numbers or text and type the value again")
+    return None
+
+
 def split_value_unit(text) -> tuple[float | None, str | None]:
     """``'12.5 oz-in'`` -> ``(12.5, 'oz-in')``; ``'12 V-V'`` -> ``(12.0, 'V-V')``.
 
@@ -106,6 +122,8 @@ def split_value_unit(text) -> tuple[float | None, str | None]:
     s = str(text).translate(_MINUS).strip()
     if not s:
         return None, None
+    if (dated := date_error(s)) is not None:
+        raise dated
     m = _NUMBER.match(s)
     if not m:
         first = s.split()[0]
@@ -329,6 +347,10 @@ def parse_cells(texts: Sequence, dimension, default_unit: str | None = None, col
     spellings = list(index)
     si, errs, warnings = _convert(nums, codes, spellings, dimension, default_unit, shown)
     errors = sorted(errors + errs, key=lambda t: t[0])
+    if errors:   # a date (read as '2024' and the unit '-05-01', or refused whole) is said to be a date
+        expected = get_dimension(dimension).expected
+        errors = [(i, str(d)) if (d := date_error(texts[i], expected)) is not None else (i, m)
+                  for i, m in errors]
     written = np.array([*spellings, _key(default_unit)], dtype=object)  # last: the default
     used = written[np.where(codes < 0, len(spellings), codes)]
     used[np.isnan(nums)] = None

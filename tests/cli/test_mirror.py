@@ -174,5 +174,5 @@ def test_list_is_the_table_the_command_prints(cat):
 
     with pytest.raises(InputError, match="kind: 'motor' is not motors or gearheads"):
         cat.list("motor")
-    with pytest.raises(InputError, match="units: 'metric' is not a units preset"):
-        cat.list("motors", units="metric")
+    with pytest.raises(InputError, match="units: 'furlongs' is not a units preset"):
+        cat.list("motors", units="furlongs")

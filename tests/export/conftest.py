@@ -1,6 +1,6 @@
 """Fixtures of the export tests: the demo catalogue, its selections, and the real programs.
 
-A real program (LibreOffice, Chromium) that is missing skips its test on a developer's
+A real program (LibreOffice, Chromium, poppler's pdftotext) that is missing skips its test on a developer's
 machine and fails it in CI (``CI=true``), where ``.ci/run`` installs it.
 """
 from __future__ import annotations
@@ -21,7 +21,7 @@ def need_program(*names: str) -> str:
         path = shutil.which(name)
         if path:
             return path
-    message = f"{' / '.join(names)} is not installed (apt-get install libreoffice-calc chromium)"
+    message = f"{' / '.join(names)} is not installed (apt-get install libreoffice-calc chromium poppler-utils)"
     if os.environ.get("CI", "").lower() == "true":
         pytest.fail(message + "; CI must have it")
     pytest.skip(message)

@@ -153,3 +153,100 @@ def test_comparison_and_files(wheel, demo_cat, tmp_path):
             assert im.size[0] > 800 and im.size[1] > 500
     svg = save_figure(plot_comparison([]), tmp_path / "empty.svg").read_text(encoding="utf-8")
     assert svg.lstrip().startswith("<?xml") and "<svg" in svg
+
+
+# -- what a person sees: axes, titles, labels -----------------------------------------------------
+def texts_of(fig):
+    return [t for ax in fig.axes for t in ax.texts]
+
+
+def no_overlaps(fig):
+    """Every point label inside the figure and clear of every other label (in drawn pixels)."""
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+    canvas = FigureCanvasAgg(fig)
+    canvas.draw()
+    renderer = canvas.get_renderer()
+    boxes = [t.get_window_extent(renderer) for t in fig.axes[0].texts if t.get_text()
+             and hasattr(t, "xyann")]
+    fw, fh = fig.bbox.width, fig.bbox.height
+    for b in boxes:
+        assert b.x0 >= 0 and b.y0 >= 0 and b.x1 <= fw and b.y1 <= fh
+    for i, a in enumerate(boxes):
+        for b in boxes[i + 1:]:
+            assert not a.overlaps(b), (a, b)
+    return len(boxes)
+
+
+@pytest.mark.parametrize("envelope", ["drive_wheel", "lift_axis", "camera_pan", "water_pump"])
+@pytest.mark.parametrize("side", ["motor", "load"])
+def test_demo_diagrams_scale_to_the_points(demo_cat, envelope, side):
+    from catalog.export.detail import candidate_detail
+    from catalog.export.figures import candidate_figure
+    from tests.export.conftest import QUERIES
+
+    sel = demo_cat.select(QUERIES / f"{envelope}.toml")
+    cid = sel.shortlist["candidate"].iloc[0]
+    fig = candidate_figure(sel, cid, demo_cat, side=side)
+    ax = fig.axes[0]
+    got = lines_of(fig)
+    x0, x1 = ax.get_xlim()
+    _, y1 = ax.get_ylim()
+    seg = np.vstack([got[g].get_xydata() for g in got if g.startswith("segment-") and g.count("-") == 1])
+    # every operating point inside the axes, and they fill a good part of them
+    assert seg[:, 0].min() >= x0 and seg[:, 0].max() <= x1 and seg[:, 1].max() <= y1
+    assert (seg[:, 0].max() - min(seg[:, 0].min(), 0.0)) >= 0.4 * (x1 - x0)
+    assert seg[:, 1].max() >= 0.3 * y1
+    # the hot line is inside the axes above every point (the voltage margin can be seen)
+    hx, hy = got["hot"].get_data()
+    order = np.argsort(hx)
+    above = np.interp(seg[:, 0], np.asarray(hx)[order], np.asarray(hy)[order])
+    assert np.all(above <= y1) and np.all(above >= seg[:, 1] - 1e-9)
+    # a limit beyond the axes is named in the legend, not drawn squeezed
+    labels = {ln.get_gid(): ln.get_label() for ln in ax.get_lines() if ln.get_gid()}
+    for gid in ("peak", "thermal"):
+        if gid in got and got[gid].get_xdata()[0] > x1:
+            assert "(off the chart" in labels[gid]
+    d = candidate_detail(sel, cid, demo_cat)
+    stall_x = crossing(got["hot"])[0]
+    if stall_x > x1:
+        assert "(off the chart)" in labels["hot"]
+    # the title states the side and the corner
+    title = ax.get_title(loc="left")
+    geared = d.model.ratio != 1 or d.model.efficiency != 1
+    side_words = "gear output" if side == "load" and geared else "motor shaft"
+    assert side_words in title.splitlines()[1] and "hot, worst-case supply" in title
+    # back-driven points explained in the legend exactly when there are some
+    back = any(got[g].get_xdata()[-1] < 0 for g in got if g.startswith("segment-") and g.count("-") == 1)
+    legend = " ".join(t.get_text() for t in fig.legends[0].get_texts())
+    assert ("back-driven" in legend) == back
+    assert no_overlaps(fig) >= 1
+
+
+def test_units_by_magnitude_and_stall_region_only_where_it_fits(record):
+    model = MotorModel.from_record(record)
+    model.ratio, model.efficiency = 400.0, 0.7
+    cond = Conditions(voltage=24.0, nominal_voltage=24.0, winding_temperature=350.0)
+    # 0.1 N·m on the motor shaft through 400:1 at 70 %: 28 N·m at the output, not 28 000 mN·m
+    fig = plot_speed_torque(model, cond, [OperatingPoint("lift", 0.1, 300.0)], units="metric", side="load")
+    assert fig.axes[0].get_xlabel().endswith("[N·m]")
+    x = lines_of(fig)["segment-0"].get_xdata()[0]
+    assert x == pytest.approx(0.1 * 400 * 0.7)
+    # the point at 0.1 N·m of a motor stalling at ~0.55 N·m: the stall lies outside the axes
+    x1 = fig.axes[0].get_xlim()[1]
+    assert crossing(lines_of(fig)["hot"])[0] > x1 and x1 < 3 * x
+    near = plot_speed_torque(model, cond, [OperatingPoint("lift", 0.4, 30.0)], units="metric", side="motor")
+    assert crossing(lines_of(near)["hot"])[0] < near.axes[0].get_xlim()[1]      # close enough: shown
+
+
+def test_points_on_one_spot_share_one_label(record):
+    model = MotorModel.from_record(record)
+    cond = Conditions(voltage=24.0, nominal_voltage=24.0, winding_temperature=350.0)
+    pts = [OperatingPoint("glide left", 0.1, 200.0), OperatingPoint("glide right", 0.1, 200.0),
+           OperatingPoint("brake", -0.05, 100.0)]
+    fig = plot_speed_torque(model, cond, pts, units="si")
+    names = [t.get_text() for t in texts_of(fig) if hasattr(t, "xyann")]
+    assert "glide left / glide right" in names and "brake" in names
+    legend = [t.get_text() for t in fig.legends[0].get_texts()]
+    assert any(t.startswith("back-driven (▽): the load drives the motor") for t in legend)
+    assert no_overlaps(fig) == 2

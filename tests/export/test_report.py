@@ -60,7 +60,8 @@ def test_chromium_renders_the_page(report, wheel, need, tmp_path):
     dom = r.stdout
     assert "Motor selection: drive_wheel" in dom
     short = re.search(r'<section id="shortlist".*?</section>', dom, re.S).group(0)
-    rows = re.findall(r"<tr>", short.split("<tbody>", 1)[1])
+    screen = short.split('<div class="print-only">')[0]      # the table on screen (print has it in parts)
+    rows = re.findall(r"<tr>", screen.split("<tbody>", 1)[1])
     assert len(rows) == len(wheel.shortlist)
     for cid in wheel.shortlist["candidate"]:
         assert cid in short
@@ -70,6 +71,75 @@ def test_chromium_renders_the_page(report, wheel, need, tmp_path):
     assert re.search(r'<figure id="plot-compare".*?<svg', dom, re.S)
     for key in wheel.reason_counts().index:
         assert f'id="reason-{key}"' in dom
+
+
+def _words(pdf: Path, need) -> list:
+    """Pages of ``pdf`` as (width, height, [(x0, y0, x1, y1, word)]) by ``pdftotext -bbox``."""
+    import html as _html
+
+    exe = need("pdftotext")
+    out = subprocess.run([exe, "-bbox", str(pdf), "-"], capture_output=True, text=True, check=True).stdout
+    pages = []
+    for m in re.finditer(r'<page width="([\d.]+)" height="([\d.]+)">(.*?)</page>', out, re.S):
+        words = [(float(a), float(b), float(c), float(d), _html.unescape(w)) for a, b, c, d, w in re.findall(
+            r'<word xMin="([\d.]+)" yMin="([\d.]+)" xMax="([\d.]+)" yMax="([\d.]+)">(.*?)</word>', m.group(3))]
+        pages.append((float(m.group(1)), float(m.group(2)), words))
+    return pages
+
+
+def _printed_whole(header_words, pages) -> bool:
+    """True when the words of one header are printed together on a page: each next word on the
+    same line just right of the last, or on the next line below it (a header wrapped in its cell)."""
+    for width, height, words in pages:
+        starts = [w for w in words if w[4] == header_words[0]]
+        for first in starts:
+            chain, ok = first, True
+            for nxt in header_words[1:]:
+                h = chain[3] - chain[1]
+                cand = [w for w in words if w[4] == nxt and (
+                    (abs(w[1] - chain[1]) < 0.5 * h and 0 <= w[0] - chain[2] < 2.5 * h) or
+                    (0 < w[1] - chain[1] < 2.2 * h and w[0] < chain[2] + 2 * h and w[2] > chain[0] - 2 * h))]
+                if not cand:
+                    ok = False
+                    break
+                chain = cand[0]
+            if ok and chain[2] <= width and first[0] >= 0:
+                return True
+    return False
+
+
+@pytest.mark.parametrize("envelope", ["drive_wheel", "lift_axis"])
+def test_prints_whole_on_a4_landscape(demo_cat, need, tmp_path, envelope):
+    """Chromium's A4 print: every column header and every candidate of the shortlist is on paper."""
+    from catalog.export.report import REPORT_COLUMNS, render_report
+    from catalog.export.selection import selection_tables
+
+    sel = demo_cat.select(QUERIES / f"{envelope}.toml")
+    html_path = tmp_path / f"{envelope}.html"
+    html_path.write_text(render_report(sel, catalog=demo_cat), encoding="utf-8")
+    pdf = tmp_path / f"{envelope}.pdf"
+    r = chromium(need, tmp_path, "--no-pdf-header-footer", f"--print-to-pdf={pdf}", html_path.as_uri(), name="pdf")
+    assert pdf.exists(), r.stderr[-2000:]
+    pages = _words(pdf, need)
+    assert pages and all(w > h for w, h, _ in pages)              # landscape pages
+    assert all(abs(w - 841.9) < 2 and abs(h - 595.0) < 2 for w, h, _ in pages)   # A4: 297 × 210 mm
+    for width, _, words in pages:                                  # nothing runs off the right edge
+        assert all(x1 <= width + 0.5 for _, _, x1, _, _ in words)
+    short = {t.name: t for t in selection_tables(sel, "metric", demo_cat)}["shortlist"]
+    shown = [c for c in short.columns if c.name in REPORT_COLUMNS or c.name.startswith("price_")]
+    assert len(shown) >= 17
+    for c in shown:
+        words = (c.title or c.name).replace("_", " ").split() + ([f"[{c.unit}]"] if c.is_numeric and
+                                                                   c.unit != "1" else [])
+        assert _printed_whole(words, pages), f"column header {' '.join(words)!r} is not printed whole"
+    text = " ".join(w[4] for _, _, words in pages for w in words)
+    n_parts = max(1, len(re.findall(r"part \d+ of (\d+)", text)) and int(re.findall(r"part \d+ of (\d+)",
+                                                                                      text)[0]))
+    for cid in sel.shortlist["candidate"]:
+        # in every part of the shortlist, and in its diagram's title
+        assert text.count(cid) >= n_parts + 1, cid
+    # what the browser cut off before: the columns after the winding temperature
+    assert _printed_whole(["energy", "per", "cycle", "[J]"], pages)
 
 
 def _page_requests(netlog: Path) -> list[str]:

@@ -52,12 +52,107 @@ def test_neutralise():
     assert set(FORMULA_PREFIXES) >= {"=", "+", "-", "@"}
 
 
-def test_number_format():
-    assert number_format([1, 2], integer=True) == "0"
-    assert number_format([12.5, 350.0]) == "0.0"
-    assert number_format([0.0125, 0.02]) == "0.00000"
-    assert number_format([1e-5]) == "0.000E+00"
-    assert number_format([None]) == "0.###"
+@pytest.mark.parametrize("value, digits, fmt", [
+    (0.5, 3, "0.000"),          # a drive drop of 0.5 V shows 0.500, never 1
+    (0.45, 3, "0.000"),         # 0.45 mH shows 0.450, never 0
+    (7.33, 3, "0.00"),          # 7.33 mV/rpm, never 7
+    (0.00045, 3, "0.000000"),   # 0.00045 H in SI: 0.000450
+    (350.0, 3, "0"),
+    (3470.0, 3, "0"),           # a whole number shows all its digits
+    (12.5, 3, "0.0"),
+    (0.4500, 4, "0.0000"),      # four where the datasheet gave four
+    (9.996, 3, "0.0"),          # rounds up to 10.0: the decimals of the rounded value
+    (-0.0125, 3, "0.0000"),
+    (1e-5, 3, "0.00E+00"),
+    (2.5e9, 4, "0.000E+00"),
+    (0.0, 3, "0"),
+    (None, 3, "0"),
+])
+def test_number_format_keeps_significant_digits(value, digits, fmt):
+    assert number_format(value, digits) == fmt
+    if value:
+        shown = _excel_fixed(value, fmt)
+        assert shown == pytest.approx(value, rel=0.51 * 10 ** (1 - digits))
+
+
+def _excel_fixed(value, fmt):
+    """What a spreadsheet shows for ``value`` in ``fmt`` (fixed or scientific), read back as a number."""
+    if "E" in fmt:
+        return float(f"{value:.{len(fmt.split('.')[1].split('E')[0])}e}")
+    return float(f"{value:.{len(fmt.split('.')[1]) if '.' in fmt else 0}f}")
+
+
+def test_number_format_integer():
+    assert number_format(4, integer=True) == "0"
+
+
+@pytest.mark.parametrize("text, n", [("0.4500 mH", 4), ("7.33", 3), ("0.00045", 2), ("1200", 2),
+                                     ("1.20e3", 3), ("-3953 rpm", 4), (".5", 1), ("mH", None), (None, None)])
+def test_significant_digits_of_datasheet_text(text, n):
+    from catalog.export.columns import significant_digits
+
+    assert significant_digits(text) == n
+
+
+def test_given_digits_at_least_three():
+    from catalog.export.columns import given_digits
+
+    assert given_digits("0.5") == 3 and given_digits("8.002") == 4 and given_digits("3.14159265") == 6
+    assert given_digits(None) == 3
+
+
+def test_price_headed_by_its_currency():
+    import pandas as pd
+
+    one = table_from_frame(pd.DataFrame({"id": ["a", "b"], "price": [12.5, 3.0], "currency": ["EUR", "EUR"]}),
+                           "x", record_type="motor")
+    assert one.column("price").header == "price [EUR]"
+    mixed = table_from_frame(pd.DataFrame({"id": ["a", "b", "c"], "price": [12.5, 3.0, 7.0],
+                                           "currency": ["EUR", "USD", None]}), "x", record_type="motor")
+    heads = [c.header for c in mixed.columns]
+    assert heads == ["id", "price [EUR]", "price [USD]", "price [currency not given]", "currency"]
+    assert mixed.column("price_EUR").values == [12.5, None, None]
+    assert mixed.column("price_USD").values == [None, 3.0, None]
+    assert mixed.column("price_unknown").values == [None, None, 7.0]
+    assert mixed.units["price_USD"] == "USD"
+    assert all("[currency]" not in h for h in heads)
+
+
+def test_back_emf_si_unit_is_volt_second_per_radian():
+    import pandas as pd
+
+    df = pd.DataFrame({"id": ["a"], "back_emf_constant": [0.007], "torque_constant": [0.007]})
+    si = table_from_frame(df, "x", "si", record_type="motor")
+    assert si.column("back_emf_constant").header == "back_emf_constant [V·s/rad]"
+    assert si.column("torque_constant").header == "torque_constant [N·m/A]"
+    metric = table_from_frame(df, "x", "metric", record_type="motor")
+    assert metric.column("back_emf_constant").si_header == "back_emf_constant [V·s/rad]"
+    # 0.007 V·s/rad = 0.007 · 2π/60 V/rpm = 0.733 mV/rpm (1 rpm = 2π/60 rad/s, NIST SP 811 B.8)
+    assert metric.column("back_emf_constant").values[0] == pytest.approx(0.007 * 2 * 3.141592653589793 / 60 * 1e3)
+
+
+def test_units_by_magnitude_where_the_habit_makes_nonsense():
+    load_inertia = quantity_column("inertia", [0.347, 1e-4], "inertia", "metric")
+    # 0.347 kg·m² = 3 470 000 g·cm² = 3470 kg·cm² (1 kg·cm² = 1e-4 kg·m², NIST SP 811 B.8)
+    assert load_inertia.unit == "kg·cm²" and load_inertia.values == [3470.0, 1.0]
+    gear_out = quantity_column("torque", [400.0, 55.0], "torque", "metric")
+    assert gear_out.unit == "N·m" and gear_out.values == [400.0, 55.0]
+    rotor = quantity_column("rotor_inertia", [1.2e-6], "inertia", "metric")
+    assert rotor.unit == "g·cm²" and rotor.values == [12.0]
+    small = quantity_column("stall_torque", [0.35, 0.0125], "torque", "metric")
+    assert small.unit == "mN·m"
+    big_imperial = quantity_column("torque", [400.0], "torque", "imperial")
+    # 400 N·m / 0.112984829 N·m per lbf·in = 3540 lbf·in (1 lbf·in = 0.112984829 N·m, NIST SP 811 B.8)
+    assert big_imperial.unit == "lbf·in" and big_imperial.values[0] == pytest.approx(3540.3, rel=1e-4)
+
+
+def test_datasheet_is_the_older_name_of_metric():
+    from catalog.units import preset_name, to_display
+
+    assert preset_name("datasheet") == "metric"
+    assert to_display([0.35], "torque", "datasheet")[1] == to_display([0.35], "torque", "metric")[1] == "mN·m"
+    with pytest.raises(KeyError, match="unknown display preset"):
+        preset_name("supplier")
 
 
 def test_csv_is_rfc4180_utf8_numbers_plain(tmp_path):
@@ -114,7 +209,8 @@ def test_xlsx_cells_typed_text_safe(tmp_path):
     pn = ws["B3"]
     assert pn.value == "007210" and pn.data_type == "s" and pn.number_format == "@"
     num = ws["C2"]
-    assert num.value == 350.0 and num.data_type == "n" and num.number_format == "0.0"
+    assert num.value == 350.0 and num.data_type == "n" and num.number_format == "0"
+    assert ws["C3"].value == 12.5 and ws["C3"].number_format == "0.0"     # per cell, not per column
     assert ws["E3"].value == 4 and ws["E3"].number_format == "0"
     formula = ws["F2"]
     assert formula.value == "=1+2" and formula.data_type == "s" and formula.quotePrefix

@@ -263,3 +263,25 @@ def test_sql_cannot_touch_other_files(cat, write, tmp_path):
     other = write("other.csv", "a,b\n1,2\n")
     with pytest.raises(InputError):
         cat.sql(f"SELECT * FROM read_csv('{other}')")
+
+
+def test_an_excel_date_in_a_number_column_says_date(tmp_path):
+    """A cell a spreadsheet turned into a date is reported as a date, not as an unknown unit."""
+    import datetime
+
+    import openpyxl
+
+    import catalog
+
+    wb = openpyxl.Workbook()
+    ws = wb.active
+    ws.title = "motors"
+    ws.append(["manufacturer", "part_number", "nominal_voltage [V]", "stall_torque [mN*m]"])
+    ws.append(["Datecheck", "D-1", 12, datetime.datetime(2024, 5, 1)])
+    ws["D2"].number_format = "yyyy-mm-dd"
+    path = tmp_path / "dated.xlsx"
+    wb.save(path)
+    report = catalog.open(tmp_path / "c.duckdb").validate([path])
+    assert [str(p) for p in report.problems] == [
+        f"{path}[motors]:2:stall_torque: '2024-05-01' is a date, expected a torque such as mN*m or oz-in: a spreadsheet "
+        "may have turned the cell into a date; format the column as numbers or text and type the value again"]

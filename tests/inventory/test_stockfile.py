@@ -151,3 +151,113 @@ def test_the_demo_shelf_file_matches_the_schema(tmp_path):
     assert json.loads(json.dumps(schema))["properties"] == STOCK_FIELDS
     header = (ROOT / "sample_catalog/stock/shelf.csv").read_text(encoding="utf-8").splitlines()[0].split(",")
     assert set(header) <= set(STOCK_FIELDS)
+
+
+# -- the same file twice, faulty pieces, stock value ---------------------------------------------
+def test_the_same_content_twice_is_refused_unless_again(shelf, write, tmp_path):
+    from click.testing import CliRunner
+
+    from catalog.cli import cli
+
+    first = write("shelf.csv", SHELF)
+    _, _, batch = shelf.stock_import(first, person="Ola")
+    before = table_snapshot(shelf.path)
+    copy = tmp_path / "renamed-copy.csv"
+    copy.write_bytes(first.read_bytes())
+    for path in (first, copy):                     # by content, whatever the file is called
+        with pytest.raises(ImportRejected) as exc:
+            shelf.stock_import(path)
+        (problem,) = exc.value.problems
+        assert str(problem).startswith(f"{path}: already received in batch {batch} on ")
+        assert f"(as {first})" in str(problem) and "--again" in str(problem)
+    assert table_snapshot(shelf.path) == before    # nothing received twice
+    r = CliRunner().invoke(cli, ["--db", str(shelf.path), "stock", "import", str(copy)])
+    assert r.exit_code == 2 and "Traceback" not in r.output
+    assert f"error: {copy}: already received in batch {batch}" in r.output
+    assert table_snapshot(shelf.path) == before
+    r = CliRunner().invoke(cli, ["--db", str(shelf.path), "stock", "import", str(copy), "--again"])
+    assert r.exit_code == 0, r.output
+    assert stock(shelf)[(HEAVY, "Lab 2 / cabinet A", "new")] == 6     # received twice on purpose
+
+
+def test_the_same_content_twice_in_one_import(shelf, write, tmp_path):
+    one = write("a.csv", SHELF)
+    two = tmp_path / "b.csv"
+    two.write_bytes(one.read_bytes())
+    before = table_snapshot(shelf.path)
+    with pytest.raises(ImportRejected) as exc:
+        shelf.stock_import([one, two])
+    assert f"{two}: the same content as {one} in this import, expected each shelf once" in \
+        [str(p) for p in exc.value.problems]
+    assert table_snapshot(shelf.path) == before
+    assert shelf.stock_import(write("c.csv", SHELF.replace("Store room", "Store room 2")))[:2] == (3, 6)
+
+
+def test_faulty_pieces_are_never_available(shelf, write):
+    shelf.stock_import(write("s.yaml", f"""
+        - {{id: {HEAVY}, quantity: 2, location: Lab 1, condition: faulty}}
+        - {{id: {HEAVY}, quantity: 3, location: Lab 1, condition: used}}
+        """))
+    listed = {r.condition: (r.on_hand, r.available) for r in shelf.stock_list().itertuples()}
+    assert listed == {"faulty": (2, 0), "used": (3, 3)}
+    # the same answer as --low and selection give: 3 usable pieces
+    assert shelf.stock_available().set_index("record_id").loc[HEAVY, "available"] == 3
+
+
+MOTOR_PRICES = """\
+manufacturer,part_number,commutation,price,currency
+Shelf Test,HEAVY,brushed,120.50,EUR
+Shelf Test,LIGHT,brushed,80,USD
+"""
+GEAR_PRICES = """\
+manufacturer,part_number,ratio,price,currency
+Shelf Test,GH10,10,15.25,EUR
+"""
+
+
+def test_stock_value_per_location_and_in_total(shelf, write, tmp_path):
+    from click.testing import CliRunner
+
+    from catalog.cli import cli
+
+    shelf.import_([write("prices.csv", MOTOR_PRICES), write("gear-prices.csv", GEAR_PRICES)])
+    assert shelf.motors().set_index("id").loc[HEAVY, "mass"] == 0.5     # the other values stay
+    shelf.stock_import(write("s.yaml", f"""
+        - {{id: {HEAVY}, quantity: 2, location: Lab 1}}
+        - {{id: {HEAVY}, quantity: 1, location: Lab 1, condition: faulty}}
+        - {{id: {GEAR}, quantity: 4, location: Lab 1}}
+        - {{id: {LIGHT}, quantity: 3, location: Store}}
+        - {{id: {MID}, quantity: 5, location: Store}}
+        """))
+    items = shelf.stock_list().set_index(["id", "condition"])
+    assert items.loc[(HEAVY, "new"), "value"] == pytest.approx(241.0)
+    assert items.loc[(HEAVY, "faulty"), "value"] == 0.0          # faulty pieces are not valued
+    assert items.loc[(LIGHT, "new"), ["unit_price", "currency"]].tolist() == [80.0, "USD"]
+    v = shelf.stock_value()
+    per = {(r.location, r.currency): (r.pieces, r.value, r.unpriced)
+           for r in v[v["scope"] == "location"].itertuples() if r.currency == r.currency}
+    assert per == {("Lab 1", "EUR"): (6, pytest.approx(2 * 120.50 + 4 * 15.25), 0),
+                   ("Store", "USD"): (3, pytest.approx(240.0), 0)}
+    totals = v[v["scope"] == "total"]
+    assert dict(zip(totals["currency"].fillna("-"), totals["value"].fillna(0))) == {
+        "EUR": pytest.approx(302.0), "USD": pytest.approx(240.0), "-": 0}
+    assert int(totals["unpriced"].sum()) == 5                     # MID has no catalogue price
+    out = CliRunner().invoke(cli, ["--db", str(shelf.path), "stock", "list"]).output
+    assert "value on hand at catalogue prices (faulty pieces not valued):" in out
+    assert "  Lab 1  302.00 EUR" in out and "  Store  240.00 USD" in out
+    assert "  total  302.00 EUR + 240.00 USD" in out
+    assert "5 piece(s) without a catalogue price are not in these sums" in out
+    # the export: the items with their value, and the value per location and in total
+    import openpyxl
+
+    path = tmp_path / "stock.xlsx"
+    r = CliRunner().invoke(cli, ["--db", str(shelf.path), "export", "stock", "--out", str(path)])
+    assert r.exit_code == 0 and "5 stock items written" in r.output
+    wb = openpyxl.load_workbook(path)
+    assert wb.sheetnames == ["stock", "stock value", "about"]
+    head = [c.value for c in wb["stock"][1]]
+    assert {"value [EUR]", "value [USD]", "unit_price [EUR]", "available [1]", "currency"} <= set(head)
+    vrows = [dict(zip([c.value for c in wb["stock value"][1]], (c.value for c in row)))
+             for row in wb["stock value"].iter_rows(min_row=2)]
+    total_eur = [r for r in vrows if r["scope"] == "total" and r["currency"] == "EUR"]
+    assert total_eur[0]["value [EUR]"] == pytest.approx(302.0)

@@ -35,7 +35,7 @@ def whole(tmp_path_factory):
                         f"Dmg Motors,D-{i:05d},24,{100 + i % 400},{3000 + i % 2000},{1 + i % 9},{50 + i % 300},"
                         f"note {i} {'x' * (i % 40)}\n" for i in range(20_000)), encoding="utf-8")
     db = folder / "whole.duckdb"
-    catalog.open(db).import_files([data])
+    catalog.open(db).import_([data])
     return db
 
 

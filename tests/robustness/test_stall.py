@@ -83,13 +83,13 @@ def motors_csv(path, n: int, torque: int = 350, maker: str = "Stall Test Motors"
 def test_no_write_runs_a_nested_loop(tmp_path, planned):
     cat = catalog.open(tmp_path / "cat.duckdb")
     first = motors_csv(tmp_path / "m.csv", 300)
-    cat.import_files([first])
+    cat.import_([first])
     # the same records again with other values, plus new ones: every path of a re-import
     again = motors_csv(tmp_path / "m2.csv", 400, torque=360)
-    report = cat.import_files([again])
+    report = cat.import_([again])
     assert (report.created, report.updated) == (100, 300)
     # a maker whose short ids collide with the stored ones (the fallback ids of a re-import)
-    cat.import_files([motors_csv(tmp_path / "m3.csv", 50, maker="Stall Other")])
+    cat.import_([motors_csv(tmp_path / "m3.csv", 50, maker="Stall Other")])
     stock = tmp_path / "stock.csv"
     stock.write_text("manufacturer,part_number,quantity,location\n" + "".join(
         f"Stall Test Motors,ST-{i:04d},{1 + i % 3},Lab {i % 4}\n" for i in range(200)), encoding="utf-8")
@@ -105,7 +105,7 @@ def test_no_write_runs_a_nested_loop(tmp_path, planned):
 def test_the_old_stored_id_join_is_caught(tmp_path, planned):
     """The check itself: the join that stalled re-imports is found (so the test above can fail)."""
     cat = catalog.open(tmp_path / "cat.duckdb")
-    cat.import_files([motors_csv(tmp_path / "m.csv", 20)])
+    cat.import_([motors_csv(tmp_path / "m.csv", 20)])
     with cat.store.write() as con:
         con.execute("CREATE TEMP TABLE incoming_keys AS SELECT record_id, manufacturer, part_number FROM records")
         con.execute("SELECT i.record_id, r.record_id FROM incoming_keys i JOIN records r ON r.record_id = i.record_id "
@@ -132,7 +132,7 @@ def test_files_are_read_before_the_lock_is_taken(tmp_path, monkeypatch):
 
     db = tmp_path / "cat.duckdb"
     cat = catalog.open(db)
-    cat.import_files([motors_csv(tmp_path / "m.csv", 30)])
+    cat.import_([motors_csv(tmp_path / "m.csv", 30)])
     seen = []
     real = readers.read_file
 
@@ -142,7 +142,7 @@ def test_files_are_read_before_the_lock_is_taken(tmp_path, monkeypatch):
 
     monkeypatch.setattr(readers, "read_file", reading)     # stock files (read through the module)
     monkeypatch.setattr(importer, "read_file", reading)    # datasheets
-    cat.import_files([motors_csv(tmp_path / "m2.csv", 30, torque=400)])
+    cat.import_([motors_csv(tmp_path / "m2.csv", 30, torque=400)])
     stock = tmp_path / "stock.csv"
     stock.write_text("id,quantity,location\n" + "".join(f"stall-st-{i:04d},2,Lab 1\n" for i in range(30)),
                      encoding="utf-8")

@@ -37,7 +37,7 @@ def shared(tmp_path):
     data = folder / "good.csv"
     data.write_text(GOOD_MOTORS, encoding="utf-8")
     cat = catalog.open(db)
-    cat.import_files([data])
+    cat.import_([data])
     cat.motors()  # every lazy import is done before the children fork (they cannot read /root)
     cat.summary()
     for n in (1, 2, 3):
@@ -50,7 +50,7 @@ def shared(tmp_path):
 
 def import_as(db, name):
     def run():
-        report = catalog.open(db).import_files([db.with_name(name)])
+        report = catalog.open(db).import_([db.with_name(name)])
         return report.created
     return run
 

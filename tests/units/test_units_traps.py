@@ -215,3 +215,35 @@ def test_linear_and_angular_quantities_are_not_confused(text, dimension, message
         parse_quantity(text, dimension)
     if message:
         assert str(info.value) == message
+
+
+# -- messages in words, never the unit library's internals ----------------------------------------
+@pytest.mark.parametrize("spelling, dimension, message", [
+    ("W/K", "thermal_resistance", "'W/K' is a thermal conductance (the reciprocal of a thermal resistance), "
+                                  "expected a thermal resistance: a thermal resistance is K/W or °C/W"),
+    ("N", "torque", "'N' is a force, expected a torque: a torque is mN·m or oz-in"),
+    ("m^3", "mass", "'m^3' is a volume, expected a mass: a mass is g or oz"),
+    ("1/Ohm", "resistance", "'1/Ohm' is an electric conductance (the reciprocal of a resistance), expected a "
+                            "resistance: a resistance is ohm or mOhm"),
+    ("V/A/s", "inductance", "'V/A/s' is a quantity of length² × mass / (current² × time⁴), expected an "
+                            "inductance: an inductance is mH or uH"),
+    ("N*m", "angular_speed", "'N*m' is a torque, expected a speed"),       # a schema noun: no hint needed
+])
+def test_wrong_dimension_said_in_words(spelling, dimension, message):
+    with pytest.raises(UnitError) as exc:
+        parse_unit(spelling, dimension)
+    assert str(exc.value) == message
+    assert "[" not in str(exc.value) and "**" not in str(exc.value) and "dimension" not in str(exc.value)
+
+
+@pytest.mark.parametrize("cell", ["2024-05-01", "2024-05-01 00:00:00", "2024-5-1"])
+def test_a_date_in_a_number_column_says_it_is_a_date(cell):
+    from catalog.units import parse_cells, parse_quantity
+
+    got = parse_cells([cell, "12 mN*m"], "torque")
+    assert [i for i, _ in got.errors] == [0]
+    assert got.errors[0][1].startswith(f"'{cell}' is a date, expected a torque such as mN*m or oz-in: a spreadsheet")
+    assert "unit" not in got.errors[0][1].split(":")[0]
+    assert got.si[1] == pytest.approx(0.012)
+    with pytest.raises(UnitError, match="is a date"):
+        parse_quantity(cell, "torque")
