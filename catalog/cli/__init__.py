@@ -62,6 +62,7 @@ from . import catalogue  # noqa: E402,F401  (registers the commands)
 from . import select_cmd  # noqa
 from . import stock_cmd  # noqa: E402,F401
 from . import export_cmd  # noqa: E402,F401
+from . import serve_cmd  # noqa: E402,F401
 
 
 def main(argv=None):

@@ -155,17 +155,21 @@ def _where(first: tuple, table: NormalTable) -> str:
     return f"this import (first in {source} at row {row})"
 
 
-def read_and_check(paths, mapping=None) -> list[tuple[NormalTable | None, FileResult, list]]:
+def read_and_check(paths, mapping=None, progress=None) -> list[tuple[NormalTable | None, FileResult, list]]:
     """Read, normalise and check every file; nothing is written.
 
     Returns, per table, the normalised table, its :class:`FileResult` and its ids.
+    ``progress(stage, done, total)``, when given, hears of each file before it is read.
     """
     profile = None
     out = []
     seen: dict = {}  # ids and keys of every table so far (see _identity)
     if mapping is not None:
         profile = load_mapping(mapping)  # an invalid profile raises: nothing else is read
-    for path in paths:
+    paths = list(paths)
+    for done, path in enumerate(paths):
+        if progress is not None:
+            progress("checking", done, len(paths))
         try:
             raws = read_file(path, sheet=profile.sheet if profile else None,
                              header_row=profile.header_row if profile else 1)
@@ -244,7 +248,7 @@ def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, der
     if keep_valid and rejects is None:
         raise InputError("--keep-valid needs --rejects FILE to write the rejected rows to",
                          [Problem("--rejects", None, None, "missing, expected a file for the rejected rows")])
-    checked = read_and_check(paths, mapping)
+    checked = read_and_check(paths, mapping, progress)
     report = ImportReport()
     kept = []  # (table, ids, keep mask) of the tables with rows to import
     for table, result, ids in checked:
@@ -275,5 +279,7 @@ def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, der
     for t, _ids, _keep in kept:
         t.raw = None  # the cells as read are not needed any more: free them before writing
     if kept:
+        if progress is not None:
+            progress("writing", 0, sum(int(k.sum()) for _t, _i, k in kept))
         write_tables(store, report, kept, files=", ".join(str(p) for p in paths), derive=derive)
     return report
