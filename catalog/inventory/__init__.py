@@ -18,11 +18,12 @@ from __future__ import annotations
 
 from .ledger import CONDITIONS, KINDS, USABLE
 from .operations import StockChange, adjust, move, receive, release, reserve, return_, take, write_off
-from .queries import available_stock, low_stock, record_history, reservations, stock_history, stock_list
+from .queries import (available_stock, low_stock, recent_movements, record_history, reservations, stock_history,
+                      stock_list)
 from .selection import STOCK_COLUMNS, STOCK_MODES, select_with_stock, stock_columns, stock_mode
 from .stockfile import count_stock, import_stock, read_stock_files
 
 __all__ = ["CONDITIONS", "KINDS", "USABLE", "StockChange", "receive", "take", "return_", "move", "adjust",
-           "write_off", "reserve", "release", "available_stock", "low_stock", "record_history", "reservations",
+           "write_off", "reserve", "release", "available_stock", "low_stock", "recent_movements", "record_history", "reservations",
            "stock_history", "stock_list", "STOCK_COLUMNS", "STOCK_MODES", "select_with_stock", "stock_columns",
            "stock_mode", "count_stock", "import_stock", "read_stock_files"]
