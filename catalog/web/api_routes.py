@@ -234,14 +234,13 @@ async def select(request):
         return _json({"error": f"content type {ctype or '(none)'!r}, expected application/toml (the envelope "
                                "as TOML text)", "lines": []}, 415)
     problems = []
-    top = request.query_params.get("top")
-    if top is not None:
-        try:
-            top = int(top)
-            if top < 1:
-                raise ValueError
-        except ValueError:
-            problems.append(Problem("top", None, None, f"{top!r}, expected a whole number of 1 or more"))
+    top_text = request.query_params.get("top")
+    top = None
+    if top_text is not None:
+        if top_text.strip().isdigit() and int(top_text) >= 1:
+            top = int(top_text)
+        else:
+            problems.append(Problem("top", None, None, f"{top_text!r}, expected a whole number of 1 or more"))
     stock = request.query_params.get("stock")
     if stock is not None and stock not in ("only", "prefer", "ignore"):
         problems.append(Problem("stock", None, None, f"{stock!r}, expected only, prefer or ignore"))
