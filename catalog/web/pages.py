@@ -289,6 +289,14 @@ async def logout(request):
     return response
 
 
+def _favicon(request):
+    from starlette.responses import FileResponse
+
+    from .common import HERE
+
+    return FileResponse(HERE / "static" / "favicon.svg", media_type="image/svg+xml")
+
+
 def _home(request):
     return RedirectResponse("/catalogue", status_code=307)
 
@@ -298,6 +306,7 @@ def _collect():
 
     return [
         Route("/", _home, methods=["GET"]),
+        Route("/favicon.ico", _favicon, methods=["GET"]),
         Route("/catalogue", catalogue, methods=["GET"]),
         Route("/records/{record_id:path}/diagram.svg", record_diagram, methods=["GET"]),
         Route("/records/{record_id:path}", record_page, methods=["GET"]),
