@@ -8,7 +8,8 @@ only (Parquet in SI).
 """
 from __future__ import annotations
 
-__all__ = ["CAUTION", "selection_tables", "write_selection", "envelope_table", "caution_lines"]
+__all__ = ["CAUTION", "selection_tables", "write_selection", "selection_document", "envelope_table",
+           "caution_lines"]
 
 #: The caution every selection export and report carries.
 CAUTION = ("Catalogue-based selection is a first pass: verify with a prototype under the real load and "
@@ -197,3 +198,14 @@ def write_selection(selection, path, units: str = "datasheet", catalog=None):
     return write_tables(tables, path, _about(selection, cat, "si" if fmt == "parquet" else units), fmt)
 
 
+def selection_document(selection, units: str = "datasheet", catalog=None) -> dict:
+    """The document :func:`write_selection` writes to a ``.json`` file, as a dict (same tables,
+    same ``about``); the JSON API answers it."""
+    from .detail import catalog_of
+    from .writers import json_document
+
+    try:
+        cat = catalog_of(selection, catalog)
+    except Exception:
+        cat = None
+    return json_document(selection_tables(selection, units, cat), _about(selection, cat, units))

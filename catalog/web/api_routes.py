@@ -181,15 +181,11 @@ async def _body_limited(request, limit: int) -> bytes:
 
 
 def selection_document(cat, sel) -> bytes:
-    """The JSON document ``select --out result.json --units si`` writes, as bytes."""
-    import tempfile
-    from pathlib import Path
+    """The JSON document ``select --out result.json --units si`` writes (the same tables and
+    ``about``, :func:`catalog.export.selection.selection_document`), compactly encoded."""
+    from ..export.selection import selection_document as document
 
-    from ..export.selection import write_selection
-
-    with tempfile.TemporaryDirectory(prefix="motorshelf-") as d:
-        path = write_selection(sel, Path(d) / "result.json", units="si", catalog=cat)
-        return Path(path).read_bytes()
+    return json.dumps(document(sel, "si", cat), ensure_ascii=False).encode("utf-8")
 
 
 def run_envelope(cat, data: bytes, source: str, top=None, stock=None):

@@ -49,6 +49,8 @@ class ServedStore(Store):
         self._borrow = threading.Condition()   # guards _base and _borrowers
         self._base = None                      # a spare connection of the write in flight
         self._borrowers = 0
+        self._readers = 0                      # read-only connections of this process to the file
+        self._opening = False                  # a write of this process is opening the file
         self.writing: str | None = None        # what the write in flight is, for pages
         self.on_change = []                    # callables run after every write of this process
         self._what = threading.local()
@@ -70,10 +72,18 @@ class ServedStore(Store):
                             "when it has finished", path=str(self.path))
         self.writing = getattr(self._what, "text", None) or "a change"
         try:
+            # DuckDB refuses, in one process, a read-write opening of a file that a read-only
+            # connection holds: let the readers of the file finish, hold new ones back until the
+            # write's spare connection is there to borrow
+            with self._borrow:
+                self._opening = True
+                while self._readers:
+                    self._borrow.wait()
             with super().write() as con:
                 base = con.cursor()   # a second connection of the same database, idle, to make readers from
                 with self._borrow:
                     self._base = base
+                    self._borrow.notify_all()
                 try:
                     yield con
                 finally:
@@ -83,6 +93,9 @@ class ServedStore(Store):
                             self._borrow.wait()
                     base.close()
         finally:
+            with self._borrow:
+                self._opening = False
+                self._borrow.notify_all()
             self.writing = None
             self._turn.release()
             for hook in list(self.on_change):
@@ -91,14 +104,23 @@ class ServedStore(Store):
     @contextlib.contextmanager
     def read(self):
         with self._borrow:
+            while self._base is None and self._opening:
+                self._borrow.wait()
             base = self._base
             cur = None
             if base is not None:
                 cur = base.cursor()
                 self._borrowers += 1
+            else:
+                self._readers += 1
         if cur is None:
-            with super().read() as con:
-                yield con
+            try:
+                with super().read() as con:
+                    yield con
+            finally:
+                with self._borrow:
+                    self._readers -= 1
+                    self._borrow.notify_all()
             return
         try:
             yield cur
@@ -141,6 +163,9 @@ class ServedCatalog(Catalog):
 
     def __init__(self, path=None, wait: float = 30.0):
         super().__init__(path, wait=wait)
+        if self.path.exists():
+            with Store(self.path, wait=wait).read():
+                pass   # an older layout is migrated now, before any request (a reader never writes then)
         self.store = ServedStore(self.path, wait=wait)
         self._kept: dict = {}
         self._kept_lock = threading.Lock()

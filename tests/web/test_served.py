@@ -78,3 +78,25 @@ def test_concurrent_takes_through_the_server_and_a_command_beside_it(client, dem
     assert movement_total(demo_db) == before - 12 - 2
     hist = cat.stock_history(ITEM["record_id"])
     assert (hist["person"] == "Fay").sum() == 12 and (hist["person"] == "Gus").sum() == 1
+
+
+def test_reads_and_writes_of_the_server_at_once(client, demo_db):
+    """Pages, API reads and takes from many threads: DuckDB refuses a read-write opening of a file a
+    read-only connection of the same process holds, so the server must order them itself."""
+    import catalog
+
+    catalog.open(demo_db).stock_receive(ITEM["record_id"], 100, ITEM["location"], person="setup")
+    before = movement_total(demo_db)
+    body = {**ITEM, "quantity": 1, "person": "Ida", "project": "mix", "condition": "new"}
+    reads = ["/api/records/sorvanto-00341-06", "/shelf", "/api/health", "/records/brackwater-bs2860-36",
+             "/api/motors?mass.max=0.2"]
+
+    def work(k):
+        if k % 3 == 0:
+            return client.post("/api/stock/take", json=body).status_code
+        return client.get(reads[k % len(reads)]).status_code
+
+    with ThreadPoolExecutor(max_workers=8) as pool:
+        codes = list(pool.map(work, range(90)))
+    assert codes == [200] * 90
+    assert movement_total(demo_db) == before - 30
