@@ -161,6 +161,29 @@ async def candidate_diagram(request):
                     headers={"content-security-policy": "default-src 'none'; style-src 'unsafe-inline'"})
 
 
+async def comparison_diagram(request):
+    """The first shortlisted candidates (up to four) in one diagram at the gear output."""
+    run = _run(request)
+    preset, cat = preset_of(request), catalog_of(request)
+    sel = run["selection"]
+    if len(sel.shortlist) < 2:
+        raise NotFound("a comparison needs two shortlisted candidates or more")
+
+    def draw():
+        import io
+
+        from ..export.figures import comparison_figure
+
+        fig = comparison_figure(sel, catalog=cat, units=preset, top=4)
+        buf = io.StringIO()
+        fig.savefig(buf, format="svg")
+        return buf.getvalue()
+
+    svg = await in_thread(draw)
+    return Response(svg, media_type="image/svg+xml",
+                    headers={"content-security-policy": "default-src 'none'; style-src 'unsafe-inline'"})
+
+
 def _attachment(name: str) -> dict:
     return {"content-disposition": f'attachment; filename="{name}"', "cache-control": "no-store"}
 
@@ -206,6 +229,7 @@ routes = [
     Route("/select", run_selection, methods=["POST"]),
     Route("/select/runs/{run}", result_page, methods=["GET"]),
     Route("/select/runs/{run}/explain", explain, methods=["GET"]),
+    Route("/select/runs/{run}/compare.svg", comparison_diagram, methods=["GET"]),
     Route("/select/runs/{run}/diagram/{candidate:path}.svg", candidate_diagram, methods=["GET"]),
     Route("/select/runs/{run}/selection.xlsx", download_xlsx, methods=["GET"]),
     Route("/select/runs/{run}/report.html", download_report, methods=["GET"]),

@@ -110,6 +110,8 @@ def test_selection_from_the_form(client):
     assert ex.status_code == 200 and f"candidate {first}" in ex.text and "margins" in ex.text
     svg = client.get(f"{run}/diagram/{first}.svg")
     assert svg.status_code == 200 and "<svg" in svg.text
+    compare = client.get(f"{run}/compare.svg")
+    assert compare.status_code == 200 and "<svg" in compare.text and 'compare.svg' in page.text
     xlsx = client.get(f"{run}/selection.xlsx", params={"units": "si"})
     assert xlsx.status_code == 200 and "attachment" in xlsx.headers["content-disposition"]
     import openpyxl

@@ -15,7 +15,7 @@ ROUTES = [
     ("GET", "/", {}), ("GET", "/catalogue", {}), ("GET", "/records/sorvanto-00341-06", {}),
     ("GET", "/records/sorvanto-00341-06/diagram.svg", {}), ("GET", "/select", {}),
     ("GET", "/select/runs/x", {}), ("GET", "/select/runs/x/explain?candidate=a", {}),
-    ("GET", "/select/runs/x/diagram/a.svg", {}), ("GET", "/select/runs/x/selection.xlsx", {}),
+    ("GET", "/select/runs/x/diagram/a.svg", {}), ("GET", "/select/runs/x/compare.svg", {}), ("GET", "/select/runs/x/selection.xlsx", {}),
     ("GET", "/select/runs/x/report.html", {}), ("GET", "/select/runs/x/envelope.toml", {}),
     ("GET", "/shelf", {}), ("GET", "/shelf/item?record=sorvanto-007240", {}), ("GET", "/shelf/labels", {}),
     ("GET", "/import", {}), ("GET", "/import/jobs/x", {}), ("GET", "/import/jobs/x/status", {}),
