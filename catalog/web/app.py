@@ -107,10 +107,18 @@ def create_app(db, token: str | None = None, host: str = "127.0.0.1", wait: floa
                          "or $MOTORSHELF_TOKEN")
     if token is not None and len(token) < 8:
         raise ValueError("the team token is shorter than 8 characters, expected a longer secret")
+    import contextlib
+
+    @contextlib.asynccontextmanager
+    async def lifespan(app):
+        yield
+        app.state.jobs.close()   # the uploaded files of finished imports go with the server
+
     routes = [*api_routes.routes, *pages.routes,
               Mount("/static", app=StaticFiles(directory=str(HERE / "static")), name="static")]
     app = Starlette(
         routes=routes,
+        lifespan=lifespan,
         middleware=[Middleware(Guard, token=token, loopback_only=token is None)],
         exception_handlers={MotorshelfError: _motorshelf_error, CsrfRefused: _csrf_refused,
                             HTTPException: _not_found, 404: _not_found, Exception: _internal},

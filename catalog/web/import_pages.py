@@ -15,6 +15,9 @@ from ..errors import InputError, NotFound, Problem
 from .common import person_of, read_form, render
 
 _SUFFIXES = (".csv", ".xlsx", ".json", ".yaml", ".yml")
+#: The largest upload of one import (every file and the mapping): the readers' limit per file
+#: is 24 MiB (``catalog.ingest.readers.MAX_FILE_BYTES``).
+MAX_UPLOAD_BYTES = 128 * 1024 * 1024
 
 
 def _safe_file_name(name: str) -> str:
@@ -50,6 +53,14 @@ async def import_form(request):
 async def start_import(request):
     from ..ingest.readers import MAX_FILE_BYTES
 
+    size = request.headers.get("content-length", "")
+    if size.isdigit() and int(size) > MAX_UPLOAD_BYTES:
+        from .common import problem_lines
+
+        exc = InputError("upload too large", [Problem("files", None, None, f"{int(size) / 2**20:.0f} MiB in one "
+                                                      f"upload, expected at most {MAX_UPLOAD_BYTES // 2**20} MiB")])
+        return render(request, "import.html", {"jobs": request.app.state.jobs.recent(),
+                                               "lines": problem_lines(exc)}, status_code=413)
     form = await read_form(request)
     jobs = request.app.state.jobs
     kind = "validate" if form.get("action") == "validate" else "import"

@@ -296,6 +296,9 @@ def test_import_form_mistakes(client):
     assert r.status_code == 422 and "error: files: missing" in r.text
     r = _upload(client, [("notes.txt", "x")], action="import")
     assert r.status_code == 422 and "error: notes.txt: extension &#39;.txt&#39;" in r.text
+    r = client.post("/import", content=b"x", headers={"content-length": str(200 * 2**20),
+                                                      "content-type": "multipart/form-data; boundary=b"})
+    assert r.status_code == 413 and "expected at most 128 MiB" in r.text
     assert client.get("/import/jobs/nothing").status_code == 404
     assert client.get("/import/jobs/nothing/status").status_code == 404
 
@@ -303,3 +306,14 @@ def test_import_form_mistakes(client):
 def test_unknown_page_is_404(client):
     r = client.get("/nowhere")
     assert r.status_code == 404 and "<html" in r.text
+
+
+def test_uploads_are_removed_when_the_server_stops(demo_db):
+    from webhelp import make_client
+
+    with make_client(demo_db) as c:
+        r = _upload(c, [("upload_motors.csv", GOOD)], action="validate")
+        _wait(c, r.headers["location"])
+        folder = c.app.state.jobs.recent()[0].folder
+        assert (folder / "upload_motors.csv").exists()
+    assert not folder.exists()
