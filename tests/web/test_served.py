@@ -3,6 +3,7 @@ commands beside it keep working, and what another process writes is seen on the 
 from __future__ import annotations
 
 import subprocess
+import time
 import sys
 import threading
 from concurrent.futures import ThreadPoolExecutor
@@ -100,3 +101,55 @@ def test_reads_and_writes_of_the_server_at_once(client, demo_db):
         codes = list(pool.map(work, range(90)))
     assert codes == [200] * 90
     assert movement_total(demo_db) == before - 30
+
+
+def test_a_queue_of_writes_shares_one_opening(demo_db):
+    """Takes waiting behind a write are committed one by one through the open file; the file is
+    closed when the queue is empty (another process can then write)."""
+    import catalog
+    from catalog.web.served import ServedCatalog, ServedStore
+
+    cat = ServedCatalog(demo_db)
+    cat.stock_receive(ITEM["record_id"], 50, ITEM["location"], person="setup")
+    before = movement_total(demo_db)
+    openings = []
+    real_open = ServedStore._open
+
+    def counting_open(self, read_only):
+        if not read_only:
+            openings.append(1)
+        return real_open(self, read_only)
+
+    first_in, go = threading.Event(), threading.Event()
+
+    def first():
+        with cat.store.write():
+            first_in.set()
+            go.wait(60)
+
+    def take(_):
+        return cat.stock_take(ITEM["record_id"], 1, ITEM["location"], "new", person="Jo", project="q").quantity
+
+    ServedStore._open = counting_open
+    try:
+        holder = threading.Thread(target=first)
+        holder.start()
+        assert first_in.wait(60)
+        with ThreadPoolExecutor(max_workers=8) as pool:
+            futures = [pool.submit(take, k) for k in range(8)]
+            deadline = time.monotonic() + 60
+            while cat.store._queued < 8 and time.monotonic() < deadline:   # every take waits for its turn
+                time.sleep(0.01)
+            go.set()
+            assert [f.result() for f in futures] == [1] * 8
+        holder.join(60)
+    finally:
+        ServedStore._open = real_open
+    assert len(openings) < 1 + 8            # without the queue: one opening per write
+    assert cat.store._held is None          # closed once the queue was empty
+    assert movement_total(demo_db) == before - 8
+    done = subprocess.run([*MOTORSHELF, "--db", str(demo_db), "stock", "take", ITEM["record_id"], "1", "--location",
+                           ITEM["location"], "--condition", "new", "--by", "Kim", "--project", "cli"],
+                          capture_output=True, text=True, timeout=300)
+    assert done.returncode == 0, done.stderr
+    assert movement_total(catalog.open(demo_db).path) == before - 9
