@@ -4,7 +4,7 @@ from __future__ import annotations
 import importlib
 import sys
 
-SCRIPTS = ["bench_startup", "bench_derive", "bench_import", "bench_select"]
+SCRIPTS = ["bench_startup", "bench_derive", "bench_import", "bench_select", "bench_serve"]
 
 
 def main() -> int:

@@ -228,6 +228,25 @@ class Catalog(StockMethods):
             return kept
         return frame
 
+    # -- the team's server ------------------------------------------------------------
+    def serve(self, host: str = "127.0.0.1", port: int = 8000, token: str | None = None, started=None) -> None:
+        """Serve this catalogue to browsers and the JSON API until interrupted; see :mod:`catalog.web`.
+
+        Anything but a loopback ``host`` needs a team ``token``; ``started(path)`` is
+        called once the application is built, before the server listens.
+        """
+        from .web import create_app
+
+        try:
+            app = create_app(self.path, token=token, host=host)
+        except ValueError as exc:
+            raise _input_problem("token", str(exc)) from None
+        import uvicorn
+
+        if started is not None:
+            started(app.state.catalog.path)
+        uvicorn.run(app, host=host, port=port, log_level="warning", access_log=False, server_header=False)
+
     # -- the duty cycle at the gear output (reads no catalogue) ------------------------
     def cycle(self, envelope):
         """The duty cycle of a load envelope at the gear output; see :func:`catalog.select.motion.gear_output_cycle`.

@@ -65,6 +65,7 @@ from . import select_cmd  # noqa: E402,F401
 from . import stock_cmd  # noqa: E402,F401
 from . import export_cmd  # noqa: E402,F401
 from . import cycle_cmd  # noqa: E402,F401
+from . import serve_cmd  # noqa: E402,F401
 
 
 def main(argv=None):

@@ -8,8 +8,8 @@ only (what each format holds: :data:`catalog.export.formats.FORMATS`).
 """
 from __future__ import annotations
 
-__all__ = ["CAUTION", "selection_tables", "write_selection", "envelope_table", "caution_lines",
-           "envelope_leaves", "key_text"]
+__all__ = ["CAUTION", "selection_tables", "write_selection", "selection_document", "envelope_table",
+           "caution_lines", "envelope_leaves", "key_text"]
 
 #: The caution every selection export and report carries.
 CAUTION = ("Catalogue-based selection is a first pass: verify with a prototype under the real load and "
@@ -200,3 +200,14 @@ def write_selection(selection, path, units: str = "metric", catalog=None):
     return write_tables_to_file(tables, path, _about(selection, cat, units_written(path, units)), fmt)
 
 
+def selection_document(selection, units: str = "datasheet", catalog=None) -> dict:
+    """The document :func:`write_selection` writes to a ``.json`` file, as a dict (same tables,
+    same ``about``); the JSON API answers it."""
+    from .detail import catalog_of
+    from .writers import json_document
+
+    try:
+        cat = catalog_of(selection, catalog)
+    except Exception:
+        cat = None
+    return json_document(selection_tables(selection, units, cat), _about(selection, cat, units))

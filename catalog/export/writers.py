@@ -121,11 +121,18 @@ def _json_table(table) -> dict:
             "records": [{k: _json_value(v) for k, v in r.items()} for r in table.records()]}
 
 
-def write_json(tables, path: Path, about: dict) -> None:
-    """``{"about", "table", "units", "records", "tables"}``: the first table at the top, the others under ``tables``."""
+def json_document(tables, about: dict) -> dict:
+    """The JSON export of ``tables`` as a dict: ``about``, the first table at the top level
+    (``table``, ``units``, ``records``) and the others under ``tables``."""
     doc = {"about": about, "table": tables[0].name, **_json_table(tables[0])}
     if len(tables) > 1:
         doc["tables"] = {t.name: _json_table(t) for t in tables[1:]}
+    return doc
+
+
+def write_json(tables, path: Path, about: dict) -> None:
+    """``{"about", "table", "units", "records", "tables"}``: :func:`json_document` written to ``path``."""
+    doc = json_document(tables, about)
     path.write_text(json.dumps(doc, ensure_ascii=False, indent=2) + "\n", encoding="utf-8")
 
 

@@ -157,14 +157,15 @@ def _where(first: tuple, table: NormalTable) -> str:
     return f"this import (first in {source} at row {row})"
 
 
-def read_and_check(paths, mapping=None, manifest=None) -> list[tuple[NormalTable | None, FileResult, list]]:
+def read_and_check(paths, mapping=None, manifest=None,
+                   progress=None) -> list[tuple[NormalTable | None, FileResult, list]]:
     """Read, normalise and check every file; nothing is written.
 
     ``mapping`` is one profile for every file or a dict ``{file: profile}``;
     ``manifest`` an import manifest choosing profiles by file pattern (see
     :func:`catalog.ingest.manifest.mappings_for` for which wins).  Returns, per
     table, the normalised table, its :class:`FileResult` (naming the mapping used)
-    and its ids.
+    and its ids.  ``progress(stage, done, total)``, when given, hears of each file before it is read.
     """
     from .manifest import mappings_for
 
@@ -175,7 +176,9 @@ def read_and_check(paths, mapping=None, manifest=None) -> list[tuple[NormalTable
     for _, mp, _ in chosen:     # an invalid profile raises: nothing else is read
         if mp is not None and mp not in profiles:
             profiles[mp] = load_mapping(mp)
-    for path, mp, why in chosen:
+    for done, (path, mp, why) in enumerate(chosen):
+        if progress is not None:
+            progress("checking", done, len(chosen))
         profile = profiles.get(mp) if mp is not None else None
         try:
             raws = read_file(path, sheet=profile.sheet if profile else None,
@@ -256,7 +259,7 @@ def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, der
     if keep_valid and rejects is None:
         raise InputError("--keep-valid needs --rejects FILE to write the rejected rows to",
                          [Problem("--rejects", None, None, "missing, expected a file for the rejected rows")])
-    checked = read_and_check(paths, mapping, manifest)
+    checked = read_and_check(paths, mapping, manifest, progress)
     report = ImportReport()
     kept = []  # (table, ids, keep mask) of the tables with rows to import
     for table, result, ids in checked:
@@ -287,5 +290,7 @@ def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, der
     for t, _ids, _keep in kept:
         t.raw = None  # the cells as read are not needed any more: free them before writing
     if kept:
+        if progress is not None:
+            progress("writing", 0, sum(int(k.sum()) for _t, _i, k in kept))
         store_tables(store, report, kept, files=", ".join(str(p) for p in paths), derive=derive)
     return report

@@ -18,11 +18,13 @@ from __future__ import annotations
 
 from .ledger import CONDITIONS, KINDS, USABLE
 from .operations import StockChange, adjust, move, receive, release, reserve, return_, take, write_off
-from .queries import available_stock, low_stock, reservations, stock_history, stock_list, stock_value
+from .queries import (available_stock, low_stock, recent_movements, reservations, stock_history, stock_list,
+                      stock_value)
 from .selection import STOCK_COLUMNS, STOCK_MODES, select_with_stock, stock_columns, stock_mode
 from .stockfile import count_stock, import_stock, read_stock_files
 
 __all__ = ["CONDITIONS", "KINDS", "USABLE", "StockChange", "receive", "take", "return_", "move", "adjust",
-           "write_off", "reserve", "release", "available_stock", "low_stock", "reservations",
-           "stock_history", "stock_list", "stock_value", "STOCK_COLUMNS", "STOCK_MODES", "select_with_stock", "stock_columns",
+           "write_off", "reserve", "release", "available_stock", "low_stock", "recent_movements", "reservations",
+           "stock_history", "stock_list", "stock_value", "STOCK_COLUMNS", "STOCK_MODES", "select_with_stock",
+           "stock_columns",
            "stock_mode", "count_stock", "import_stock", "read_stock_files"]

@@ -136,6 +136,13 @@ class StockMethods:
         with self.store.read() as con:
             return stock_history(con, record_id)
 
+    def stock_movements(self, limit: int = 50, location=None):
+        """The latest movements of the whole shelf, newest first (``location``: text it contains)."""
+        from . import recent_movements
+
+        with self.store.read() as con:
+            return recent_movements(con, limit, location)
+
     def stock_reservations(self, open_only: bool = True, project=None):
         """Reservations (open ones by default) with what is left of each."""
         from . import reservations

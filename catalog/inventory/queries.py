@@ -6,7 +6,8 @@ pandas DataFrame; quantities are counts of pieces.
 """
 from __future__ import annotations
 
-__all__ = ["stock_list", "low_stock", "stock_history", "reservations", "available_stock", "stock_value"]
+__all__ = ["stock_list", "low_stock", "stock_history", "reservations", "available_stock", "stock_value",
+           "recent_movements"]
 
 from .ledger import USABLE, require_record
 
@@ -102,6 +103,16 @@ def stock_history(con, record_id: str):
         "CAST(sum(reserved_change) OVER w AS INTEGER) AS reserved_after, reservation_id, person, project, "
         "reason, serial_numbers, batch_id FROM stock_movements WHERE record_id = ? "
         "WINDOW w AS (PARTITION BY item_id ORDER BY movement_id) ORDER BY movement_id"), [record_id])
+
+
+def recent_movements(con, limit: int = 50, location: str | None = None):
+    """The latest stock movements of the whole shelf, newest first (``location``: text it contains)."""
+    sql = ("SELECT m.movement_id, m.moved_at, m.kind, m.record_id AS id, r.manufacturer, r.part_number, m.location, "
+           "m.condition, m.quantity_change AS change, m.reserved_change, m.reservation_id, m.person, m.project, "
+           "m.reason FROM stock_movements m LEFT JOIN records r USING (record_id) "
+           "WHERE (? IS NULL OR contains(lower(m.location), lower(?))) ORDER BY m.movement_id DESC LIMIT ?")
+    loc = " ".join(str(location).split()) if location else None
+    return _frame(con, sql, [loc, loc, max(1, min(int(limit), 10_000))])
 
 
 def reservations(con, open_only: bool = True, project: str | None = None):
