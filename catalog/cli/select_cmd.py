@@ -31,12 +31,12 @@ def display_shortlist(shortlist):
     })
     for check in checks():
         margin = check.margin
-        if margin is None or not np.isfinite(shortlist[margin.column].to_numpy(dtype=float)).any():
-            continue
-        values = shortlist[margin.column] * (100 if margin.is_fraction else 1)
-        out[margin.label or margin.column] = values.round(1)
-        for name in check.columns:
-            out[name] = shortlist[name].round(3)
+        if margin is not None and np.isfinite(shortlist[margin.column].to_numpy(dtype=float)).any():
+            values = shortlist[margin.column] * (100 if margin.is_fraction else 1)
+            out[margin.label or margin.column] = values.round(1)
+        for name in check.columns:   # a check's values are shown even where it sets no limit
+            if np.isfinite(shortlist[name].to_numpy(dtype=float)).any():
+                out[name] = shortlist[name].round(3)
     out["Tw °C"] = (shortlist["winding_temperature"] - 273.15).round(1)
     out["Irms A"] = shortlist["rms_current"].round(3)
     out["mass g"] = (shortlist["mass"] * 1e3).round(0)

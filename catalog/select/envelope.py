@@ -107,11 +107,18 @@ class Envelope:
     segment_source: list = field(default_factory=list)
     mechanism: object = None               # catalog.select.motion.Mechanism, or None
     reflected_inertia: float = 0.0         # of the mechanism at the gear output, already in `torque` [kg·m²]
+    max_inertia_ratio: float | None = None  # largest load-to-motor inertia ratio [1]
 
     @property
     def available_voltage(self) -> float:
         """Voltage at the motor terminals in the worst case [V]."""
         return self.min_voltage - self.drive_voltage_drop
+
+    @property
+    def output_inertia(self) -> float:
+        """The whole load inertia at the gear output [kg·m²]: the mechanism's reflected inertia (already
+        in ``torque``) plus ``load.inertia`` (added by the evaluation); an envelope has one or the other."""
+        return float(self.reflected_inertia + self.load_inertia)
 
     @property
     def period(self) -> float:
@@ -479,4 +486,5 @@ def _build(d, data, source) -> Envelope:
         gear_inertia=gear.get("inertia", 0.0), rank_keys=rank.get("keys", ["mass"]),
         top=rank.get("top", 10), pareto=rank.get("pareto"), currency=rank.get("currency"),
         exchange_rates=dict(rank.get("exchange_rates", {})), raw=data,
-        segment_source=src, mechanism=mech, reflected_inertia=reflected)
+        segment_source=src, mechanism=mech, reflected_inertia=reflected,
+        max_inertia_ratio=con.get("max_inertia_ratio"))
