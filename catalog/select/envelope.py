@@ -21,7 +21,7 @@ source of each segment and the reflected load inertia.
 """
 from __future__ import annotations
 
-__all__ = ["Envelope", "load_envelope", "envelope_schema", "RANK_KEYS"]
+__all__ = ["Envelope", "load_envelope", "envelope_schema", "RANK_KEYS", "ratio_label"]
 
 import json
 import math
@@ -366,7 +366,8 @@ def _read_toml(path: Path, source: str) -> dict:
         raise refuse(f"not valid TOML: {message[:1].lower() + message[1:]}", line) from None
 
 
-def _ratio_label(ratio: float) -> float:
+def ratio_label(ratio: float) -> float:
+    """A gear ratio as the envelope keeps it: two decimals below 10, one above (ids and reasons name it)."""
     return round(ratio, 2) if ratio < 10 else round(ratio, 1)
 
 
@@ -464,7 +465,7 @@ def _build(d, data, source) -> Envelope:
     if "ratio_range" in gear:
         rr = gear["ratio_range"]
         ratios += list(np.geomspace(rr["min"], rr["max"], rr["steps"]))
-    ratios = sorted({_ratio_label(r) for r in ratios})
+    ratios = sorted({ratio_label(r) for r in ratios})
     margins = {"voltage": 0.0, "current": 0.0, "torque": 0.0, "speed": 0.0, "temperature": 0.0}
     margins.update(con.get("margins", {}))
     tol = {"torque_constant": 0.0, "terminal_resistance": 0.0}

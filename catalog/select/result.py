@@ -147,6 +147,32 @@ class Selection:
         return (f"Selection({self.envelope.name!r}: {self._n_pass} passing, "
                 f"{len(self._passed) - self._n_pass} rejected)")
 
+    #: closest misses asked for (``select(..., misses=N)``); None: listed only when nothing passes
+    misses_wanted: int | None = None
+
+    def misses(self, n: int | None = None) -> pd.DataFrame:
+        """The ``n`` rejected candidates that fail by the least, with what would make them pass.
+
+        ``n`` defaults to the number asked for when selecting, else
+        :data:`catalog.select.misses.DEFAULT_MISSES`.  Columns
+        :data:`catalog.select.misses.MISS_COLUMNS` (SI): the summed normalised
+        ``shortfall`` over the failed checks, the supply voltage, drive
+        currents and ratio that would do, the temperature margin missing, and
+        ``suggestions`` as one text (see :mod:`catalog.select.misses`).
+        """
+        from .misses import DEFAULT_MISSES, check_miss_count, closest_misses
+
+        n = check_miss_count(n if n is not None else (self.misses_wanted or DEFAULT_MISSES))
+        cache = self.__dict__.setdefault("_misses", {})
+        if n not in cache:
+            cache[n] = closest_misses(self, n)
+        return cache[n]
+
+    @property
+    def shows_misses(self) -> bool:
+        """Whether the closest misses belong to what is shown and exported: asked for, or nothing passes."""
+        return bool(self.misses_wanted) or (self._n_pass == 0 and len(self._passed) > 0)
+
     def reason_counts(self) -> pd.Series:
         """Number of rejected candidates failing each check, most frequent first."""
         rej = ~self._passed
@@ -225,7 +251,7 @@ class Selection:
 
 
 def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | None = None,
-           motor_notes: dict | None = None, catalog=None) -> Selection:
+           motor_notes: dict | None = None, catalog=None, misses: int | None = None) -> Selection:
     """Evaluate every motor × gear option against a load envelope.
 
     Parameters
@@ -241,12 +267,19 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
         consistency flags of the datasheet here).
     catalog : Catalog, optional
         The catalogue the frames came from, kept as ``Selection.catalog``.
+    misses : int, optional
+        Also list this many closest misses (``Selection.misses()``); without it
+        they are listed only when nothing passes.
 
     Returns
     -------
     Selection
     """
     env = load_envelope(envelope)
+    if misses is not None:
+        from .misses import check_miss_count
+
+        misses = check_miss_count(misses)
     cand = build_candidates(motors, gearheads, env)
     if motor_notes:
         cand.set_motor_notes(motor_notes)
@@ -289,8 +322,10 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     else:
         for k in table_columns():
             table[k] = np.zeros(0, dtype=object)   # an empty catalogue: the same columns, no rows
-    return Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy, order=order,
-                     catalog=catalog)
+    sel = Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy, order=order,
+                    catalog=catalog)
+    sel.misses_wanted = misses
+    return sel
 
 
 def _part_names(motors, gearheads) -> dict:
