@@ -47,6 +47,8 @@ def display_shortlist(shortlist):
             out = out.rename(columns={"price": f"price {currencies[0]}"})
         elif currencies:
             out["cur"] = shortlist["currency"]
+    if "estimates" in shortlist and (shortlist["estimates"].fillna("") != "").any():
+        out["estimated"] = shortlist["estimates"].fillna("")   # totals holding gearing.assumed estimates
     if shortlist["pareto"].any():
         out["pareto"] = shortlist["pareto"].map({True: "yes", False: ""})
     if "available" in shortlist:  # the shelf (catalog.inventory.selection): complete sets on hand, where

@@ -108,6 +108,8 @@ class Envelope:
     mechanism: object = None               # catalog.select.motion.Mechanism, or None
     reflected_inertia: float = 0.0         # of the mechanism at the gear output, already in `torque` [kg·m²]
     max_inertia_ratio: float | None = None  # largest load-to-motor inertia ratio [1]
+    #: estimates for assumed gears: mass_per_stage [kg], length_per_stage [m], price (only those given)
+    assumed_gear: dict = field(default_factory=dict)
 
     @property
     def available_voltage(self) -> float:
@@ -488,4 +490,4 @@ def _build(d, data, source) -> Envelope:
         top=rank.get("top", 10), pareto=rank.get("pareto"), currency=rank.get("currency"),
         exchange_rates=dict(rank.get("exchange_rates", {})), raw=data,
         segment_source=src, mechanism=mech, reflected_inertia=reflected,
-        max_inertia_ratio=con.get("max_inertia_ratio"))
+        max_inertia_ratio=con.get("max_inertia_ratio"), assumed_gear=dict(gear.get("assumed", {})))

@@ -15,7 +15,7 @@ import pandas as pd
 
 from ..errors import NotFound
 from .candidates import GEAR_ASSUMED, GEAR_CATALOGUE, GEAR_DIRECT, build_candidates
-from .checks import check_keys, reason_texts
+from .checks import check_keys, estimate_flags, reason_texts
 from .registry import CHECKS, checks, margin_columns, value_columns
 from .envelope import load_envelope
 from .evaluate import EVAL_KEYS, checked, evaluate, evaluate_all
@@ -31,7 +31,7 @@ TOTAL_COLUMNS = ["mass", "price", "currency", "length", "diameter"]
 def shortlist_columns() -> list:
     """The shortlist's columns, the margins and check values generated from the check registry."""
     return ["rank", "candidate", "motor", "gear", *PART_COLUMNS, "ratio", "worst_segment", *margin_columns(),
-            *value_columns(), *METRIC_COLUMNS, "mass", "price", "currency", "pareto", "notes"]
+            *value_columns(), *METRIC_COLUMNS, "mass", "price", "currency", "estimates", "pareto", "notes"]
 
 
 def table_columns() -> list:
@@ -242,6 +242,8 @@ class Selection:
         for check in checks():
             for name in check.columns:
                 lines.append(f"    {name:<32} {row[name]:.4g}")
+        if row.get("estimates"):
+            lines.append(f"  estimated (gearing.assumed): {row['estimates']} of the assumed gear")
         if row["notes"]:
             lines.append(f"  notes: {row['notes']}")
         if not row["passed"]:
@@ -317,6 +319,7 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
                 out[k] = r[k]
             for k in TOTAL_COLUMNS:
                 out[k] = c[k]
+            out["estimates"] = estimate_flags(env, c["kind"])   # totals holding gearing.assumed estimates
             out.update({"pareto": pareto[at], "notes": notes, "failed": failed, "reasons": reasons})
             return out
     else:
