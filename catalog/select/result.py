@@ -211,14 +211,21 @@ class Selection:
                      if np.isfinite(tw) else f"  winding temperature: {'runaway' if tw == np.inf else 'unknown'}")
         lines.append(f"  supply {env.min_voltage:.1f} V minimum - {env.drive_voltage_drop:.1f} V drive drop "
                      f"= {env.available_voltage:.1f} V at the motor")
-        lines.append("  segment            time[s]  load rpm (start..end)  load N·m  motor rpm (start..end)"
+        if env.mechanism is not None:
+            lines.append(f"  mechanism {env.mechanism.describe()}; load inertia at the gear output "
+                         f"{env.output_inertia:.4g} kg·m² (in the load torques)")
+        width = max([len("segment"), *(len(str(n)) for n in env.names)])   # whole names, however long
+        lines.append(f"  {'segment':<{width}} time[s]  load rpm (start..end)  load N·m  motor rpm (start..end)"
                      "  motor N·m  current A  voltage V")
+        sources = env.segment_source or [None] * len(env.names)
         for s, name in enumerate(env.names):
             dur = f"{env.duration[s]:.3g}" if env.mode == "cycle" else env.continuous[s] and "cont." or "peak"
             lines.append(
-                f"  {name[:18]:<18} {dur:>7}  {env.speed_start[s] * _RPM:>9.1f}..{env.speed_end[s] * _RPM:<9.1f}"
+                f"  {name:<{width}} {dur:>7}  {env.speed_start[s] * _RPM:>9.1f}..{env.speed_end[s] * _RPM:<9.1f}"
                 f"  {env.torque[s]:>8.3g}  {d['seg_speed_start'][0, s] * _RPM:>10.0f}..{d['seg_speed_end'][0, s] * _RPM:<10.0f}"
                 f"  {d['seg_motor_torque'][0, s]:>9.4g}  {d['seg_current'][0, s]:>9.3g}  {d['seg_voltage'][0, s]:>9.3g}")
+            if sources[s] is not None and sources[s].mechanism is not None:   # made from a move or at the mechanism
+                lines.append(f"  {'':<{width}}   from {sources[s]}")
         lines.append(f"  RMS current {row['rms_current']:.3g} A, peak {row['peak_current']:.3g} A"
                      + (f", energy per cycle {row['energy_per_cycle']:.4g} J" if env.mode == "cycle" else ""))
         lines.append("  margins (required in brackets):")
