@@ -276,7 +276,7 @@ class Catalog(StockMethods):
 
     # -- selection and what comes out of it -------------------------------------
     def select(self, envelope, top: int | None = None, stock: str | None = None, out=None,
-               units: str = "metric", **kw):
+               units: str = "metric", misses: int | None = None, **kw):
         """Evaluate every motor × gear option against a load envelope; see :func:`catalog.select.select`.
 
         ``envelope`` is a TOML path or a parsed dict; ``top`` the shortlist length
@@ -284,7 +284,9 @@ class Catalog(StockMethods):
         ``ignore``; default the envelope's ``ranking.stock``) takes the shelf into
         account, see :mod:`catalog.inventory.selection`.  ``out`` also writes the
         selection to a file (the format by its extension, values in ``units``;
-        see :func:`catalog.export.write_selection`).  Returns a
+        see :func:`catalog.export.write_selection`).  ``misses`` also lists that
+        many closest misses (``Selection.misses()``, shown and exported; without it
+        they are listed only when nothing passes).  Returns a
         :class:`catalog.select.Selection`.
         """
         from .inventory import select_with_stock, stock_mode
@@ -295,6 +297,10 @@ class Catalog(StockMethods):
 
             check_out(out)   # a wrong file name is an input error before any work
             _preset(units)
+        if misses is not None:
+            from .select.misses import check_miss_count
+
+            misses = check_miss_count(misses)
         envelope = load_envelope(envelope)   # envelope mistakes first, before reading the file
         kw.setdefault("motor_notes", self._flag_notes())
         kw["catalog"] = self  # exports read the provenance of the values used from here
@@ -303,6 +309,7 @@ class Catalog(StockMethods):
                                     stock, top=top, **kw)
         else:
             sel = select(self.motors(), self.gearheads(), envelope, top=top, **kw)
+        sel.misses_wanted = misses
         if out is not None:
             from .export.selection import write_selection
 

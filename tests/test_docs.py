@@ -60,7 +60,7 @@ def _readme_commands():
     for line in README.splitlines():
         m = re.match(r"^(?:\.venv/bin/motorshelf|\$ motorshelf) (.*)$", line)
         if m:
-            args = shlex.split(m.group(1))
+            args = shlex.split(m.group(1), comments=True)
             yield args[2:] if args[0] == "--db" else args
 
 

@@ -3,8 +3,6 @@ from __future__ import annotations
 
 __all__ = ["cycle_cmd"]
 
-import math
-
 import click
 
 from . import Context, cli, handle_errors
@@ -13,27 +11,10 @@ from .output import echo, print_frame
 
 
 def _frame(cyc, units: str):
-    """The segments as a table: SI with units in the headers (``si``), else display units."""
-    import numpy as np
-    import pandas as pd
+    """The segments as a table (:func:`catalog.export.cycle.cycle_frame`, also in the HTML report)."""
+    from ..export.cycle import cycle_frame
 
-    from ..units import to_display
-
-    def shown(values, dimension):
-        return to_display(np.asarray(values, dtype=float), dimension, units)
-
-    torque, t_unit = shown(cyc.torque, "torque")
-    speeds, w_unit = shown(cyc.speed_start + cyc.speed_end, "angular_speed")
-    n = len(cyc.names)
-    duration = [math.nan if d is None else d for d in cyc.duration]
-    return pd.DataFrame({
-        "segment": cyc.names,
-        "from": [s.key for s in cyc.sources],
-        "time [s]": np.asarray(duration, dtype=float),
-        f"torque [{t_unit}]": torque,
-        f"speed start [{w_unit}]": speeds[:n],
-        f"speed end [{w_unit}]": speeds[n:],
-    })
+    return cycle_frame(cyc, units)
 
 
 @cli.command("cycle")

@@ -1,7 +1,7 @@
 """The ``select`` command: evaluate the catalogue against a load envelope (parsing and printing only)."""
 from __future__ import annotations
 
-__all__ = ["select_cmd", "display_shortlist"]
+__all__ = ["select_cmd", "display_shortlist", "display_misses"]
 
 import sys
 
@@ -31,12 +31,12 @@ def display_shortlist(shortlist):
     })
     for check in checks():
         margin = check.margin
-        if margin is None or not np.isfinite(shortlist[margin.column].to_numpy(dtype=float)).any():
-            continue
-        values = shortlist[margin.column] * (100 if margin.is_fraction else 1)
-        out[margin.label or margin.column] = values.round(1)
-        for name in check.columns:
-            out[name] = shortlist[name].round(3)
+        if margin is not None and np.isfinite(shortlist[margin.column].to_numpy(dtype=float)).any():
+            values = shortlist[margin.column] * (100 if margin.is_fraction else 1)
+            out[margin.label or margin.column] = values.round(1)
+        for name in check.columns:   # a check's values are shown even where it sets no limit
+            if np.isfinite(shortlist[name].to_numpy(dtype=float)).any():
+                out[name] = shortlist[name].round(3)
     out["Tw °C"] = (shortlist["winding_temperature"] - 273.15).round(1)
     out["Irms A"] = shortlist["rms_current"].round(3)
     out["mass g"] = (shortlist["mass"] * 1e3).round(0)
@@ -47,12 +47,28 @@ def display_shortlist(shortlist):
             out = out.rename(columns={"price": f"price {currencies[0]}"})
         elif currencies:
             out["cur"] = shortlist["currency"]
+    if "estimates" in shortlist and (shortlist["estimates"].fillna("") != "").any():
+        out["estimated"] = shortlist["estimates"].fillna("")   # totals holding gearing.assumed estimates
     if shortlist["pareto"].any():
         out["pareto"] = shortlist["pareto"].map({True: "yes", False: ""})
     if "available" in shortlist:  # the shelf (catalog.inventory.selection): complete sets on hand, where
         out["in stock"] = shortlist["available"]
         out["location"] = shortlist["location"]
     return out
+
+
+def display_misses(misses):
+    """The closest misses: one line each with its shortfall and failed checks, then what would do."""
+    if not len(misses):
+        echo("closest misses: none measurable (every rejected candidate lacks data or fails a check "
+             "without a measure, such as the commutation or mount)")
+        return
+    echo(f"closest misses ({len(misses)}; shortfall: how far each failed check is from passing, as a "
+         "fraction of its limit, summed):")
+    for row in misses.itertuples(index=False):
+        echo(f"  {int(row.miss)}. {row.candidate}: short by {row.shortfall * 100:.1f} % ({row.failed})")
+        if row.suggestions:
+            echo(f"     {row.suggestions}")
 
 
 @cli.command("select")
@@ -66,16 +82,19 @@ def display_shortlist(shortlist):
 @click.option("--out", "out", type=click.Path(dir_okay=False), default=None, metavar="FILE",
               help="Also write the shortlist (XLSX: with rejected, envelope, provenance, cautions) to FILE: "
                    f"{extension_list()}.")
+@click.option("--misses", type=int, default=None, metavar="N",
+              help="Also list the N closest misses: the rejected candidates that fail by the least, with the "
+                   "supply voltage, drive current or ratio that would do (listed anyway when nothing passes).")
 @OUT_UNITS_OPTION
 @click.pass_obj
 @handle_errors
-def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
+def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units, misses):
     """Pick motors (with gear options) that meet a load envelope (TOML, see queries/).
 
     Exit code 0 when at least one candidate passes, 1 when none does, 2 on input errors.
     """
     cat = obj.catalog()
-    sel = cat.select(envelope, top=top, stock=stock, out=None if explain else out, units=units)
+    sel = cat.select(envelope, top=top, stock=stock, out=None if explain else out, units=units, misses=misses)
     if explain:
         echo(sel.explain(explain))
         return
@@ -99,6 +118,8 @@ def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units):
         echo(f"no candidate: {cat.path} holds no motors (`motorshelf import FILE` adds datasheets)")
     else:
         echo("no candidate meets the envelope")
+    if sel.shows_misses:
+        display_misses(sel.misses())
     counts = sel.reason_counts()
     if len(counts):
         from ..select.registry import CHECKS

@@ -206,6 +206,34 @@ def _provenance(tables, motor_ids) -> str:
             "and its inputs). Every field is in the spreadsheet export.</p>" + "".join(out))
 
 
+def _cycle(selection, units: str) -> str:
+    """The duty cycle at the gear output: the table ``motorshelf cycle`` prints and a plot of one cycle."""
+    from ..select.motion import gear_output_cycle
+    from .cycle import cycle_frame, plot_cycle
+    from .html import fmt_number
+
+    cyc = gear_output_cycle(selection.envelope)
+    frame = cycle_frame(cyc, units)
+    head = "".join(f"<th>{esc(c)}</th>" for c in frame.columns)
+    rows = "".join("<tr>" + "".join(f'<td class="num">{esc(fmt_number(v))}</td>' if isinstance(v, float)
+                                    else f"<td>{esc(v)}</td>" for v in row) + "</tr>"
+                   for row in frame.itertuples(index=False))
+    from ..units import to_display
+
+    value, unit = to_display([cyc.inertia], "inertia", units)
+    mech = (f"<p>Mechanism {esc(cyc.mechanism.describe())}.</p>" if cyc.mechanism is not None else "")
+    lead = (f'{mech}<p class="lead">What the gear output must deliver, segment by segment (torque with the '
+            f"acceleration of the load's masses); load inertia at the gear output {esc(fmt_number(value[0]))} "
+            f"{esc(unit)} (for information: it is in the torques).</p>")
+    table = f'<div class="scroll"><table><thead><tr>{head}</tr></thead><tbody>{rows}</tbody></table></div>'
+    fig = plot_cycle(cyc, units)
+    plot = "" if fig is None else ('<figure id="plot-cycle" class="cycle">'
+                                   + inline_svg(fig, "cyc", f"speed and torque of {cyc.envelope} over one cycle")
+                                   + "<figcaption>Speed and torque at the gear output over one cycle.</figcaption>"
+                                     "</figure>")
+    return lead + table + plot
+
+
 def render_report(selection, units: str = "metric", catalog=None, side: str = "motor",
                   plots: int | None = None, compare: int = 4) -> str:
     """The report as an HTML string (see :func:`write_report`)."""
@@ -232,6 +260,7 @@ def render_report(selection, units: str = "metric", catalog=None, side: str = "m
          + f"<p>From <code>{esc(env.source)}</code>: each input as written and in {esc(units)} units "
            "(hover an input for its meaning; every input with its meaning is in the spreadsheet export).</p>"
          + _envelope(selection, units)),
+        ("cycle", "Duty cycle at the gear output", _cycle(selection, units)),
         ("shortlist", "Shortlist", _shortlist(selection, tables)),
         ("plots", "Speed-torque diagrams", no_plots or _plots(selection, details, units, side, compare)),
         ("rejected", "Rejected candidates", _rejected(selection)),

@@ -2,7 +2,7 @@
 
 :func:`write_selection` writes one file whose format follows the extension.
 The XLSX holds every sheet (``shortlist``, ``rejected``, ``rejection counts``,
-``envelope``, ``provenance``, ``cautions``, ``about``); JSON holds the same
+``closest misses`` (asked for, or when nothing passes), ``envelope``, ``provenance``, ``cautions``, ``about``); JSON holds the same
 tables (the shortlist at the top level); CSV and Parquet hold the shortlist
 only (what each format holds: :data:`catalog.export.formats.FORMATS`).
 """
@@ -141,6 +141,11 @@ def selection_tables(selection, preset: str = "metric", catalog=None) -> list:
         text_column("check", list(counts.index)),
         text_column("meaning", [CHECKS.get(k, "") for k in counts.index]),
         quantity_column("candidates", [int(v) for v in counts.values], "count", preset, integer=True)]))
+    if getattr(selection, "shows_misses", False):
+        from ..select.misses import MISS_DIMENSIONS
+
+        tables.append(table_from_frame(selection.misses(), "closest misses", preset,
+                                       dimensions={**dims, **MISS_DIMENSIONS}, freeze_columns=2))
     tables.append(envelope_table(selection.envelope, preset))
     if cat is not None and len(short):
         ids = sorted(set(short["motor"]) | {g for g in short["gear"] if isinstance(g, str)})
@@ -200,7 +205,7 @@ def write_selection(selection, path, units: str = "metric", catalog=None):
     return write_tables_to_file(tables, path, _about(selection, cat, units_written(path, units)), fmt)
 
 
-def selection_document(selection, units: str = "datasheet", catalog=None) -> dict:
+def selection_document(selection, units: str = "metric", catalog=None) -> dict:
     """The document :func:`write_selection` writes to a ``.json`` file, as a dict (same tables,
     same ``about``); the JSON API answers it."""
     from .detail import catalog_of

@@ -31,6 +31,7 @@ __all__ = [
     "acceleration_torque",
     "required_motor_torque",
     "optimal_ratio_inertial",
+    "inertia_ratio",
 ]
 
 
@@ -389,3 +390,40 @@ def optimal_ratio_inertial(rotor_inertia, load_inertia, gear_inertia=0.0,
     Textbook on drive engineering / servo drives (inertia matching).
     """
     return np.sqrt(load_inertia / (efficiency * (rotor_inertia + gear_inertia)))
+
+
+@vectorised
+def inertia_ratio(load_inertia, ratio, rotor_inertia, gear_inertia=0.0):
+    """Load-to-motor inertia ratio: the load inertia seen at the motor over the motor side's own.
+
+    Parameters
+    ----------
+    load_inertia : float or ndarray
+        Load inertia at the gear output J_load [kg·m²].
+    ratio : float or ndarray
+        Gear ratio n [1].
+    rotor_inertia : float or ndarray
+        Rotor inertia J_rotor [kg·m²].
+    gear_inertia : float or ndarray
+        Gear inertia referred to its input shaft J_gear [kg·m²].
+
+    Returns
+    -------
+    float or ndarray
+        (J_load/n²)/(J_rotor + J_gear) [1]; NaN where the motor side's inertia is unknown or zero.
+
+    Notes
+    -----
+    Relation: the reflected load inertia of :func:`reflected_inertia` over
+    the motor-side inertia; 1 is the inertia match of
+    :func:`optimal_ratio_inertial` (lossless gear).  A large ratio makes a
+    position loop sensitive to compliance; the acceptable value depends on the
+    drive (common practice: about 10 or less for a stiff servo axis).
+
+    References
+    ----------
+    Textbook on drive engineering (inertia referred through a gear, inertia matching).
+    """
+    motor_side = rotor_inertia + gear_inertia
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(motor_side > 0, load_inertia / (ratio * ratio) / motor_side, np.nan)

@@ -161,6 +161,8 @@ class Candidates(Mapping):
         if key in _BY_OPTION:
             return self.options[_BY_OPTION[key]][oix]
         geared = self.options["kind"][oix] == GEAR_CATALOGUE
+        if key in ("mass", "length", "price"):   # an assumed gear adds its estimates (0 without them)
+            geared = self.options["kind"][oix] != GEAR_DIRECT
         if key == "id":
             return (pd.Series(self.motors["id"][mix], dtype=object)
                     + pd.Series(self.options["suffix"][oix], dtype=object)).to_numpy(dtype=object)
@@ -278,9 +280,13 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
         ratios = np.asarray(env.ratios, dtype=float)
         stages = np.full(len(ratios), env.stages) if env.stages else _stages(ratios)
         labels = [f"ratio-{r:g}" if r != int(r) else f"ratio-{r:.1f}" for r in ratios]
+        est = env.assumed_gear    # estimates (gearing.assumed), else an assumed gear adds nothing
         opts.append(pd.DataFrame({"ratio": ratios, "efficiency": env.stage_efficiency ** stages,
                                   "inertia": env.gear_inertia, "label": labels,
-                                  "suffix": ["@" + x for x in labels], "kind": GEAR_ASSUMED, "mount": ""}))
+                                  "suffix": ["@" + x for x in labels], "kind": GEAR_ASSUMED, "mount": "",
+                                  "mass": est.get("mass_per_stage", 0.0) * stages,
+                                  "length": est.get("length_per_stage", 0.0) * stages,
+                                  "price": est.get("price", 0.0), "currency": env.currency or ""}))
     table = pd.concat(opts, ignore_index=True) if opts else pd.DataFrame(columns=["kind"])
     options = {c: _col(table, c) for c in _GEAR}
     for c in ("label", "suffix", "currency", "price_note", "mount"):

@@ -6,7 +6,7 @@ built column-wise with pandas string operations, only for the rows asked for.
 """
 from __future__ import annotations
 
-__all__ = ["CHECKS", "run_checks", "reason_texts", "check_keys"]
+__all__ = ["CHECKS", "run_checks", "reason_texts", "check_keys", "assumed_gear_note", "estimate_flags"]
 
 import numpy as np
 import pandas as pd
@@ -61,7 +61,7 @@ def run_checks(env, c, r: dict, with_texts: bool = True):
             texts[check.key] = pd.Series(text if isinstance(text, pd.Series) else [text] * n).where(
                 pd.Series(fails[check.key]), "")
     margins["smallest_margin"] = smallest
-    return margins, fails, (pd.DataFrame(texts) if with_texts else None), (_notes(c) if with_texts else None)
+    return margins, fails, (pd.DataFrame(texts) if with_texts else None), (_notes(c, env) if with_texts else None)
 
 
 def check_keys(env) -> tuple:
@@ -113,15 +113,35 @@ def _size(c) -> int:
     return c.size if hasattr(c, "size") and not isinstance(c, dict) else len(c["ratio"])
 
 
-def _notes(c):
+def assumed_gear_note(env) -> str:
+    """The note of an assumed gear: what it leaves out and which totals hold the envelope's estimates."""
+    est = [k for k, key in (("mass", "mass_per_stage"), ("length", "length_per_stage"), ("price", "price"))
+           if key in env.assumed_gear]
+    if not est:
+        return "assumed gear: ratings, mass, size and price not included"
+    left = [k for k in ("mass", "size" if "length" not in est else "diameter", "price") if k not in est]
+    return (f"assumed gear: ratings{', ' + ', '.join(left) if left else ''} not included; "
+            f"{', '.join(est)} include estimates (gearing.assumed)")
+
+
+def _notes(c, env=None):
     n = _size(c)
     notes = pd.Series([""] * n)
     notes = notes.where(~c["speed_from_no_load"], "motor speed limit taken from the no-load speed")
     assumed = c["kind"] == GEAR_ASSUMED
-    gear_note = pd.Series(np.where(assumed, "assumed gear: ratings, mass, size and price not included", ""))
+    text = assumed_gear_note(env) if env is not None else "assumed gear: ratings, mass, size and price not included"
+    gear_note = pd.Series(np.where(assumed, text, ""))
     out = notes + np.where((notes != "") & (gear_note != ""), "; ", "") + gear_note
     extra = pd.Series(c.get("price_note", np.full(n, "", dtype=object)))
     extra_motor = pd.Series(c.get("motor_note", np.full(n, "", dtype=object)))
     for more in (extra, extra_motor):
         out = out + np.where((out != "") & (more != ""), "; ", "") + more
     return out
+
+
+def estimate_flags(env, kind) -> np.ndarray:
+    """Per candidate, which totals hold the envelope's estimates for assumed gears (``"mass, price"``; empty for
+    catalogue parts and direct drive)."""
+    est = [k for k, key in (("mass", "mass_per_stage"), ("length", "length_per_stage"), ("price", "price"))
+           if key in env.assumed_gear]
+    return np.where(np.asarray(kind) == GEAR_ASSUMED, ", ".join(est), "").astype(object)

@@ -22,7 +22,7 @@ source of each segment and the reflected load inertia.
 from __future__ import annotations
 
 __all__ = ["Envelope", "load_envelope", "envelope_schema", "RANK_KEYS", "MAX_ENVELOPE_BYTES",
-           "MAX_ENVELOPE_DEPTH", "MAX_SEGMENTS", "MAX_RATIOS"]
+           "MAX_ENVELOPE_DEPTH", "MAX_SEGMENTS", "MAX_RATIOS", "ratio_label"]
 
 import json
 import math
@@ -108,11 +108,20 @@ class Envelope:
     segment_source: list = field(default_factory=list)
     mechanism: object = None               # catalog.select.motion.Mechanism, or None
     reflected_inertia: float = 0.0         # of the mechanism at the gear output, already in `torque` [kg·m²]
+    max_inertia_ratio: float | None = None  # largest load-to-motor inertia ratio [1]
+    #: estimates for assumed gears: mass_per_stage [kg], length_per_stage [m], price (only those given)
+    assumed_gear: dict = field(default_factory=dict)
 
     @property
     def available_voltage(self) -> float:
         """Voltage at the motor terminals in the worst case [V]."""
         return self.min_voltage - self.drive_voltage_drop
+
+    @property
+    def output_inertia(self) -> float:
+        """The whole load inertia at the gear output [kg·m²]: the mechanism's reflected inertia (already
+        in ``torque``) plus ``load.inertia`` (added by the evaluation); an envelope has one or the other."""
+        return float(self.reflected_inertia + self.load_inertia)
 
     @property
     def period(self) -> float:
@@ -420,7 +429,8 @@ def _sizes(data, source) -> list:
     return problems
 
 
-def _ratio_label(ratio: float) -> float:
+def ratio_label(ratio: float) -> float:
+    """A gear ratio as the envelope keeps it: two decimals below 10, one above (ids and reasons name it)."""
     return round(ratio, 2) if ratio < 10 else round(ratio, 1)
 
 
@@ -523,7 +533,7 @@ def _build(d, data, source) -> Envelope:
     if "ratio_range" in gear:
         rr = gear["ratio_range"]
         ratios += list(np.geomspace(rr["min"], rr["max"], rr["steps"]))
-    ratios = sorted({_ratio_label(r) for r in ratios})
+    ratios = sorted({ratio_label(r) for r in ratios})
     margins = {"voltage": 0.0, "current": 0.0, "torque": 0.0, "speed": 0.0, "temperature": 0.0}
     margins.update(con.get("margins", {}))
     tol = {"torque_constant": 0.0, "terminal_resistance": 0.0}
@@ -545,4 +555,5 @@ def _build(d, data, source) -> Envelope:
         gear_inertia=gear.get("inertia", 0.0), rank_keys=rank.get("keys", ["mass"]),
         top=rank.get("top", 10), pareto=rank.get("pareto"), currency=rank.get("currency"),
         exchange_rates=dict(rank.get("exchange_rates", {})), raw=data,
-        segment_source=src, mechanism=mech, reflected_inertia=reflected)
+        segment_source=src, mechanism=mech, reflected_inertia=reflected,
+        max_inertia_ratio=con.get("max_inertia_ratio"), assumed_gear=dict(gear.get("assumed", {})))

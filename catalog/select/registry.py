@@ -295,6 +295,26 @@ REGISTRY.append(Check(
 REGISTRY += [_allowed("commutation"), _allowed("mount")]
 
 
+def _inertia_ratio(x: CheckInputs) -> np.ndarray:
+    """Load inertia seen at the motor over rotor plus gear inertia, (J_load/n²)/(J_rotor + J_gear) [1]."""
+    from ..physics import inertia_ratio
+
+    return np.asarray(inertia_ratio(x.env.output_inertia, x.c["ratio"], x.c["rotor_inertia"],
+                                    x.c["gear_inertia"]), dtype=float)
+
+
+# The load inertia is the mechanism's reflected inertia or load.inertia (Envelope.output_inertia), never
+# both: the value column is on every selection, the margin only where constraints.max_inertia_ratio is set.
+REGISTRY.append(Check(
+    "inertia_ratio", "load-to-motor inertia ratio above constraints.max_inertia_ratio",
+    margin=Margin("inertia_ratio_margin", label="Jratio %"), needs=("rotor_inertia", "gear_inertia", "ratio"),
+    compute=lambda x: (_ratio_margin(np.full(x.n, np.inf if x.env.max_inertia_ratio is None
+                                             else x.env.max_inertia_ratio), _inertia_ratio(x))),
+    columns={"inertia_ratio": (_inertia_ratio, None)},   # a plain number, not a percentage
+    reason=lambda x, m: "load-to-motor inertia ratio " + x.fmt(_inertia_ratio(x))
+    + f" > {x.env.max_inertia_ratio:g}" + x.note(m)))
+
+
 class _Meanings(Mapping):
     """check key -> one-line meaning, a live view of :data:`REGISTRY` in verdict order."""
 

@@ -15,7 +15,7 @@ import pandas as pd
 
 from ..errors import NotFound
 from .candidates import GEAR_ASSUMED, GEAR_CATALOGUE, GEAR_DIRECT, build_candidates
-from .checks import check_keys, reason_texts
+from .checks import check_keys, estimate_flags, reason_texts
 from .registry import CHECKS, checks, margin_columns, value_columns
 from .envelope import load_envelope
 from .evaluate import EVAL_KEYS, checked, evaluate, evaluate_all
@@ -31,7 +31,7 @@ TOTAL_COLUMNS = ["mass", "price", "currency", "length", "diameter"]
 def shortlist_columns() -> list:
     """The shortlist's columns, the margins and check values generated from the check registry."""
     return ["rank", "candidate", "motor", "gear", *PART_COLUMNS, "ratio", "worst_segment", *margin_columns(),
-            *value_columns(), *METRIC_COLUMNS, "mass", "price", "currency", "pareto", "notes"]
+            *value_columns(), *METRIC_COLUMNS, "mass", "price", "currency", "estimates", "pareto", "notes"]
 
 
 def table_columns() -> list:
@@ -147,6 +147,32 @@ class Selection:
         return (f"Selection({self.envelope.name!r}: {self._n_pass} passing, "
                 f"{len(self._passed) - self._n_pass} rejected)")
 
+    #: closest misses asked for (``select(..., misses=N)``); None: listed only when nothing passes
+    misses_wanted: int | None = None
+
+    def misses(self, n: int | None = None) -> pd.DataFrame:
+        """The ``n`` rejected candidates that fail by the least, with what would make them pass.
+
+        ``n`` defaults to the number asked for when selecting, else
+        :data:`catalog.select.misses.DEFAULT_MISSES`.  Columns
+        :data:`catalog.select.misses.MISS_COLUMNS` (SI): the summed normalised
+        ``shortfall`` over the failed checks, the supply voltage, drive
+        currents and ratio that would do, the temperature margin missing, and
+        ``suggestions`` as one text (see :mod:`catalog.select.misses`).
+        """
+        from .misses import DEFAULT_MISSES, check_miss_count, closest_misses
+
+        n = check_miss_count(n if n is not None else (self.misses_wanted or DEFAULT_MISSES))
+        cache = self.__dict__.setdefault("_misses", {})
+        if n not in cache:
+            cache[n] = closest_misses(self, n)
+        return cache[n]
+
+    @property
+    def shows_misses(self) -> bool:
+        """Whether the closest misses belong to what is shown and exported: asked for, or nothing passes."""
+        return bool(self.misses_wanted) or (self._n_pass == 0 and len(self._passed) > 0)
+
     def reason_counts(self) -> pd.Series:
         """Number of rejected candidates failing each check, most frequent first."""
         rej = ~self._passed
@@ -185,14 +211,21 @@ class Selection:
                      if np.isfinite(tw) else f"  winding temperature: {'runaway' if tw == np.inf else 'unknown'}")
         lines.append(f"  supply {env.min_voltage:.1f} V minimum - {env.drive_voltage_drop:.1f} V drive drop "
                      f"= {env.available_voltage:.1f} V at the motor")
-        lines.append("  segment            time[s]  load rpm (start..end)  load N·m  motor rpm (start..end)"
+        if env.mechanism is not None:
+            lines.append(f"  mechanism {env.mechanism.describe()}; load inertia at the gear output "
+                         f"{env.output_inertia:.4g} kg·m² (in the load torques)")
+        width = max([len("segment"), *(len(str(n)) for n in env.names)])   # whole names, however long
+        lines.append(f"  {'segment':<{width}} time[s]  load rpm (start..end)  load N·m  motor rpm (start..end)"
                      "  motor N·m  current A  voltage V")
+        sources = env.segment_source or [None] * len(env.names)
         for s, name in enumerate(env.names):
             dur = f"{env.duration[s]:.3g}" if env.mode == "cycle" else env.continuous[s] and "cont." or "peak"
             lines.append(
-                f"  {name[:18]:<18} {dur:>7}  {env.speed_start[s] * _RPM:>9.1f}..{env.speed_end[s] * _RPM:<9.1f}"
+                f"  {name:<{width}} {dur:>7}  {env.speed_start[s] * _RPM:>9.1f}..{env.speed_end[s] * _RPM:<9.1f}"
                 f"  {env.torque[s]:>8.3g}  {d['seg_speed_start'][0, s] * _RPM:>10.0f}..{d['seg_speed_end'][0, s] * _RPM:<10.0f}"
                 f"  {d['seg_motor_torque'][0, s]:>9.4g}  {d['seg_current'][0, s]:>9.3g}  {d['seg_voltage'][0, s]:>9.3g}")
+            if sources[s] is not None and sources[s].mechanism is not None:   # made from a move or at the mechanism
+                lines.append(f"  {'':<{width}}   from {sources[s]}")
         lines.append(f"  RMS current {row['rms_current']:.3g} A, peak {row['peak_current']:.3g} A"
                      + (f", energy per cycle {row['energy_per_cycle']:.4g} J" if env.mode == "cycle" else ""))
         lines.append("  margins (required in brackets):")
@@ -216,6 +249,8 @@ class Selection:
         for check in checks():
             for name in check.columns:
                 lines.append(f"    {name:<32} {row[name]:.4g}")
+        if row.get("estimates"):
+            lines.append(f"  estimated (gearing.assumed): {row['estimates']} of the assumed gear")
         if row["notes"]:
             lines.append(f"  notes: {row['notes']}")
         if not row["passed"]:
@@ -225,7 +260,7 @@ class Selection:
 
 
 def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | None = None,
-           motor_notes: dict | None = None, catalog=None) -> Selection:
+           motor_notes: dict | None = None, catalog=None, misses: int | None = None) -> Selection:
     """Evaluate every motor × gear option against a load envelope.
 
     Parameters
@@ -241,12 +276,19 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
         consistency flags of the datasheet here).
     catalog : Catalog, optional
         The catalogue the frames came from, kept as ``Selection.catalog``.
+    misses : int, optional
+        Also list this many closest misses (``Selection.misses()``); without it
+        they are listed only when nothing passes.
 
     Returns
     -------
     Selection
     """
     env = load_envelope(envelope)
+    if misses is not None:
+        from .misses import check_miss_count
+
+        misses = check_miss_count(misses)
     cand = build_candidates(motors, gearheads, env)
     if motor_notes:
         cand.set_motor_notes(motor_notes)
@@ -284,13 +326,16 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
                 out[k] = r[k]
             for k in TOTAL_COLUMNS:
                 out[k] = c[k]
+            out["estimates"] = estimate_flags(env, c["kind"])   # totals holding gearing.assumed estimates
             out.update({"pareto": pareto[at], "notes": notes, "failed": failed, "reasons": reasons})
             return out
     else:
         for k in table_columns():
             table[k] = np.zeros(0, dtype=object)   # an empty catalogue: the same columns, no rows
-    return Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy, order=order,
-                     catalog=catalog)
+    sel = Selection(env, cand, table, env.top if top is None else int(top), lazy=lazy, order=order,
+                    catalog=catalog)
+    sel.misses_wanted = misses
+    return sel
 
 
 def _part_names(motors, gearheads) -> dict:

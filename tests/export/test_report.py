@@ -41,7 +41,7 @@ def test_self_contained(report, wheel):
     ids = re.findall(r'\sid="([^"]+)"', text)
     assert len(ids) == len(set(ids)), "ids of the inline SVGs must not collide"
     n = len(wheel.shortlist)
-    assert text.count("<svg") == n + 1
+    assert text.count("<svg") == n + 2     # each candidate, the comparison and the duty cycle
     assert "@media print" in text and CAUTION in text
 
 

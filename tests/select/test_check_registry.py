@@ -24,7 +24,7 @@ LIMIT = 3.0   # an example limit of load inertia seen by the motor over motor-si
 def _inertia_ratio(x):
     """Reflected load inertia J_load/n² over rotor plus gear inertia (textbook reflected-inertia rule)."""
     motor_side = x.c["rotor_inertia"] + x.c["gear_inertia"]
-    return x.env.load_inertia / x.c["ratio"] ** 2 / motor_side
+    return x.env.output_inertia / x.c["ratio"] ** 2 / motor_side   # the mechanism's or load.inertia
 
 
 EXAMPLE = Check(
