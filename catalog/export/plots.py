@@ -325,7 +325,9 @@ def save_figure(fig, path, fmt: str | None = None) -> Path:
         raise ValueError(f"plots are written as .png or .svg, got {path.name!r}")
     import matplotlib
 
-    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": path.stem}):
-        fig.savefig(path, format=fmt, dpi=150 if fmt == "png" else None,
+    from ..store.files import output_file
+
+    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": path.stem}), output_file(path) as tmp:
+        fig.savefig(tmp, format=fmt, dpi=150 if fmt == "png" else None,
                     metadata={"Date": None} if fmt == "svg" else None)
     return path

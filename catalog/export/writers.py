@@ -268,7 +268,27 @@ def _write_xlsx(tables, path: Path, about: dict) -> None:
     _xlsx_sheet(wb, info, used)
     wb.properties.creator = "motorshelf"
     wb.properties.title = str(about.get("title", ""))
-    wb.save(path)
+    _save_workbook(wb, path)
+
+
+def _save_workbook(wb, path: Path) -> None:
+    """``wb.save(path)``, closing the archive when writing fails (a full disk): left open, it
+    would fail again when collected and print a traceback at exit."""
+    import datetime
+    import zipfile
+
+    from openpyxl.writer.excel import ExcelWriter
+
+    archive = zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED, allowZip64=True)
+    wb.properties.modified = datetime.datetime.now(tz=datetime.timezone.utc).replace(tzinfo=None)
+    try:
+        ExcelWriter(wb, archive).save()
+    except BaseException:
+        try:
+            archive.close()
+        except OSError:
+            pass  # the error being raised says it already
+        raise
 
 
 def _about_text(v) -> str:
@@ -305,8 +325,9 @@ def write_tables(tables, path, about: dict | None = None, fmt: str | None = None
     if not path.parent.exists():
         msg = f"folder {str(path.parent)!r} does not exist"
         raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
-    tmp = path.with_name(f".{path.name}.part")
-    try:
+    from ..store.files import output_file
+
+    with output_file(path) as tmp:  # a new file of its own, renamed over path when whole
         if fmt == "csv":
             _write_csv(tables, tmp)
         elif fmt == "json":
@@ -317,8 +338,4 @@ def write_tables(tables, path, about: dict | None = None, fmt: str | None = None
             _write_xlsx(tables, tmp, about)
         else:
             raise ValueError(f"unknown format {fmt!r}")
-        tmp.replace(path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
     return path
