@@ -66,19 +66,28 @@ class Catalog(StockMethods):
         """Every gearhead as a pandas DataFrame, one SI column per canonical field."""
         return self._view("gearheads")
 
-    def sql(self, query: str, params=None):
-        """Run a read-only SQL query; returns a pandas DataFrame."""
+    def sql(self, query: str, params=None, time_limit=None, memory_limit=None):
+        """Run a read-only SQL query; returns a pandas DataFrame.
+
+        The query gets ``time_limit`` seconds and ``memory_limit`` (bytes, or ``"4GB"``) at
+        most, defaults :data:`catalog.store.limits.DEFAULT_TIME_LIMIT` and
+        ``DEFAULT_MEMORY_LIMIT``; it cannot change settings or reach other files.
+        """
         import duckdb
 
+        from .store.limits import QueryLimits, bounded, fetch_arrow
+
+        limits = QueryLimits.of(time_limit, memory_limit, "sql")
+        limits.refuse_settings(query)
         with self.store.read() as con:
             try:
-                con.execute("SET enable_external_access = false")  # no COPY TO, no read_csv of other files
-                rel = con.sql(query, params=params) if params else con.sql(query)
-                if rel is None:
-                    import pandas as pd
+                with bounded(con, limits):
+                    rel = con.sql(query, params=params) if params else con.sql(query)
+                    if rel is None:
+                        import pandas as pd
 
-                    return pd.DataFrame()
-                return rel.to_arrow_table().to_pandas()
+                        return pd.DataFrame()
+                    return fetch_arrow(rel, limits).to_pandas()
             except duckdb.Error as exc:
                 if is_damage(exc):
                     raise self.store.damaged(exc) from None

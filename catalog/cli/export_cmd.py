@@ -9,7 +9,7 @@ from pathlib import Path
 import click
 
 from . import Context, cli, handle_errors
-from .output import echo
+from .output import QUERY_LIMIT_OPTIONS, echo
 
 OUT_UNITS_OPTION = click.option(
     "--units", "units", type=click.Choice(["si", "datasheet", "imperial"]), default="datasheet",
@@ -63,9 +63,10 @@ def _check_out(path: str, allowed: tuple) -> Path:
 @click.option("--param", "params", multiple=True, metavar="NAME=VALUE",
               help="A named value of --where ($NAME), e.g. --param m=0.2; repeat for several.")
 @OUT_UNITS_OPTION
+@QUERY_LIMIT_OPTIONS
 @click.pass_obj
 @handle_errors
-def export_cmd(obj: Context, kind, out, where, params, units):
+def export_cmd(obj: Context, kind, out, where, params, units, time_limit, memory_limit):
     """Write the motors or gearheads of the catalogue (all, or those matching --where) to a file.
 
     XLSX has a sheet with the records and one with the provenance of every value; ids and part
@@ -78,7 +79,8 @@ def export_cmd(obj: Context, kind, out, where, params, units):
     path = _check_out(out, tuple(FORMATS))
     values = parse_params(params)
     cat = obj.catalog()
-    written, count = export_catalogue(cat, kind, path, where=where, params=values, units=units)
+    written, count = export_catalogue(cat, kind, path, where=where, params=values, units=units,
+                                      time_limit=time_limit, memory_limit=memory_limit)
     shown = "si (Parquet keeps SI)" if path.suffix.lower() == ".parquet" else units
     echo(f"{written}: {count} {kind} written ({shown} units)")
 

@@ -1,7 +1,7 @@
 """Shared output helpers of the CLI: tables in the terminal, CSV and JSON."""
 from __future__ import annotations
 
-__all__ = ["FORMAT_OPTION", "UNITS_OPTION", "print_frame", "format_number", "safe_text", "echo"]
+__all__ = ["FORMAT_OPTION", "UNITS_OPTION", "QUERY_LIMIT_OPTIONS", "print_frame", "format_number", "safe_text", "echo"]
 
 import math
 import re
@@ -12,6 +12,15 @@ FORMAT_OPTION = click.option("--format", "fmt", type=click.Choice(["table", "csv
                              show_default=True, help="Output format.")
 UNITS_OPTION = click.option("--units", "units", type=click.Choice(["si", "datasheet", "imperial"]),
                             default="datasheet", show_default=True, help="Units to display values in.")
+
+
+def QUERY_LIMIT_OPTIONS(func):  # noqa: N802 - used as a decorator like the options above
+    """``--time-limit`` and ``--memory-limit`` of a query written by the user (sql, export --where)."""
+    func = click.option("--memory-limit", "memory_limit", default=None, metavar="SIZE",
+                        help="Memory the query may use, e.g. 4GB (default 1 GiB; spills to a temporary "
+                             "folder up to 4 times this).")(func)
+    return click.option("--time-limit", "time_limit", default=None, metavar="SECONDS",
+                        help="Seconds the query may run before it is stopped (default 20).")(func)
 
 
 #: Characters a terminal acts on rather than shows: C0 controls but tab and newline, DEL, C1

@@ -50,10 +50,14 @@ def _check_where(where: str) -> None:
         raise _where_problem(where, "expected one condition, found more than one statement")
 
 
-def _query(cat, view: str, where: str | None, params: dict | None):
-    """(records frame, values frame) of the view rows matching ``where``."""
+def _query(cat, view: str, where: str | None, params: dict | None, limits=None):
+    """(records frame, values frame) of the view rows matching ``where``, within ``limits``
+    (:class:`catalog.store.limits.QueryLimits`, default ones)."""
     import duckdb
 
+    from ..store.limits import QueryLimits, bounded, fetch_arrow
+
+    limits = limits or QueryLimits.of(option="--where")
     cond = ""
     if where:
         _check_where(where)
@@ -65,13 +69,9 @@ def _query(cat, view: str, where: str | None, params: dict | None):
     params = dict(params or {})
     with cat.store.read() as con:
         try:
-            con.execute("SET enable_external_access = false")
-            con.execute("SET lock_configuration = true")
-        except duckdb.Error:  # pragma: no cover - older duckdb
-            pass
-        try:
-            rows = (con.sql(sql, params=params) if params else con.sql(sql)).to_arrow_table().to_pandas()
-            vals = (con.sql(vsql, params=params) if params else con.sql(vsql)).to_arrow_table().to_pandas()
+            with bounded(con, limits):  # the condition is the user's SQL: time, memory, no settings
+                rows = fetch_arrow(con.sql(sql, params=params) if params else con.sql(sql), limits).to_pandas()
+                vals = fetch_arrow(con.sql(vsql, params=params) if params else con.sql(vsql), limits).to_pandas()
         except duckdb.Error as exc:
             if is_damage(exc):  # the file, not the condition
                 raise cat.store.damaged(exc) from None
@@ -152,8 +152,9 @@ def provenance_table(values, record_types: dict, preset: str = "datasheet", name
 
 
 def catalogue_tables(cat, kind: str, where: str | None = None, params: dict | None = None,
-                     preset: str = "datasheet"):
-    """``[records table, provenance table]`` of ``kind`` (``motors`` or ``gearheads``)."""
+                     preset: str = "datasheet", limits=None):
+    """``[records table, provenance table]`` of ``kind`` (``motors`` or ``gearheads``); ``limits``
+    bound the query of ``where`` (:class:`catalog.store.limits.QueryLimits`)."""
     from ..fields import fields_for
     from .columns import table_from_frame
 
@@ -161,7 +162,7 @@ def catalogue_tables(cat, kind: str, where: str | None = None, params: dict | No
         raise InputError(f"unknown kind {kind!r}, expected motors or gearheads",
                          [Problem("kind", None, None, f"{kind!r} is not motors or gearheads")])
     view, rtype = KINDS[kind]
-    rows, vals = _query(cat, view, where, params)
+    rows, vals = _query(cat, view, where, params, limits)
     order = [c for c in fields_for(rtype) if c in rows.columns]
     main = table_from_frame(rows, kind, preset, record_type=rtype, columns=order, freeze_columns=1)
     prov = provenance_table(vals.reset_index(drop=True), {r: rtype for r in rows["id"]}, preset)
@@ -169,7 +170,7 @@ def catalogue_tables(cat, kind: str, where: str | None = None, params: dict | No
 
 
 def export_catalogue(cat, kind: str, path, where: str | None = None, params: dict | None = None,
-                     units: str = "datasheet"):
+                     units: str = "datasheet", time_limit=None, memory_limit=None):
     """Write the ``motors`` or ``gearheads`` of ``cat`` (optionally filtered) to ``path``.
 
     Parameters
@@ -186,6 +187,8 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
         Named parameters of ``where`` (``{"m": 0.2}``).
     units : str
         Display preset ``si``, ``datasheet`` or ``imperial`` (Parquet is always SI).
+    time_limit, memory_limit : optional
+        Bounds of the query [s], [bytes or ``"4GB"``] (see :mod:`catalog.store.limits`).
 
     Returns
     -------
@@ -194,8 +197,11 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
     """
     from .writers import format_for, write_tables
 
+    from ..store.limits import QueryLimits
+
     format_for(path)
-    tables = catalogue_tables(cat, kind, where, params, units)
+    limits = QueryLimits.of(time_limit, memory_limit, "--where")  # one statement only: _check_where
+    tables = catalogue_tables(cat, kind, where, params, units, limits)
     about = about_block(cat, units if format_for(path) != "parquet" else "si", export=kind,
                         where=where or "", parameters=dict(params or {}), records=len(tables[0]))
     return write_tables(tables, path, about), len(tables[0])

@@ -209,6 +209,8 @@ def test_no_sql_is_built_from_text_in_the_import_path(folder):
         ("catalog/store/schema.py", "_column_expr"): "field names from schemas/*.json, asserted identifiers",
         ("catalog/store/schema.py", "view_sql"): "view and field names from the schema files",
         ("catalog/store/__init__.py", "_migrate"): "runs MIGRATIONS and view_sql(): constants of schema.py",
+        ("catalog/store/__init__.py", "_upgraded_reader"): "runs view_sql() as temporary views: schema.py",
+        ("catalog/store/limits.py", "bounded"): "a temporary folder made there and byte counts (integers)",
     }
     root = Path(__file__).resolve().parents[2]
     target = root / folder
