@@ -132,19 +132,28 @@ class Catalog(StockMethods):
         _, rtype = _kind(kind)
         return display_frame(self._view(kind), rtype, _preset(units), columns=LIST_COLUMNS[rtype])
 
-    def sql(self, query: str, params=None):
-        """Run a read-only SQL query; returns a pandas DataFrame."""
+    def sql(self, query: str, params=None, time_limit=None, memory_limit=None):
+        """Run a read-only SQL query; returns a pandas DataFrame.
+
+        The query gets ``time_limit`` seconds and ``memory_limit`` (bytes, or ``"4GB"``) at
+        most, defaults :data:`catalog.store.limits.DEFAULT_TIME_LIMIT` and
+        ``DEFAULT_MEMORY_LIMIT``; it cannot change settings or reach other files.
+        """
         import duckdb
 
+        from .store.limits import QueryLimits, bounded, fetch_arrow
+
+        limits = QueryLimits.of(time_limit, memory_limit, "sql")
+        limits.refuse_settings(query)
         with self.store.read() as con:
             try:
-                con.execute("SET enable_external_access = false")  # no COPY TO, no read_csv of other files
-                rel = con.sql(query, params=params) if params else con.sql(query)
-                if rel is None:
-                    import pandas as pd
+                with bounded(con, limits):
+                    rel = con.sql(query, params=params) if params else con.sql(query)
+                    if rel is None:
+                        import pandas as pd
 
-                    return pd.DataFrame()
-                return rel.to_arrow_table().to_pandas()
+                        return pd.DataFrame()
+                    return fetch_arrow(rel, limits).to_pandas()
             except duckdb.Error as exc:
                 if is_damage(exc):
                     raise self.store.damaged(exc) from None
@@ -325,7 +334,7 @@ class Catalog(StockMethods):
                 for rid, n in counts.items()}
 
     def export(self, kind: str, out, where: str | None = None, params: dict | None = None,
-               units: str = "metric"):
+               units: str = "metric", time_limit=None, memory_limit=None):
         """Write the ``motors``, ``gearheads`` (all, or those matching ``where``) or the ``stock`` items
         with their value to the file ``out``.
 
@@ -341,7 +350,8 @@ class Catalog(StockMethods):
         if kind != "stock":
             _kind(kind)
         path = check_out(out)
-        return export_catalogue(self, kind, path, where=where, params=params, units=_preset(units))
+        return export_catalogue(self, kind, path, where=where, params=params, units=_preset(units),
+                                time_limit=time_limit, memory_limit=memory_limit)
 
     def report(self, envelope, out, top: int | None = None, plots: int | None = None, units: str = "metric",
                side: str = "motor", stock: str | None = None):

@@ -6,7 +6,7 @@ import sys
 import click
 
 from . import Context, cli, handle_errors
-from .options import FORMAT_OPTION, UNITS_OPTION
+from .options import FORMAT_OPTION, QUERY_LIMIT_OPTIONS, UNITS_OPTION
 from .output import echo, format_number, print_frame
 
 
@@ -155,11 +155,12 @@ def show_cmd(obj: Context, record_id, units):
 @cli.command("sql")
 @click.argument("query")
 @FORMAT_OPTION
+@QUERY_LIMIT_OPTIONS
 @click.pass_obj
 @handle_errors
-def sql_cmd(obj: Context, query, fmt):
+def sql_cmd(obj: Context, query, fmt, time_limit, memory_limit):
     """Run a read-only SQL query on the catalogue (views: motors, gearheads; SI units)."""
-    df = obj.catalog().sql(query)
+    df = obj.catalog().sql(query, time_limit=time_limit, memory_limit=memory_limit)
     print_frame(df, fmt)
 
 

@@ -9,7 +9,7 @@ import click
 
 from ..export.formats import FORMATS, IMAGE_FORMATS, REPORT_EXTENSIONS, extension_list
 from . import Context, cli, handle_errors
-from .options import OUT_UNITS_OPTION, SIDE_OPTION, TOP_OPTION
+from .options import OUT_UNITS_OPTION, QUERY_LIMIT_OPTIONS, SIDE_OPTION, TOP_OPTION
 from .output import echo
 
 
@@ -44,9 +44,10 @@ def parse_params(items) -> dict:
 @click.option("--param", "params", multiple=True, metavar="NAME=VALUE",
               help="A named value of --where ($NAME), e.g. --param m=0.2; repeat for several.")
 @OUT_UNITS_OPTION
+@QUERY_LIMIT_OPTIONS
 @click.pass_obj
 @handle_errors
-def export_cmd(obj: Context, kind, out, where, params, units):
+def export_cmd(obj: Context, kind, out, where, params, units, time_limit, memory_limit):
     """Write the motors or gearheads of the catalogue (all, or those matching --where) to a file,
     or the stock: every item with its value, and the value per location and in total.
 
@@ -54,7 +55,8 @@ def export_cmd(obj: Context, kind, out, where, params, units):
     numbers are text cells.  CSV (RFC 4180, UTF-8) has the records only: a spreadsheet opening a
     CSV may still turn part numbers into dates, use the XLSX for spreadsheets.
     """
-    written, count = obj.catalog().export(kind, out, where=where, params=parse_params(params), units=units)
+    written, count = obj.catalog().export(kind, out, where=where, params=parse_params(params), units=units,
+                                          time_limit=time_limit, memory_limit=memory_limit)
     fmt = FORMATS[written.suffix.lower()]
     shown = f"si ({fmt.label} keeps SI)" if fmt.keeps_si else units
     echo(f"{written}: {count} {'stock items' if kind == 'stock' else kind} written ({shown} units)")

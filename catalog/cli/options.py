@@ -15,7 +15,7 @@ Where a name changed, the old spelling still works for a while: it is listed in
 from __future__ import annotations
 
 __all__ = ["Command", "Group", "OutputOption", "LazyChoice", "RENAMED_OPTIONS", "DB_OPTION", "FORMAT_OPTION",
-           "UNITS_OPTION", "OUT_UNITS_OPTION", "TOP_OPTION", "SIDE_OPTION"]
+           "UNITS_OPTION", "OUT_UNITS_OPTION", "TOP_OPTION", "SIDE_OPTION", "QUERY_LIMIT_OPTIONS"]
 
 import click
 
@@ -121,3 +121,12 @@ TOP_OPTION = click.option("--top", type=click.IntRange(min=1), default=None, met
                           help="Shortlist length (default: the envelope's ranking.top, else 10).")
 SIDE_OPTION = click.option("--side", type=click.Choice(["motor", "load"]), default="motor", show_default=True,
                            help="Draw each candidate's diagram at the motor shaft or at the gear output.")
+
+
+def QUERY_LIMIT_OPTIONS(func):  # noqa: N802 - used as a decorator like the options above
+    """``--time-limit`` and ``--memory-limit`` of a query written by the user (sql, export --where)."""
+    func = click.option("--memory-limit", "memory_limit", default=None, metavar="SIZE",
+                        help="Memory the query may use, e.g. 4GB (default 1 GiB; spills to a temporary "
+                             "folder up to 4 times this).")(func)
+    return click.option("--time-limit", "time_limit", default=None, metavar="SECONDS",
+                        help="Seconds the query may run before it is stopped (default 20).")(func)

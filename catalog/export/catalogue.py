@@ -51,10 +51,14 @@ def _check_where(where: str) -> None:
         raise _where_problem(where, "expected one condition, found more than one statement")
 
 
-def _query(cat, view: str, where: str | None, params: dict | None):
-    """(records frame, values frame) of the view rows matching ``where``."""
+def _query(cat, view: str, where: str | None, params: dict | None, limits=None):
+    """(records frame, values frame) of the view rows matching ``where``, within ``limits``
+    (:class:`catalog.store.limits.QueryLimits`, default ones)."""
     import duckdb
 
+    from ..store.limits import QueryLimits, bounded, fetch_arrow
+
+    limits = limits or QueryLimits.of(option="--where")
     cond = ""
     if where:
         _check_where(where)
@@ -66,13 +70,9 @@ def _query(cat, view: str, where: str | None, params: dict | None):
     params = dict(params or {})
     with cat.store.read() as con:
         try:
-            con.execute("SET enable_external_access = false")
-            con.execute("SET lock_configuration = true")
-        except duckdb.Error:  # pragma: no cover - older duckdb
-            pass
-        try:
-            rows = (con.sql(sql, params=params) if params else con.sql(sql)).to_arrow_table().to_pandas()
-            vals = (con.sql(vsql, params=params) if params else con.sql(vsql)).to_arrow_table().to_pandas()
+            with bounded(con, limits):  # the condition is the user's SQL: time, memory, no settings
+                rows = fetch_arrow(con.sql(sql, params=params) if params else con.sql(sql), limits).to_pandas()
+                vals = fetch_arrow(con.sql(vsql, params=params) if params else con.sql(vsql), limits).to_pandas()
         except duckdb.Error as exc:
             if is_damage(exc):  # the file, not the condition
                 raise cat.store.damaged(exc) from None
@@ -159,8 +159,9 @@ def provenance_table(values, record_types: dict, preset: str = "metric", name: s
 
 
 def catalogue_tables(cat, kind: str, where: str | None = None, params: dict | None = None,
-                     preset: str = "metric"):
-    """``[records table, provenance table]`` of ``kind`` (``motors`` or ``gearheads``)."""
+                     preset: str = "metric", limits=None):
+    """``[records table, provenance table]`` of ``kind`` (``motors`` or ``gearheads``); ``limits``
+    bound the query of ``where`` (:class:`catalog.store.limits.QueryLimits`)."""
     from ..fields import fields_for
     from .columns import apply_given_digits, table_from_frame
 
@@ -168,7 +169,7 @@ def catalogue_tables(cat, kind: str, where: str | None = None, params: dict | No
         raise InputError(f"unknown kind {kind!r}, expected motors or gearheads",
                          [Problem("kind", None, None, f"{kind!r} is not motors or gearheads")])
     view, rtype = KINDS[kind]
-    rows, vals = _query(cat, view, where, params)
+    rows, vals = _query(cat, view, where, params, limits)
     order = [c for c in fields_for(rtype) if c in rows.columns]
     main = table_from_frame(rows, kind, preset, record_type=rtype, columns=order, freeze_columns=1)
     apply_given_digits(main, vals)
@@ -185,7 +186,7 @@ def _export_stock(cat, path, where, units):
 
 
 def export_catalogue(cat, kind: str, path, where: str | None = None, params: dict | None = None,
-                     units: str = "metric"):
+                     units: str = "metric", time_limit=None, memory_limit=None):
     """Write the ``motors`` or ``gearheads`` of ``cat`` (optionally filtered) to ``path``.
 
     Parameters
@@ -204,6 +205,8 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
     units : str
         Display preset ``si``, ``metric`` (also read as ``datasheet``) or ``imperial`` (a format that
         keeps SI ignores it).
+    time_limit, memory_limit : optional
+        Bounds of the query [s], [bytes or ``"4GB"``] (see :mod:`catalog.store.limits`).
 
     Returns
     -------
@@ -212,10 +215,13 @@ def export_catalogue(cat, kind: str, path, where: str | None = None, params: dic
     """
     from .writers import format_for, units_written, write_tables_to_file
 
+    from ..store.limits import QueryLimits
+
     format_for(path)   # a wrong extension is an input error before any work
     if kind == "stock":
         return _export_stock(cat, path, where, units)
-    tables = catalogue_tables(cat, kind, where, params, units)
+    limits = QueryLimits.of(time_limit, memory_limit, "--where")  # one statement only: _check_where
+    tables = catalogue_tables(cat, kind, where, params, units, limits)
     about = about_block(cat, units_written(path, units), export=kind,
                         where=where or "", parameters=dict(params or {}), records=len(tables[0]))
     return write_tables_to_file(tables, path, about), len(tables[0])

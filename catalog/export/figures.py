@@ -44,7 +44,13 @@ def write_plots(selection, folder, catalog=None, units: str = "metric", side: st
     from .plots import plot_comparison, plot_speed_torque, save_figure
 
     folder = Path(folder)
-    folder.mkdir(parents=True, exist_ok=True)
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        from ..errors import InputError, Problem
+
+        text = f"{folder}: cannot create the folder ({exc.strerror or exc}); nothing was written"
+        raise InputError(f"--out: {text}", [Problem("--out", None, None, text)]) from None
     ids = list(candidates) if candidates is not None else list(selection.shortlist["candidate"])
     if not ids:
         return []

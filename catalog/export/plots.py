@@ -542,6 +542,8 @@ def save_figure(fig, path, fmt: str | None = None) -> Path:
         raise ValueError(f"plots are written as {' or '.join('.' + f for f in IMAGE_FORMATS)}, got {path.name!r}")
     import matplotlib
 
-    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": path.stem}):
-        fig.savefig(path, format=fmt, **IMAGE_FORMATS[fmt])
+    from ..store.files import output_file
+
+    with matplotlib.rc_context({"svg.fonttype": "none", "svg.hashsalt": path.stem}), output_file(path) as tmp:
+        fig.savefig(tmp, format=fmt, **IMAGE_FORMATS[fmt])
     return path

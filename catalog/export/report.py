@@ -302,9 +302,10 @@ def write_report(selection, path, units: str = "metric", catalog=None, side: str
     compare : int
         Candidates in the comparison diagram.
     """
+    from ..store.files import output_file
+
     path = Path(path)
     text = render_report(selection, units, catalog, side, plots, compare)
-    tmp = path.with_name(f".{path.name}.part")
-    tmp.write_text(text, encoding="utf-8")
-    tmp.replace(path)
+    with output_file(path) as tmp:
+        tmp.write_text(text, encoding="utf-8")
     return path

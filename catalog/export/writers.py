@@ -268,7 +268,27 @@ def write_xlsx(tables, path: Path, about: dict) -> None:
     _xlsx_sheet(wb, info, used)
     wb.properties.creator = "motorshelf"
     wb.properties.title = str(about.get("title", ""))
-    wb.save(path)
+    _save_workbook(wb, path)
+
+
+def _save_workbook(wb, path: Path) -> None:
+    """``wb.save(path)``, closing the archive when writing fails (a full disk): left open, it
+    would fail again when collected and print a traceback at exit."""
+    import datetime
+    import zipfile
+
+    from openpyxl.writer.excel import ExcelWriter
+
+    archive = zipfile.ZipFile(path, "w", zipfile.ZIP_DEFLATED, allowZip64=True)
+    wb.properties.modified = datetime.datetime.now(tz=datetime.timezone.utc).replace(tzinfo=None)
+    try:
+        ExcelWriter(wb, archive).save()
+    except BaseException:
+        try:
+            archive.close()
+        except OSError:
+            pass  # the error being raised says it already
+        raise
 
 
 def _about_text(v) -> str:
@@ -307,13 +327,10 @@ def write_tables_to_file(tables, path, about: dict | None = None, fmt: str | Non
     if not path.parent.exists():
         msg = _missing_folder(path)
         raise InputError(f"{path}: {msg}", [Problem(str(path), None, None, msg)])
-    tmp = path.with_name(f".{path.name}.part")
-    try:
+    from ..store.files import output_file
+
+    with output_file(path) as tmp:  # a new file of its own, renamed over path when whole
         globals()[fmt.writer](tables, tmp, about)   # the writer the format table names, in this module
-        tmp.replace(path)
-    finally:
-        if tmp.exists():
-            tmp.unlink()
     return path
 
 

@@ -11,6 +11,7 @@ from __future__ import annotations
 __all__ = ["default_id", "ImportReport", "read_and_check", "import_files", "validate_files", "write_rejects"]
 
 import csv
+import os
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -228,14 +229,38 @@ def write_rejects(path, checked) -> int:
                 cells = {h: ("" if v is None else v) for h, v in zip(raw.headers, r)}
             rows.append({"source_file": result.source, "source_row": row if row is not None else "",
                          "reasons": reasons, **cells})
+    from ..export.writers import neutralise
+    from ..store.files import output_file
+
     path = Path(path)
-    path.parent.mkdir(parents=True, exist_ok=True)
-    with path.open("w", newline="", encoding="utf-8") as fh:
-        writer = csv.DictWriter(fh, fieldnames=["source_file", "source_row", "reasons", *headers],
-                                extrasaction="ignore")
-        writer.writeheader()
-        writer.writerows(rows)
+    try:
+        path.parent.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        text = f"{path}: cannot create its folder ({exc.strerror or exc}); nothing was written"
+        raise InputError(f"--rejects: {text}", [Problem("--rejects", None, None, text)]) from None
+    fields = ["source_file", "source_row", "reasons", *headers]
+    with output_file(path, "--rejects") as tmp, tmp.open("w", newline="", encoding="utf-8") as fh:
+        writer = csv.writer(fh)  # a spreadsheet opens it: formula starts are neutralised as in every export
+        writer.writerow([neutralise(str(h)) for h in fields])
+        for row in rows:
+            writer.writerow([neutralise(v) if isinstance(v, str) else ("" if v is None else v)
+                             for v in (row.get(h, "") for h in fields)])
     return len(rows)
+
+
+def _rejects_is_an_input(rejects, paths, mapping) -> str | None:
+    """The input file (datasheet or mapping profile) that ``rejects`` names, or None."""
+    target = Path(rejects)
+    for given in [*paths, *([mapping] if mapping is not None else [])]:
+        given = Path(given)
+        try:
+            if target.exists() and given.exists() and os.path.samefile(target, given):
+                return str(given)
+        except OSError:
+            pass
+        if target.resolve() == given.resolve():
+            return str(given)
+    return None
 
 
 def validate_files(paths, mapping=None, manifest=None) -> ImportReport:
@@ -259,6 +284,11 @@ def import_files(store, paths, mapping=None, keep_valid=False, rejects=None, der
     if keep_valid and rejects is None:
         raise InputError("--keep-valid needs --rejects FILE to write the rejected rows to",
                          [Problem("--rejects", None, None, "missing, expected a file for the rejected rows")])
+    if rejects is not None:
+        same = _rejects_is_an_input(rejects, paths, mapping)
+        if same is not None:
+            text = f"{rejects} is {same}, an input of this import; expected another file for the rejected rows"
+            raise InputError(f"--rejects: {text}", [Problem("--rejects", None, None, text)])
     checked = read_and_check(paths, mapping, manifest, progress)
     report = ImportReport()
     kept = []  # (table, ids, keep mask) of the tables with rows to import

@@ -203,16 +203,17 @@ def _replace_given(con, incoming: list, batch: int, report) -> None:
         "WHERE (v.record_id, v.field) IN (SELECT record_id, field FROM incoming_values)", [batch]))[0]
     # the value columns only where they change (writing a column costs more than finding the rows),
     # the provenance of every value
-    same_key = "record_values.record_id = i.record_id AND record_values.field = i.field"
     con.execute(
         "UPDATE record_values SET value_num = i.value_num, value_text = i.value_text, raw_text = i.raw_text, "
         "raw_unit = i.raw_unit, origin = 'given', relation = NULL, inputs = NULL FROM incoming_values i "
-        f"WHERE {same_key} AND (record_values.value_num IS DISTINCT FROM i.value_num "
+        "WHERE record_values.record_id = i.record_id AND record_values.field = i.field "
+        "AND (record_values.value_num IS DISTINCT FROM i.value_num "
         "OR record_values.value_text IS DISTINCT FROM i.value_text OR record_values.raw_text IS DISTINCT FROM "
         "i.raw_text OR record_values.raw_unit IS DISTINCT FROM i.raw_unit OR record_values.origin <> 'given' "
         "OR record_values.relation IS NOT NULL OR record_values.inputs IS NOT NULL)")
     con.execute("UPDATE record_values SET source_file = i.source_file, source_row = i.source_row, batch_id = ? "
-                f"FROM incoming_values i WHERE {same_key}", [batch])
+                "FROM incoming_values i WHERE record_values.record_id = i.record_id "
+                "AND record_values.field = i.field", [batch])
     if moved < values.num_rows:  # fields the records did not hold yet
         con.execute(
             "INSERT INTO record_values SELECT i.record_id, i.field, i.value_num, i.value_text, i.raw_text, "

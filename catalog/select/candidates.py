@@ -20,7 +20,7 @@ values.
 """
 from __future__ import annotations
 
-__all__ = ["build_candidates", "Candidates", "GEAR_DIRECT", "GEAR_CATALOGUE", "GEAR_ASSUMED"]
+__all__ = ["build_candidates", "Candidates", "GEAR_DIRECT", "GEAR_CATALOGUE", "GEAR_ASSUMED", "MAX_CANDIDATES"]
 
 from collections.abc import Mapping
 
@@ -31,6 +31,9 @@ from ..physics import (CONSERVATIVE_MAGNET_COEFFICIENT, DEFAULT_REFERENCE_TEMPER
                        magnet_coefficient)
 
 GEAR_DIRECT, GEAR_CATALOGUE, GEAR_ASSUMED = 0, 1, 2
+#: Candidates one selection may hold (motors x gear options): each keeps its two row numbers
+#: and its verdicts (about 100 bytes), so ten million take about a gigabyte.
+MAX_CANDIDATES = 10_000_000
 
 _MOTOR = ["terminal_resistance", "torque_constant", "back_emf_constant", "friction_torque",
           "rotor_inertia", "thermal_resistance_winding_housing", "thermal_resistance_housing_ambient",
@@ -222,6 +225,26 @@ class Candidates(Mapping):
         self._cache.pop("motor_note", None)
 
 
+def _refuse_too_many(env, motor_mounts, options: dict, n_motor: int) -> None:
+    """Count the candidates before making any (a catalogue gearhead pairs with the motors of its
+    mount) and refuse more than :data:`MAX_CANDIDATES` with what to change."""
+    from ..errors import InputError, Problem
+
+    kind = options["kind"]
+    direct = n_motor if env.direct else 0
+    cat_mounts = pd.Series(options["mount"][kind == GEAR_CATALOGUE])
+    per_mount = cat_mounts[cat_mounts != ""].value_counts()
+    motor_counts = pd.Series(motor_mounts).value_counts()
+    catalogue = int((per_mount * motor_counts.reindex(per_mount.index).fillna(0)).sum())
+    assumed = n_motor * int(np.count_nonzero(kind == GEAR_ASSUMED))
+    total = direct + catalogue + assumed
+    if total > MAX_CANDIDATES:
+        message = (f"{total:,} candidates ({n_motor:,} motors: {direct:,} direct, {catalogue:,} with catalogue "
+                   f"gearheads, {assumed:,} with assumed ratios), expected at most {MAX_CANDIDATES:,}; use fewer "
+                   "ratios (gearing.ratios, gearing.ratio_range.steps) or leave catalogue gearheads out")
+        raise InputError(f"{env.source}: {message}", [Problem(env.source, None, "gearing", message)])
+
+
 def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Candidates:
     """Every candidate of the envelope.
 
@@ -293,6 +316,7 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
         options[c] = _text(table, c)
     options["kind"] = table["kind"].to_numpy(dtype=int) if len(table) else np.zeros(0, dtype=int)
     kind = options["kind"]
+    _refuse_too_many(env, mv["mount"], options, n_motor)
     motor_rows = np.arange(n_motor)
     if env.direct:
         pairs.append((motor_rows, np.zeros(n_motor, dtype=np.intp)))

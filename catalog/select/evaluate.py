@@ -38,7 +38,8 @@ depend on the motor only, so they are built once per motor of a chunk.
 """
 from __future__ import annotations
 
-__all__ = ["evaluate", "evaluate_all", "CHUNK", "WORKERS", "SHORT_PERIOD", "FALLBACK_TEMPERATURE"]
+__all__ = ["evaluate", "evaluate_all", "checked_in_chunks", "chunk_rows", "CHUNK", "CHUNK_BYTES", "WORKERS",
+           "SHORT_PERIOD", "FALLBACK_TEMPERATURE"]
 
 import os
 import threading
@@ -59,7 +60,18 @@ hot_winding_rise = _hot_winding_rise.__wrapped__
 resistance_at_temperature = _resistance_at_temperature.__wrapped__
 torque_constant_at_temperature = _torque_constant_at_temperature.__wrapped__
 
-CHUNK = 16384            #: candidates per chunk [-]
+CHUNK = 16384            #: candidates per chunk at most [-]
+#: Scratch memory of one chunk [bytes]: its (S, N) arrays (about :data:`_SEGMENT_ARRAYS` of
+#: them) stay within this whatever the number of segments S, so a chunk holds fewer candidates
+#: the longer the cycle (:func:`chunk_rows`).
+CHUNK_BYTES = 64 * 2**20
+#: The network's response matrices of a chunk's motors ((S + 1) x S each) are used where they fit
+#: in this [bytes]; else the network is swept segment by segment (the same numbers).
+RESPONSE_BYTES = 64 * 2**20
+#: The network maps of every motor of the catalogue (9 arrays of M x S) are built once where they
+#: fit in this [bytes]; else each chunk builds those of its own motors.
+MAPS_BYTES = 256 * 2**20
+_SEGMENT_ARRAYS = 16
 SHORT_PERIOD = 0.02      #: period/τ_w below which a repeated cycle is judged by its mean loss [1]
 WORKERS = max(1, min(4, os.cpu_count() or 1))  #: chunks evaluated at once (threads) [-]
 FALLBACK_TEMPERATURE = 428.15  #: winding temperature assumed where thermal data is missing [K]
@@ -122,6 +134,12 @@ def _buffer(name: str, shape: tuple) -> np.ndarray:
     return buf[:size].reshape(shape)
 
 
+def chunk_rows(n_segments: int) -> int:
+    """Candidates per chunk for ``n_segments`` segments: :data:`CHUNK`, fewer where its (S, N)
+    arrays would pass :data:`CHUNK_BYTES` (at least 64)."""
+    return int(max(64, min(CHUNK, CHUNK_BYTES // (8 * _SEGMENT_ARRAYS * max(1, n_segments)))))
+
+
 def _motor_runs(motor_ix):
     """(first row of each run of one motor, run lengths) of a chunk."""
     starts = np.flatnonzero(np.r_[True, motor_ix[1:] != motor_ix[:-1]])
@@ -156,11 +174,13 @@ def _cold_rise(env, c, t_sq, usable, motor_maps=None):
         maps = NetworkMaps(*(a[mix[starts]] if a.ndim > 1 else a for a in motor_maps))
     else:
         maps = network_segment_maps(dur, *(c[k][first] for k in THERMAL_NETWORK_FIELDS), periodic=bool(env.repeat))
-    if motor_maps is not None and np.all(runs == runs[0]):   # a regular block: one matmul per motor
+    regular = bool(np.all(runs == runs[0]))
+    fits = len(starts) * (len(dur) + 1) * len(dur) * 8 <= RESPONSE_BYTES
+    if motor_maps is not None and regular and fits:   # a regular block: one matmul per motor
         # (built here for the chunk's few motors: small arrays, reused memory)
         peak = network_peak_rise_grid(sub.reshape(len(dur), len(starts), int(runs[0])),
                                       network_response(maps)).reshape(-1)
-    elif np.all(runs == runs[0]):     # a regular block (motor × ratios): the maps broadcast, no gather
+    elif regular:     # a regular block (motor × ratios): the maps broadcast, no gather
         grid = NetworkMaps(*(a[:, None] if a.ndim > 1 else a for a in maps))
         peak = network_peak_rise(sub.reshape(len(dur), len(starts), int(runs[0])), grid,
                                  segments_first=True).reshape(-1)
@@ -325,15 +345,31 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     return out
 
 
-def _chunk_starts(motor_ix, total: int) -> list:
-    """Chunk boundaries near every CHUNK rows, moved to the start of a motor's run (so a
-    regular block of motor × ratios stays whole and its thermal maps broadcast)."""
-    if total <= CHUNK:
+def _chunk_starts(motor_ix, total: int, size: int = CHUNK) -> list:
+    """Chunk boundaries near every ``size`` rows, moved to the start of a motor's run (so a
+    regular block of motor × ratios stays whole and its thermal maps broadcast); a motor with
+    more than ``size`` candidates is split, so no chunk holds more than ``size``."""
+    if total <= size:
         return [0]
     run_starts = np.flatnonzero(np.r_[True, motor_ix[1:] != motor_ix[:-1]])
-    cuts = np.searchsorted(run_starts, np.arange(0, total, CHUNK))
+    cuts = np.searchsorted(run_starts, np.arange(0, total, size))
     starts = np.unique(run_starts[np.minimum(cuts, len(run_starts) - 1)])
-    return [int(s) for s in starts]
+    bounds = np.r_[starts, total]
+    if np.all(np.diff(bounds) <= size):
+        return [int(s) for s in starts]
+    return [int(s) for lo, hi in zip(bounds[:-1], bounds[1:]) for s in range(lo, hi, size)]
+
+
+def checked_in_chunks(env, c: dict, **kw) -> dict:
+    """:func:`checked` of candidate rows ``c`` (a dict of arrays), chunk by chunk (bounded
+    memory whatever their number and the envelope's segments), concatenated."""
+    n = len(c["terminal_resistance"])
+    size = chunk_rows(len(env.duration))   # the evaluated segments (split at zero crossings)
+    if n <= size:
+        return checked(env, c, **kw)
+    seg = kw.pop("seg", None) or _segments(env)
+    parts = [checked(env, {k: v[lo:lo + size] for k, v in c.items()}, seg=seg, **kw) for lo in range(0, n, size)]
+    return {k: (np.concatenate([p[k] for p in parts]) if np.ndim(parts[0][k]) else parts[0][k]) for k in parts[0]}
 
 
 def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: bool = False,
@@ -383,12 +419,13 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
     if not total:
         return {}
     seg = _segments(env)
-    if is_set and env.mode == "cycle":   # the network maps of every motor, once (motor_ix indexes them)
-        mt = cand.motors
+    n_seg = len(env.duration)
+    if is_set and env.mode == "cycle" and 9 * 8 * n_seg * len(cand.motors["id"]) <= MAPS_BYTES:
+        mt = cand.motors   # the network maps of every motor, once (motor_ix indexes them)
         with np.errstate(all="ignore"):
             seg["motor_maps"] = network_segment_maps(env.duration, *(mt[k] for k in THERMAL_NETWORK_FIELDS),
                                                      periodic=bool(env.repeat))
-    starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total)
+    starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total, chunk_rows(n_seg))
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
     wanted = None if keep is None else {"passed", *("fails_" + k for k in CHECKS), *keep}

@@ -18,7 +18,7 @@ from .candidates import GEAR_ASSUMED, GEAR_CATALOGUE, GEAR_DIRECT, build_candida
 from .checks import check_keys, estimate_flags, reason_texts
 from .registry import CHECKS, checks, margin_columns, value_columns
 from .envelope import load_envelope
-from .evaluate import EVAL_KEYS, checked, evaluate, evaluate_all
+from .evaluate import EVAL_KEYS, checked_in_chunks, evaluate, evaluate_all
 
 #: Who makes the parts and their part numbers (to order them); gear columns empty without a catalogue gearhead.
 PART_COLUMNS = ["manufacturer", "part_number", "gear_manufacturer", "gear_part_number"]
@@ -43,15 +43,55 @@ _GEAR_KIND = {GEAR_DIRECT: "direct", GEAR_CATALOGUE: "catalogue", GEAR_ASSUMED: 
 
 
 def _pareto(values: np.ndarray) -> np.ndarray:
-    """Non-dominated rows of ``values`` (P, K), smaller is better (chunked broadcast)."""
-    v = np.where(np.isnan(values), np.inf, values)
-    keep = np.ones(len(v), bool)
-    for start in range(0, len(v), 1024):
-        block = v[start:start + 1024][:, None, :]          # (B, 1, K)
-        le = np.all(v[None, :, :] <= block, axis=2)          # other j at least as good everywhere
-        lt = np.any(v[None, :, :] < block, axis=2)
-        keep[start:start + 1024] = ~np.any(le & lt, axis=1)
-    return keep
+    """Non-dominated rows of ``values`` (P, K), smaller is better, K at most 3; NaN counts as worst.
+
+    A row dominates another if it is no worse in every key and better in one; only a row
+    before it in lexicographic order can dominate a row.  Equal rows share their verdict, so
+    the distinct rows are swept in that order: with one key only the first is kept; with two,
+    a row is dominated if an earlier row has a second key no larger; with three, if an earlier
+    row is no larger in the last two keys (a staircase of the earlier rows' minima, searched
+    block by block, plus the pairs inside each block).  Memory is bounded by the block, time
+    grows as P log P (the former pairwise comparison of every row with every row did not
+    finish on a million passing candidates).
+    """
+    v = np.where(np.isnan(values), np.inf, np.asarray(values, dtype=float))
+    n, k = v.shape
+    if n == 0:
+        return np.zeros(0, bool)
+    order = np.lexsort(v.T[::-1])                       # lexicographic order of the rows
+    ordered = v[order]
+    first = np.r_[True, np.any(ordered[1:] != ordered[:-1], axis=1)]
+    rows = ordered[first]                                 # the distinct rows, in that order
+    inverse = np.empty(n, dtype=np.intp)
+    inverse[order] = np.cumsum(first) - 1
+    m = len(rows)
+    dominated = np.zeros(m, bool)
+    if k == 1:
+        dominated[1:] = True
+    elif k == 2:
+        earlier = np.minimum.accumulate(rows[:, 1])
+        dominated[1:] = earlier[:-1] <= rows[1:, 1]
+    elif k == 3:
+        stair1 = np.zeros(0)   # the earlier rows' (key 1, key 2) minima: key 1 rising, key 2 falling
+        stair2 = np.zeros(0)
+        block = 256
+        for lo in range(0, m, block):
+            b = rows[lo:lo + block]
+            at = np.searchsorted(stair1, b[:, 1], side="right") - 1
+            hit = at >= 0
+            dominated[lo:lo + len(b)][hit] = stair2[at[hit]] <= b[hit, 2]
+            inside = (b[None, :, 1] <= b[:, None, 1]) & (b[None, :, 2] <= b[:, None, 2])   # [i, j]: j no worse
+            inside &= np.tri(len(b), k=-1, dtype=bool)                                       # j before i
+            dominated[lo:lo + len(b)] |= inside.any(axis=1)
+            k1 = np.concatenate([stair1, b[:, 1]])
+            k2 = np.concatenate([stair2, b[:, 2]])
+            order = np.lexsort((k2, k1))
+            k1, k2 = k1[order], k2[order]
+            keep = np.r_[True, k2[1:] < np.minimum.accumulate(k2)[:-1]]
+            stair1, stair2 = k1[keep], k2[keep]
+    else:
+        raise ValueError("at most three Pareto keys")
+    return ~dominated[inverse]
 
 
 class Selection:
@@ -316,7 +356,7 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
             """Every column of the candidates at positions ``at``: the evaluation and checks run again on
             these rows (the same arithmetic as for the verdicts), then their texts."""
             c = cand.take(at)
-            r = checked(env, {k: c[k] for k in keys})
+            r = checked_in_chunks(env, {k: c[k] for k in keys})
             failed, reasons, notes = reason_texts(env, c, r)
             out = {"rank": rank[at], "candidate": c["id"], "motor": c["motor"], "gear": c["gear"], "ratio": c["ratio"]}
             for column, source in parts:

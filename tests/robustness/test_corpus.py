@@ -38,10 +38,17 @@ def _stock_count_args(folder: Path, spec: dict, db: Path) -> list:
     return ["--db", db, "stock", "count", folder / spec["file"]]
 
 
+def _cli_args(folder: Path, spec: dict, db: Path) -> list:
+    """A command's arguments, one per line of the case's file (no file of the case is read by it)."""
+    lines = (folder / spec["file"]).read_text(encoding="utf-8").splitlines()
+    return ["--db", db, *lines]
+
+
 #: runner name (``runner:`` of an expected.yaml) -> (command, matching check command or None).
 RUNNERS = {"import": (_import_args, _validate_args),
            "select": (_select_args, None),
-           "stock": (_stock_import_args, _stock_count_args)}
+           "stock": (_stock_import_args, _stock_count_args),
+           "cli": (_cli_args, None)}
 
 
 def _areas():

@@ -214,6 +214,7 @@ def test_no_sql_is_built_from_text_in_the_import_path(folder):
         ("catalog/store/derived.py", "_replace_flags"): "scope: a constant condition of derive_in_store",
         ("catalog/ingest/writer.py", "_replace_given"): "same_key: a constant join condition",
         ("catalog/store/__init__.py", "_upgraded_reader"): "runs all_view_sql(): view and field names of the schema",
+        ("catalog/store/limits.py", "bounded"): "a temporary folder made there and byte counts (integers)",
     }
     root = Path(__file__).resolve().parents[2]
     target = root / folder
