@@ -86,12 +86,28 @@ def _style(ax):
     ax.tick_params(colors=PALETTE["text"], labelsize=9)
 
 
+def _quiet(func):
+    """Draw with numpy's floating-point warnings off: extreme values overflow to inf (refused by
+    :func:`_drawable`), numpy's warnings about it would only be noise on the terminal."""
+    import functools
+
+    @functools.wraps(func)
+    def quiet(*args, **kwargs):
+        import numpy as np
+
+        with np.errstate(all="ignore"):
+            return func(*args, **kwargs)
+
+    return quiet
+
+
 def _figure(width=8.0, height=5.6):
     from matplotlib.figure import Figure
 
     return Figure(figsize=(width, height), dpi=110, layout="constrained")
 
 
+@_quiet
 def plot_speed_torque(model: MotorModel, cond: Conditions, points=(), units: str = "datasheet",
                       side: str = "motor", title: str | None = None, subtitle: str | None = None):
     """The speed-torque diagram of one motor; returns a matplotlib Figure.
@@ -150,6 +166,7 @@ def plot_speed_torque(model: MotorModel, cond: Conditions, points=(), units: str
     y_max = 1.08 * max([v for v in w_top if math.isfinite(v)] + [1.0])
     x_max = 1.06 * max(v for v in x_right if math.isfinite(v)) or 1.0
     x_min = min(0.0, 1.1 * min([float(np.min(x)) for _, x, _ in pts] + [0.0]))
+    _drawable(fig, title or model.label, x_min, x_max, y_max)
     ax.set_xlim(x_min, x_max)
     ax.set_ylim(0.0, y_max)
 
@@ -253,6 +270,7 @@ class _Labeller:
                          bbox=dict(boxstyle="round,pad=0.12", fc="white", ec="none", alpha=0.75))
 
 
+@_quiet
 def plot_comparison(entries, units: str = "datasheet", side: str = "load", title: str = "", load=None):
     """The hot speed-torque lines, continuous limits and points of several candidates.
 
@@ -304,6 +322,7 @@ def plot_comparison(entries, units: str = "datasheet", side: str = "load", title
             ax.annotate(p.name, (px[-1], (py[0] + py[-1]) / 2), xytext=(5, 3), textcoords="offset points",
                         fontsize=7.5, color=PALETTE["text"], zorder=6)
             x_hi.append(float(np.max(px)))
+    _drawable(fig, title or "the comparison", min(0.0, ax.get_xlim()[0]), 1.06 * max(x_hi), 1.08 * max(y_hi))
     ax.set_xlim(min(0.0, ax.get_xlim()[0]), 1.06 * max(x_hi))
     ax.set_ylim(0.0, 1.08 * max(y_hi))
     where = "gear output" if side == "load" else "motor shaft"
@@ -315,6 +334,21 @@ def plot_comparison(entries, units: str = "datasheet", side: str = "load", title
     if ax.get_legend_handles_labels()[0]:
         fig.legend(loc="outside lower center", ncol=2, fontsize=8, frameon=False)
     return fig
+
+
+def _drawable(fig, what: str, *limits) -> None:
+    """Refuse a diagram whose axes would reach beyond floating point (a record with values such as
+    1e300 N·m): one clear error instead of matplotlib's."""
+    if all(math.isfinite(v) for v in limits):
+        return
+    import matplotlib.pyplot as plt
+
+    from ..errors import InputError, Problem
+
+    plt.close(fig)
+    message = (f"{what}: the diagram would reach beyond floating point (values such as 1e300 in the record), "
+               "expected the values of a real motor; check the record with `motorshelf show`")
+    raise InputError(message, [Problem("plot", None, None, message)])
 
 
 def save_figure(fig, path, fmt: str | None = None) -> Path:
