@@ -48,11 +48,12 @@ def format_number(value, digits: int = 4) -> str:
 
 def print_frame(df, fmt: str = "table", title: str | None = None) -> None:
     """Print a DataFrame as a terminal table, CSV or JSON records."""
-    if fmt == "csv":
-        click.echo(df.to_csv(index=False), nl=False)
+    if fmt == "csv":  # printed for a terminal: escapes as in the tables (`export` writes exact text)
+        click.echo(safe_text(df.to_csv(index=False)), nl=False)
         return
-    if fmt == "json":
-        click.echo(df.to_json(orient="records", indent=2, force_ascii=False, double_precision=15))
+    if fmt == "json":  # JSON escapes of the same characters: still exact JSON, inert on a terminal
+        text = df.to_json(orient="records", indent=2, force_ascii=False, double_precision=15, date_format="iso")
+        click.echo(_TERMINAL_ACTIVE.sub(lambda m: f"\\u{ord(m.group()):04x}", text))
         return
     from rich.console import Console
     from rich.table import Table

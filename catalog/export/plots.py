@@ -88,6 +88,21 @@ def _style(ax):
     ax.tick_params(colors=PALETTE["text"], labelsize=9)
 
 
+def _quiet(func):
+    """Draw with numpy's floating-point warnings off: extreme values overflow to inf (refused by
+    :func:`_drawable`), numpy's warnings about it would only be noise on the terminal."""
+    import functools
+
+    @functools.wraps(func)
+    def quiet(*args, **kwargs):
+        import numpy as np
+
+        with np.errstate(all="ignore"):
+            return func(*args, **kwargs)
+
+    return quiet
+
+
 def _figure(width=8.0, height=5.6):
     from matplotlib.figure import Figure
 
@@ -179,6 +194,7 @@ def corner_title(title: str, model: MotorModel, cond: Conditions, side: str, uni
             f"{temperature_text(cond.winding_temperature, units)}")
 
 
+@_quiet
 def plot_speed_torque(model: MotorModel, cond: Conditions, points=(), units: str = "metric",
                       side: str = "motor", title: str | None = None, subtitle: str | None = None):
     """The speed-torque diagram of one motor; returns a matplotlib Figure.
@@ -237,6 +253,7 @@ def plot_speed_torque(model: MotorModel, cond: Conditions, points=(), units: str
     if "cold" in lines and xs:
         speeds.append(float(np.nanmax(np.interp(xs, *lines["cold"]))))
     x_min, x_max, y_max = _extent(xs, ys, list(vert.values()) + list(back.values()), stalls, hot_at, speeds)
+    _drawable(None, title or model.label, x_min, x_max, y_max)
     if x_min < 0:           # the lines reach the left edge (where the load drives the motor)
         left = _motor_torque(x_min, model, side)
         for key in lines:
@@ -416,6 +433,7 @@ class _Labeller:
                          bbox=dict(boxstyle="round,pad=0.12", fc="white", ec="none", alpha=0.75))
 
 
+@_quiet
 def plot_comparison(entries, units: str = "metric", side: str = "load", title: str = "", load=None):
     """The hot speed-torque lines, continuous limits and points of several candidates.
 
@@ -472,6 +490,7 @@ def plot_comparison(entries, units: str = "metric", side: str = "load", title: s
     stalls = [float(d[2][0][-1]) for d in drawn]
     speeds = [float(np.max(d[2][1])) for d in drawn]
     x_min, x_max, y_max = _extent(xs, ys, [d[3] for d in drawn], stalls, hot_at, speeds)
+    _drawable(fig, title or "the comparison", x_min, x_max, y_max)
     if x_min < 0:           # each hot line reaches the left edge
         for k, (i, model, line, cont, pts, hot, si) in enumerate(drawn):
             ts = np.array([_motor_torque(x_min, model, side), 0.0, hot["stall_torque"]])
@@ -532,6 +551,22 @@ def plot_comparison(entries, units: str = "metric", side: str = "load", title: s
     if ax.get_legend_handles_labels()[0]:
         fig.legend(loc="outside lower center", ncol=2, fontsize=8, frameon=False)
     return fig
+
+
+def _drawable(fig, what: str, *limits) -> None:
+    """Refuse a diagram whose axes would reach beyond floating point (a record with values such as
+    1e300 N·m): one clear error instead of matplotlib's."""
+    if all(math.isfinite(v) for v in limits):
+        return
+    import matplotlib.pyplot as plt
+
+    from ..errors import InputError, Problem
+
+    if fig is not None:
+        plt.close(fig)
+    message = (f"{what}: the diagram would reach beyond floating point (values such as 1e300 in the record), "
+               "expected the values of a real motor; check the record with `motorshelf show`")
+    raise InputError(message, [Problem("plot", None, None, message)])
 
 
 def save_figure(fig, path, fmt: str | None = None) -> Path:

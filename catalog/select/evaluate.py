@@ -200,6 +200,21 @@ def _argmax_rows(a, top):
     return idx
 
 
+def _quiet(func):
+    """Run ``func`` with numpy's floating-point warnings off (in the thread that runs it: the
+    setting is per thread).  Extreme datasheet values (1e300 N·m) overflow to inf and fail their
+    checks; numpy's warnings about it would only reach the user's terminal as noise."""
+    import functools
+
+    @functools.wraps(func)
+    def quiet(*args, **kwargs):
+        with np.errstate(all="ignore"):
+            return func(*args, **kwargs)
+
+    return quiet
+
+
+@_quiet
 def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict | None = None,
              where: bool = True) -> dict:
     """Evaluate one chunk of candidates.
@@ -372,6 +387,7 @@ def checked_in_chunks(env, c: dict, **kw) -> dict:
     return {k: (np.concatenate([p[k] for p in parts]) if np.ndim(parts[0][k]) else parts[0][k]) for k in parts[0]}
 
 
+@_quiet
 def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: bool = False,
             where: bool = True) -> dict:
     """:func:`evaluate` plus the checks (no texts) of candidate rows ``c``.

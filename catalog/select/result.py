@@ -357,7 +357,8 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
             these rows (the same arithmetic as for the verdicts), then their texts."""
             c = cand.take(at)
             r = checked_in_chunks(env, {k: c[k] for k in keys})
-            failed, reasons, notes = reason_texts(env, c, r)
+            with np.errstate(all="ignore"):   # extreme values overflow to inf in the texts' numbers
+                failed, reasons, notes = reason_texts(env, c, r)
             out = {"rank": rank[at], "candidate": c["id"], "motor": c["motor"], "gear": c["gear"], "ratio": c["ratio"]}
             for column, source in parts:
                 out[column] = pd.Series(c[source], dtype=object).map(parts[(column, source)]).to_numpy(dtype=object)

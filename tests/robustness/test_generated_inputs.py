@@ -126,6 +126,53 @@ def test_xlsx_zip_bomb_is_refused_before_parsing(prefilled, template_snapshot, t
         summary(prefilled, 1)]
 
 
+def rewritten(src, dst, member: str, change):
+    """A copy of the workbook ``src`` with the zip member ``member`` passed through ``change``."""
+    with zipfile.ZipFile(src) as zf:
+        parts = {name: zf.read(name) for name in zf.namelist()}
+    parts[member] = change(parts[member])
+    with zipfile.ZipFile(dst, "w", zipfile.ZIP_DEFLATED) as zf:
+        for name, data in parts.items():
+            zf.writestr(name, data)
+    return dst
+
+
+SHEET = "xl/worksheets/sheet1.xml"
+BOMB = (b'<?xml version="1.0"?>\n<!DOCTYPE x [<!ENTITY a "aaaaaaaaaa">'
+        + b"".join(b'<!ENTITY %s "%s">' % (bytes([98 + i]), b"&%s;" % bytes([97 + i]) * 10) for i in range(8))
+        + b"]>\n")
+
+
+def _body(xml: bytes) -> bytes:
+    return xml.split(b"?>", 1)[-1]
+
+
+@pytest.mark.parametrize("case, member, change, message", [
+    ("cut-off sheet", SHEET, lambda d: d[: len(d) // 2],
+     "damaged XML: "),  # where the XML parser stops depends on where the cut falls
+    ("cut-off workbook part", "xl/workbook.xml", lambda d: d[: len(d) // 2], "damaged XML: "),
+    ("entity declaration", SHEET, lambda d: b'<?xml version="1.0"?>\n<!DOCTYPE x [<!ENTITY e "Sheet Motors">]>\n'
+     + _body(d).replace(b"Sheet Motors", b"&e;"), SHEET + " declares XML entities (<!DOCTYPE>), which spreadsheet "
+     "programs never write"),
+    ("entity bomb", SHEET, lambda d: BOMB + _body(d).replace(b"<sheetData>", b"<sheetData>&i;"),
+     SHEET + " declares XML entities (<!DOCTYPE>), which spreadsheet programs never write"),
+    ("entity bomb in the workbook part", "xl/workbook.xml", lambda d: BOMB + _body(d),
+     "xl/workbook.xml declares XML entities (<!DOCTYPE>), which spreadsheet programs never write"),
+    ("number cell holding text", SHEET, lambda d: d.replace(b'<c r="C2" t="n"><v>5</v>', b'<c r="C2" t="n"><v>abc</v>'),
+     "damaged content: ValueError: invalid literal for int() with base 10: 'abc'"),
+    ("shared string beyond the table", SHEET,
+     lambda d: d.replace(b'<c r="C2" t="n"><v>5</v>', b'<c r="C2" t="s"><v>99</v>'),
+     "damaged content: IndexError: list index out of range"),
+])
+def test_damaged_or_hostile_workbook_xml(prefilled, template_snapshot, tmp_path, case, member, change, message):
+    good = workbook(tmp_path / "g.xlsx", [HEAD, ["Sheet Motors", "X-1", 5, None]])
+    path = rewritten(good, tmp_path / "bad.xlsx", member, change)
+    lines = rejected(prefilled, template_snapshot, path)
+    assert lines[1:] == [summary(prefilled, 1)]
+    assert lines[0].startswith(f"{path}: not a readable .xlsx workbook ({message}"), lines[0]
+    assert lines[0].endswith(")")
+
+
 # -- text files beyond the committed corpus ------------------------------------------------
 
 def test_nul_byte_after_the_first_block_of_a_csv(prefilled, template_snapshot, tmp_path):
