@@ -213,8 +213,6 @@ def plot_speed_torque(model: MotorModel, cond: Conditions, points=(), units: str
     """
     import numpy as np
 
-    from ..units import choose_label, parse_unit
-
     ch = characteristics(model, cond)
 
     def si(t, w):
@@ -262,16 +260,7 @@ def plot_speed_torque(model: MotorModel, cond: Conditions, points=(), units: str
             lines[key] = si(ts, c["no_load_speed"] - ts * c["no_load_speed"] / c["stall_torque"])
 
     # units by magnitude, then everything in display units
-    tl = choose_label(max(abs(x_min), abs(x_max)), "torque", units)
-    wl = choose_label(y_max, "angular_speed", units)
-    tc, wc = parse_unit(tl, "torque"), parse_unit(wl, "angular_speed")
-
-    def dt(t):
-        return (np.asarray(t, dtype=float) - tc.offset) / tc.factor
-
-    def dw(w):
-        return (np.asarray(w, dtype=float) - wc.offset) / wc.factor
-
+    tl, wl, dt, dw = _display_axes(x_min, x_max, y_max, units)
     X0, X1, Y1 = float(dt(x_min)), float(dt(x_max)), float(dw(y_max))
     fig = _figure(8.0, 6.0)
     ax = fig.add_subplot(1, 1, 1)
@@ -446,8 +435,6 @@ def plot_comparison(entries, units: str = "metric", side: str = "load", title: s
     """
     import numpy as np
 
-    from ..units import choose_label, parse_unit
-
     fig = _figure(8.0, 6.0)
     ax = fig.add_subplot(1, 1, 1)
     _style(ax)
@@ -496,16 +483,7 @@ def plot_comparison(entries, units: str = "metric", side: str = "load", title: s
             ts = np.array([_motor_torque(x_min, model, side), 0.0, hot["stall_torque"]])
             line = si(ts, hot["no_load_speed"] - ts * hot["no_load_speed"] / hot["stall_torque"])
             drawn[k] = (i, model, line, cont, pts, hot, si)
-    tl = choose_label(max(abs(x_min), abs(x_max)), "torque", units)
-    wl = choose_label(y_max, "angular_speed", units)
-    tc, wc = parse_unit(tl, "torque"), parse_unit(wl, "angular_speed")
-
-    def dt(t):
-        return (np.asarray(t, dtype=float) - tc.offset) / tc.factor
-
-    def dw(w):
-        return (np.asarray(w, dtype=float) - wc.offset) / wc.factor
-
+    tl, wl, dt, dw = _display_axes(x_min, x_max, y_max, units)
     X0, X1, Y1 = float(dt(x_min)), float(dt(x_max)), float(dw(y_max))
     for i, model, line, cont, pts, _, _ in drawn:
         colour = _SERIES[i % len(_SERIES)]
@@ -551,6 +529,26 @@ def plot_comparison(entries, units: str = "metric", side: str = "load", title: s
     if ax.get_legend_handles_labels()[0]:
         fig.legend(loc="outside lower center", ncol=2, fontsize=8, frameon=False)
     return fig
+
+
+def _display_axes(x_min: float, x_max: float, y_max: float, units: str):
+    """(torque label, speed label, SI torque → display, SI speed → display): units chosen by the
+    magnitude of the axes [SI] in the preset ``units``."""
+    import numpy as np
+
+    from ..units import choose_label, parse_unit
+
+    tl = choose_label(max(abs(x_min), abs(x_max)), "torque", units)
+    wl = choose_label(y_max, "angular_speed", units)
+    tc, wc = parse_unit(tl, "torque"), parse_unit(wl, "angular_speed")
+
+    def dt(t):
+        return (np.asarray(t, dtype=float) - tc.offset) / tc.factor
+
+    def dw(w):
+        return (np.asarray(w, dtype=float) - wc.offset) / wc.factor
+
+    return tl, wl, dt, dw
 
 
 def _drawable(fig, what: str, *limits) -> None:
