@@ -208,11 +208,8 @@ def write_selection(selection, path, units: str = "metric", catalog=None):
 def selection_document(selection, units: str = "metric", catalog=None) -> dict:
     """The document :func:`write_selection` writes to a ``.json`` file, as a dict (same tables,
     same ``about``); the JSON API answers it."""
-    from .detail import catalog_of
+    from .detail import catalog_or_none
     from .writers import json_document
 
-    try:
-        cat = catalog_of(selection, catalog)
-    except Exception:
-        cat = None
+    cat = catalog_or_none(selection, catalog)
     return json_document(selection_tables(selection, units, cat), _about(selection, cat, units))

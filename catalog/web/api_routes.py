@@ -13,7 +13,7 @@ Each endpoint's docstring holds its OpenAPI description after ``---``.
 """
 from __future__ import annotations
 
-__all__ = ["routes", "STOCK_VERBS", "openapi"]
+__all__ = ["routes", "STOCK_VERBS", "openapi", "json_response"]
 
 import inspect
 import json
@@ -35,7 +35,7 @@ _SERVER_KWARGS = {"at"}
 MAX_JSON_BYTES = 64 * 1024
 
 
-def _json(doc, status: int = 200) -> Response:
+def json_response(doc, status: int = 200) -> Response:
     return Response(json.dumps(doc, ensure_ascii=False, allow_nan=False, default=str),
                     status_code=status, media_type="application/json")
 
@@ -52,7 +52,7 @@ def _refuse(problems, message=None, status=422) -> Response:
     from .common import error_payload
 
     exc = InputError(message or f"{len(problems)} problem(s) in the request", problems)
-    return _json(error_payload(exc), status)
+    return json_response(error_payload(exc), status)
 
 
 async def health(request):
@@ -66,7 +66,7 @@ async def health(request):
     """
     cat = catalog_of(request)
     counts = await in_thread(cat.summary)
-    return _json({"status": "ok", "version": __version__, "catalogue": str(cat.path), "counts": counts,
+    return json_response({"status": "ok", "version": __version__, "catalogue": str(cat.path), "counts": counts,
                   "writing": cat.store.writing})
 
 
@@ -102,7 +102,7 @@ def _kind_endpoint(kind: str):
                 units[name] = get_dimension(f.dimension).display["si"][0] or "1"
         rows = page.rows
         records = json.loads(rows.to_json(orient="records", double_precision=15, force_ascii=False))
-        return _json({"kind": kind, "total": page.total, "offset": page.offset, "limit": page.limit,
+        return json_response({"kind": kind, "total": page.total, "offset": page.offset, "limit": page.limit,
                       "sort": page.sort, "order": page.order, "units": units, "records": records})
 
     records.__name__ = kind
@@ -164,7 +164,7 @@ async def record(request):
                     "batch_id": _clean(row.batch_id)})
     order = {name: i for i, name in enumerate(fields)}
     out.sort(key=lambda v: order.get(v["field"], len(order)))
-    return _json({"id": rid, "record_type": rtype, "manufacturer": maker, "part_number": part, "values": out,
+    return json_response({"id": rid, "record_type": rtype, "manufacturer": maker, "part_number": part, "values": out,
                   "flags": [{"relation": f.relation, "field": f.field, "given": f.given, "given_value": _clean(f.given_value),
                              "implied_value": _clean(f.implied_value), "residual": _clean(f.residual), "text": str(f)}
                             for f in flags],
@@ -227,7 +227,7 @@ async def select(request):
 
     ctype = request.headers.get("content-type", "").split(";")[0].strip().lower()
     if ctype not in ("application/toml", "text/toml"):
-        return _json({"error": f"content type {ctype or '(none)'!r}, expected application/toml (the envelope "
+        return json_response({"error": f"content type {ctype or '(none)'!r}, expected application/toml (the envelope "
                                "as TOML text)", "lines": []}, 415)
     problems = []
     top_text = request.query_params.get("top")
@@ -288,11 +288,11 @@ async def stock(request):
     """
     verb = request.path_params["verb"]
     if verb not in STOCK_VERBS:
-        return _json({"error": f"no stock verb {verb!r}, expected one of {', '.join(STOCK_VERBS)}",
+        return json_response({"error": f"no stock verb {verb!r}, expected one of {', '.join(STOCK_VERBS)}",
                       "lines": []}, 404)
     ctype = request.headers.get("content-type", "").split(";")[0].strip().lower()
     if ctype != "application/json":
-        return _json({"error": f"content type {ctype or '(none)'!r}, expected application/json "
+        return json_response({"error": f"content type {ctype or '(none)'!r}, expected application/json "
                                "(the keyword arguments as a JSON object)", "lines": []}, 415)
     raw = await _body_limited(request, MAX_JSON_BYTES)
     if len(raw) > MAX_JSON_BYTES:
@@ -331,7 +331,7 @@ async def stock(request):
     if problems:
         return _refuse(problems)
     change = await in_thread(method, **kwargs)
-    return _json({"kind": change.kind, "record_id": change.record_id, "quantity": change.quantity,
+    return json_response({"kind": change.kind, "record_id": change.record_id, "quantity": change.quantity,
                   "movement_ids": [int(m) for m in change.movement_ids], "batch_id": change.batch_id,
                   "reservation_id": change.reservation_id, "message": change.message,
                   "levels": _levels(change)})

@@ -17,7 +17,7 @@ def _wants_json(request) -> bool:
 
 
 async def _motorshelf_error(request, exc: MotorshelfError):
-    from .api_routes import _json
+    from .api_routes import json_response
 
     if isinstance(exc, StoreBusy):
         status = 503
@@ -29,7 +29,7 @@ async def _motorshelf_error(request, exc: MotorshelfError):
     else:
         status = 422
     if _wants_json(request):
-        return _json(error_payload(exc), status)
+        return json_response(error_payload(exc), status)
     if request.headers.get("hx-request"):
         return render(request, "_problems.html", {"lines": problem_lines(exc)}, status_code=status)
     return render(request, "error.html", {"title": "Not found" if status == 404 else "Cannot do that",
@@ -42,9 +42,9 @@ async def _csrf_refused(request, exc):
     message = ("the form came without its page's token (an old page, or a request from another site); "
                "reload the page and send the form again")
     if _wants_json(request):
-        from .api_routes import _json
+        from .api_routes import json_response
 
-        return _json({"error": message, "lines": [f"error: {message}"]}, 403)
+        return json_response({"error": message, "lines": [f"error: {message}"]}, 403)
     return render(request, "error.html", {"title": "Form refused", "lines": [f"error: {message}"],
                                           "suggestions": []}, status_code=403)
 
@@ -55,9 +55,9 @@ async def _not_found(request, exc):
     status = exc.status_code if isinstance(exc, HTTPException) else 404
     detail = getattr(exc, "detail", "") or "not found"
     if _wants_json(request):
-        from .api_routes import _json
+        from .api_routes import json_response
 
-        return _json({"error": f"{request.url.path}: {detail}", "lines": []}, status)
+        return json_response({"error": f"{request.url.path}: {detail}", "lines": []}, status)
     return render(request, "error.html", {"title": detail.capitalize() if isinstance(detail, str) else "Error",
                                           "lines": [f"error: {request.url.path}: {detail}"], "suggestions": []},
                   status_code=status)
@@ -67,9 +67,9 @@ async def _internal(request, exc):
     log.exception("internal error on %s %s", request.method, request.url.path, exc_info=exc)
     message = "internal error: the request was not completed; the server's log has the details"
     if _wants_json(request):
-        from .api_routes import _json
+        from .api_routes import json_response
 
-        return _json({"error": message, "lines": [f"error: {message}"]}, 500)
+        return json_response({"error": message, "lines": [f"error: {message}"]}, 500)
     from starlette.responses import HTMLResponse
 
     return HTMLResponse(f"<!DOCTYPE html><title>Internal error</title><p>{message}</p>", status_code=500)
