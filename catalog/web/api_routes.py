@@ -36,6 +36,7 @@ MAX_JSON_BYTES = 64 * 1024
 
 
 def json_response(doc, status: int = 200) -> Response:
+    """``doc`` as a JSON answer (no NaN: a document the API sends is strict JSON)."""
     return Response(json.dumps(doc, ensure_ascii=False, allow_nan=False, default=str),
                     status_code=status, media_type="application/json")
 
