@@ -472,7 +472,8 @@ def plot_comparison(entries, units: str = "metric", side: str = "load", title: s
         x = np.asarray(x, dtype=float)
         if not drawn:
             return np.full(x.shape, np.nan)
-        return np.nanmax([np.interp(x, d[2][0], d[2][1], left=np.nan, right=np.nan) for d in drawn], axis=0)
+        speeds = np.array([np.interp(x, d[2][0], d[2][1], left=np.nan, right=np.nan) for d in drawn])
+        return np.fmax.reduce(speeds, axis=0)   # NaN only where no line reaches (no warning)
 
     stalls = [float(d[2][0][-1]) for d in drawn]
     speeds = [float(np.max(d[2][1])) for d in drawn]

@@ -49,8 +49,8 @@ def test_extreme_values_print_no_numpy_warnings(extreme, tmp_path, args):
     assert "Warning" not in proc.stderr and "Traceback" not in proc.stderr, proc.stderr
     assert all(line.startswith("error: ") for line in proc.stderr.splitlines()), proc.stderr
     assert proc.returncode in (0, 1, 2), proc.stderr
-    if args[0] == "plot":  # values beyond what a diagram can hold: one line, not matplotlib's ValueError
-        assert proc.returncode == 2 and "the diagram would reach beyond floating point" in proc.stderr
+    if args[0] == "plot":  # drawn to the operating points, or values beyond what a diagram can hold: one line
+        assert proc.returncode == 0 or "the diagram would reach beyond floating point" in proc.stderr
 
 
 NASTY = "Term\x1b[2J\x1b]0;owned\x07 \x9b31m \u202etxt.exe"
