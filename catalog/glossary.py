@@ -66,12 +66,15 @@ OTHER_QUANTITIES = (
     ("D", "distance", "m or rad", "travel of a move (an angle for a rotary mechanism)"),
     ("tmove", "move_time", "s", "duration of a whole move"),
     ("fa", "accel_fraction", "1", "part of a move's time spent accelerating (the same decelerating)"),
+    ("Cw", "winding_heat_capacity", "J/K", "heat capacity of the winding node, τw/Rth1 of the datasheet"),
+    ("Ch", "housing_heat_capacity", "J/K",
+     "heat capacity of the housing node, τmotor/Rth2 of the datasheet (a cooling factor leaves it unchanged)"),
 )
 
 #: Physics parameters that are options or containers, not quantities (not in the glossary).
 OPTION_PARAMETERS = frozenset({"bound", "missing", "periodic", "regenerative", "samples_per_segment",
                                "segments_first", "trajectory", "maps", "response", "values", "end_values",
-                               "end_power"})
+                               "end_power", "node"})
 
 
 def _meaning(description: str) -> str:

@@ -99,7 +99,8 @@ def caution_lines(selection, catalog=None) -> list[tuple[str, str]]:
                                          f"and R × {1 + tol.get('terminal_resistance', 0):.3g} (envelope tolerance)"))
     if env.housing_cooling_factor != 1.0:
         rows.append(("cooling", f"housing-to-ambient thermal resistance × {env.housing_cooling_factor:.3g} "
-                                "(envelope housing_cooling_factor)"))
+                                "(envelope housing_cooling_factor); the housing's heat capacity is the "
+                                "datasheet's"))
     rows.append(("thermal model", "winding temperature from the two-node thermal network at the envelope's "
                                   "ambient, copper loss only (friction, iron and brush losses not included); "
                                   "resistance and magnet taken at the peak winding temperature all cycle "

@@ -42,7 +42,7 @@ import numpy as np
 
 from .broadcast import vectorised
 
-__all__ = ["NetworkMaps", "network_segment_maps", "network_peak_rise", "network_response", "network_peak_rise_grid",
+__all__ = ["NetworkMaps", "network_segment_maps", "network_capacity_maps", "network_peak_rise", "network_response", "network_peak_rise_grid",
            "hot_winding_rise"]
 
 _NEWTON_STEPS = 60       # enough for the linear convergence at a double root
@@ -123,13 +123,62 @@ def network_segment_maps(durations, thermal_resistance_winding_housing,
     ----------
     Textbook chapter on heating and cooling of machines; IEC 60034-1.
     """
+    rth1, rth2, tau_w, tau_m = (np.asarray(p, dtype=float) for p in (
+        thermal_resistance_winding_housing, thermal_resistance_housing_ambient,
+        thermal_time_constant_winding, thermal_time_constant_motor))
+    return network_capacity_maps(durations, rth1, rth2, tau_w / rth1, tau_m / rth2, periodic=periodic)
+
+
+def network_capacity_maps(durations, thermal_resistance_winding_housing, thermal_resistance_housing_ambient,
+                          winding_heat_capacity, housing_heat_capacity, periodic=True, node="winding"):
+    """Per-watt maps of the two-node network over each segment, from its resistances and capacities.
+
+    Parameters
+    ----------
+    durations : ndarray
+        Segment durations, shape (S,) [s].
+    thermal_resistance_winding_housing : float or ndarray
+        Thermal resistance winding to housing Rth1, shape batch [K/W].
+    thermal_resistance_housing_ambient : float or ndarray
+        Thermal resistance housing to ambient Rth2, shape batch [K/W].
+    winding_heat_capacity : float or ndarray
+        Heat capacity of the winding node Cw, shape batch [J/K].
+    housing_heat_capacity : float or ndarray
+        Heat capacity of the housing node Ch, shape batch [J/K].
+    periodic : bool
+        True: the profile repeats and the cycle starts in its periodic state;
+        False: one pass from ambient [-].
+    node : str
+        Where the loss enters: ``"winding"`` (copper) or ``"housing"`` [-].
+
+    Returns
+    -------
+    NetworkMaps
+        Arrays of shape batch + (S,); ``hw``/``hh`` and ``qw``/``qh`` per watt
+        lost at ``node`` [K/W].
+
+    Notes
+    -----
+    Relation: as :func:`network_segment_maps`, with h = ∫E dτ·(1/Cw, 0) for a
+    winding loss and ∫E dτ·(0, 1/Ch) for a housing loss.  The capacities are
+    the motor's own: a mounting that cools the housing better or worse
+    changes Rth2 but not Ch, so the housing time constant Rth2·Ch changes
+    with it (which :func:`network_segment_maps`, deriving Ch from τ_motor and
+    the Rth2 it is given, cannot express).
+    Validity: two-node lumped model, loss constant within a segment.
+
+    References
+    ----------
+    Textbook chapter on heating and cooling of machines; IEC 60034-1.
+    """
+    if node not in ("winding", "housing"):
+        raise ValueError(f"node must be 'winding' or 'housing', got {node!r}")
     d = np.asarray(durations, dtype=float)
     if d.ndim != 1 or np.any(d < 0.0):
         raise ValueError("durations must be a 1-d array of non-negative segment durations")
-    rth1, rth2, tau_w, tau_motor = (np.asarray(p, dtype=float)[..., None] for p in (
+    rth1, rth2, cw, ch = (np.asarray(p, dtype=float)[..., None] for p in (
         thermal_resistance_winding_housing, thermal_resistance_housing_ambient,
-        thermal_time_constant_winding, thermal_time_constant_motor))
-    cw, ch = tau_w / rth1, tau_motor / rth2
+        winding_heat_capacity, housing_heat_capacity))
     m11, m12 = -1.0 / (rth1 * cw), 1.0 / (rth1 * cw)
     m21, m22 = 1.0 / (rth1 * ch), -(1.0 / rth1 + 1.0 / rth2) / ch
     half = (m11 - m22) * 0.5
@@ -138,11 +187,15 @@ def network_segment_maps(durations, thermal_resistance_winding_housing,
     lam1 = (1.0 / (rth1 * rth2 * cw * ch)) / lam2       # det(M)/λ2: accurate near 0
     delta = 2.0 * s
     k11, k22 = m11 - lam2, m22 - lam2
+    at_winding = node == "winding"
 
     def transition(t):
         e2, p, h2, phi = _flow(lam1, lam2, delta, t)
-        return (e2 + p * k11, p * m12, p * m21, e2 + p * k22,
-                (h2 + phi * k11) / cw, phi * m21 / cw)
+        if at_winding:     # ∫E dτ·(1/Cw, 0)
+            hw_, hh_ = (h2 + phi * k11) / cw, phi * m21 / cw
+        else:              # ∫E dτ·(0, 1/Ch)
+            hw_, hh_ = phi * m12 / ch, (h2 + phi * k22) / ch
+        return (e2 + p * k11, p * m12, p * m21, e2 + p * k22, hw_, hh_)
 
     e11, e12, e21, e22, hw, hh = transition(d)
     if periodic:

@@ -16,7 +16,10 @@ Motor values get the envelope's tolerance corner here (Kt and Ke scaled by
 ``1 + tolerance.torque_constant``, R by ``1 + tolerance.terminal_resistance``)
 and the housing-to-ambient thermal resistance is multiplied by the
 envelope's housing cooling factor, so every later check sees the shifted
-values.
+values.  The heat capacities of winding and housing (``winding_heat_capacity``
+= τw/Rth1, ``housing_heat_capacity`` = τ_motor/Rth2, from the datasheet
+values) do not change with the cooling factor: a better or worse mounting
+changes how fast the housing sheds heat, not how much heat it stores.
 """
 from __future__ import annotations
 
@@ -47,6 +50,7 @@ _GEAR = ["ratio", "efficiency", "inertia", "max_continuous_torque", "max_intermi
 #: the motor's id (``motor``) and its note
 _BY_MOTOR = {**{k: k for k in _MOTOR if k not in ("no_load_speed", "mass", "length", "diameter", "price")},
              "magnet_coefficient": "magnet_coefficient", "speed_from_no_load": "speed_from_no_load",
+             "winding_heat_capacity": "winding_heat_capacity", "housing_heat_capacity": "housing_heat_capacity",
              "motor": "id", "mount": "mount", "commutation": "commutation", "motor_note": "note"}
 #: candidate key -> gear-option column (gathered by the option row): ``gear_`` + the gearhead schema's name
 _BY_OPTION = {"ratio": "ratio", "efficiency": "efficiency", "gear_inertia": "inertia", "gear": "label",
@@ -120,7 +124,8 @@ class Candidates(Mapping):
 
     A mapping from the per-candidate keys (:data:`KEYS`: the motor schema's
     field names in SI, ``magnet_coefficient`` [1/K], ``ratio`` [1],
-    ``efficiency`` [1], the gear option's ``gear_inertia`` [kg·m²] and ratings
+    ``efficiency`` [1], ``winding_heat_capacity``/``housing_heat_capacity``
+    [J/K], the gear option's ``gear_inertia`` [kg·m²] and ratings
     ``gear_max_continuous_torque``/``gear_max_intermittent_torque`` [N·m] and
     ``gear_max_input_speed`` [rad/s], totals ``mass`` [kg], ``length``/
     ``diameter`` [m], ``price``, and the texts ``id``, ``motor``, ``gear``,
@@ -270,6 +275,10 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
     mv["back_emf_constant"] = np.where(np.isnan(mv["back_emf_constant"]), mv["torque_constant"],
                                        mv["back_emf_constant"] * k_scale)
     mv["terminal_resistance"] = mv["terminal_resistance"] * r_scale
+    # heat capacities of the datasheet (Cw = τw/Rth1, Ch = τ_motor/Rth2): the mounting's cooling factor
+    # changes the housing-to-ambient resistance only, never how much heat the housing stores
+    mv["winding_heat_capacity"] = mv["thermal_time_constant_winding"] / mv["thermal_resistance_winding_housing"]
+    mv["housing_heat_capacity"] = mv["thermal_time_constant_motor"] / mv["thermal_resistance_housing_ambient"]
     mv["thermal_resistance_housing_ambient"] = (mv["thermal_resistance_housing_ambient"]
                                                 * env.housing_cooling_factor)
     mv["resistance_reference_temperature"] = np.where(

@@ -47,8 +47,8 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
-from ..physics import (energy_per_cycle, network_peak_rise, network_peak_rise_grid, network_response,
-                       network_segment_maps)
+from ..physics import (energy_per_cycle, network_capacity_maps, network_peak_rise, network_peak_rise_grid,
+                       network_response)
 from ..physics import hot_winding_rise as _hot_winding_rise
 from ..physics import resistance_at_temperature as _resistance_at_temperature
 from ..physics import torque_constant_at_temperature as _torque_constant_at_temperature
@@ -83,11 +83,12 @@ EVAL_KEYS = ("motor_ix", "terminal_resistance", "torque_constant", "back_emf_con
              "rotor_inertia", "gear_inertia", "thermal_resistance_winding_housing",
              "thermal_resistance_housing_ambient", "thermal_time_constant_winding", "thermal_time_constant_motor",
              "max_winding_temperature", "resistance_reference_temperature", "magnet_coefficient", "ratio",
-             "efficiency")
+             "efficiency", "winding_heat_capacity", "housing_heat_capacity")
 CYCLE_THERMAL_FIELDS = ("thermal_time_constant_winding", "thermal_time_constant_motor")
-#: the motor fields of the two-node network, in the order of :func:`catalog.physics.network_segment_maps`
+#: the candidate columns of the two-node network, in the order of :func:`catalog.physics.network_capacity_maps`
+#: (the heat capacities are the datasheet's; the housing-to-ambient resistance has the cooling factor)
 THERMAL_NETWORK_FIELDS = ("thermal_resistance_winding_housing", "thermal_resistance_housing_ambient",
-                          "thermal_time_constant_winding", "thermal_time_constant_motor")
+                          "winding_heat_capacity", "housing_heat_capacity")
 
 
 def _segments(env) -> dict:
@@ -173,7 +174,7 @@ def _cold_rise(env, c, t_sq, usable, motor_maps=None):
     if motor_maps is not None:      # built once for every motor of the catalogue
         maps = NetworkMaps(*(a[mix[starts]] if a.ndim > 1 else a for a in motor_maps))
     else:
-        maps = network_segment_maps(dur, *(c[k][first] for k in THERMAL_NETWORK_FIELDS), periodic=bool(env.repeat))
+        maps = network_capacity_maps(dur, *(c[k][first] for k in THERMAL_NETWORK_FIELDS), periodic=bool(env.repeat))
     regular = bool(np.all(runs == runs[0]))
     fits = len(starts) * (len(dur) + 1) * len(dur) * 8 <= RESPONSE_BYTES
     if motor_maps is not None and regular and fits:   # a regular block: one matmul per motor
@@ -439,8 +440,8 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
     if is_set and env.mode == "cycle" and 9 * 8 * n_seg * len(cand.motors["id"]) <= MAPS_BYTES:
         mt = cand.motors   # the network maps of every motor, once (motor_ix indexes them)
         with np.errstate(all="ignore"):
-            seg["motor_maps"] = network_segment_maps(env.duration, *(mt[k] for k in THERMAL_NETWORK_FIELDS),
-                                                     periodic=bool(env.repeat))
+            seg["motor_maps"] = network_capacity_maps(env.duration, *(mt[k] for k in THERMAL_NETWORK_FIELDS),
+                                                      periodic=bool(env.repeat))
     starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total, chunk_rows(n_seg))
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))

@@ -142,3 +142,42 @@ def test_hot_rise_solves_its_equation_and_finds_runaway():
             assert got == pytest.approx(root, abs=2 * (scan[1] - scan[0]))
     assert finite.any() and not finite.all()
     assert ph.hot_winding_rise(0.0, a, b) == 0.0 and np.isnan(ph.hot_winding_rise(np.nan, a, b))
+
+
+def test_capacity_maps_equal_the_time_constant_maps():
+    # Source: the datasheet approximation Cw = τw/Rth1, Ch = τ_motor/Rth2 (catalog/physics/thermal.py):
+    # the same network stated by its capacities.
+    d, (r1, r2, tw, tm), loss = random_case(4)
+    for periodic in (True, False):
+        a = ph.network_segment_maps(d, r1, r2, tw, tm, periodic)
+        b = ph.network_capacity_maps(d, r1, r2, tw / r1, tm / r2, periodic)
+        for x, y in zip(a, b):
+            np.testing.assert_allclose(x, y, rtol=1e-13, atol=1e-15)
+
+
+@pytest.mark.parametrize("periodic", [True, False])
+def test_a_loss_at_the_housing_node_matches_a_simulation(periodic):
+    # Source: solve_ivp of Cw·dθw/dt = −(θw − θh)/Rth1, Ch·dθh/dt = (θw − θh)/Rth1 − θh/Rth2 + P_h
+    # (textbook two-node network with the loss entering the housing), repeated until periodic.
+    d = np.array([30.0, 5.0, 120.0])
+    loss = np.array([6.0, 0.0, 2.5])
+    r1, r2, cw, ch = 3.0, 8.0, 4.0, 60.0
+
+    def rhs(_, y, p):
+        return [-(y[0] - y[1]) / r1 / cw, ((y[0] - y[1]) / r1 - y[1] / r2 + p) / ch]
+
+    y = np.zeros(2)
+    for _cycle in range(400 if periodic else 1):
+        start, ends = y.copy(), [y[0]]
+        for dk, p in zip(d, loss):
+            sol = solve_ivp(rhs, (0, dk), y, args=(p,), rtol=1e-11, atol=1e-11, max_step=dk / 50)
+            y = sol.y[:, -1]
+            ends.append(y[0])
+        if periodic and np.max(np.abs(y - start)) < 1e-9:
+            break
+    # the winding at the cycle start and at every segment end (a housing loss can put the winding's
+    # peak inside a segment: the winding lags the housing, so only the segment ends are compared)
+    response = ph.network_response(ph.network_capacity_maps(d, r1, r2, cw, ch, periodic, node="housing"))
+    np.testing.assert_allclose(response @ loss, ends, atol=1e-6)
+    with pytest.raises(ValueError, match="node"):
+        ph.network_capacity_maps(d, r1, r2, cw, ch, periodic, node="rotor")

@@ -48,7 +48,8 @@ SPECIAL = {  # checked in dedicated tests below
     "magnet_coefficient", "insulation_class_temperature",
     "rms", "time_average", "energy_per_cycle",
     "periodic_winding_temperature", "transient_winding_temperature",
-    "network_segment_maps", "network_peak_rise", "network_response", "network_peak_rise_grid",
+    "network_segment_maps", "network_capacity_maps", "network_peak_rise", "network_response",
+    "network_peak_rise_grid",
 }
 
 FUNCTIONS = sorted(name for name in ph.__all__

@@ -7,7 +7,7 @@ the terminal voltage V = R(Tw)·I + Ke(Tw)·ω follow from the armature equation
 with L·dI/dt neglected (piecewise-constant current); the winding and housing
 temperatures are integrated with scipy.integrate.solve_ivp on the two-node
 network (Cw·dTw/dt = I²R(Tw) − (Tw − Th)/Rth1, Ch·dTh/dt = (Tw − Th)/Rth1 −
-(Th − Ta)/Rth2, Cw = τw/Rth1, Ch = τm/Rth2), repeated cycle after cycle from
+(Th − Ta)/(f·Rth2), Cw = τw/Rth1, Ch = τm/Rth2 of the datasheet, f the cooling factor), repeated cycle after cycle from
 ambient until the cycle-start temperature settles.
 
 Sources: textbook chapter on DC machines (armature and torque equations);
@@ -45,7 +45,10 @@ def motor_torque(env, c, t_load, w_load, a_load):
 def simulate(env, c):
     """(peak winding temperature [K], worst |V| [V], coolest winding temperature [K]) in the periodic state."""
     ta = env.ambient_temperature
-    cw, ch = c["thermal_time_constant_winding"] / c["thermal_resistance_winding_housing"], c["thermal_time_constant_motor"] / c["thermal_resistance_housing_ambient"]
+    # heat capacities of the datasheet: the envelope's cooling factor f scales the housing-to-ambient
+    # resistance of the candidate, not the housing's heat capacity
+    rth2_datasheet = c["thermal_resistance_housing_ambient"] / env.housing_cooling_factor
+    cw, ch = c["thermal_time_constant_winding"] / c["thermal_resistance_winding_housing"], c["thermal_time_constant_motor"] / rth2_datasheet
     segs = []
     for k in range(len(env.names)):
         w0, w1, d = env.speed_start[k], env.speed_end[k], env.duration[k]

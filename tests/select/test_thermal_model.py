@@ -1,0 +1,74 @@
+"""The selection's winding temperature against an independent simulation of the two-node network.
+
+The reference integrates the network with scipy.integrate.solve_ivp:
+
+    Cw·dθw/dt = P_w − (θw − θh)/Rth1,   Ch·dθh/dt = (θw − θh)/Rth1 − θh/(f·Rth2) + P_h
+
+with the heat capacities of the datasheet (Cw = τw/Rth1, Ch = τ_motor/Rth2:
+a mounting that changes the housing-to-ambient resistance by the factor f
+leaves the capacity alone), the copper loss P_w = I²·R with I = T/Kt.
+
+Sources: textbook chapter on heating and cooling of machines (two-node
+network and its capacities); IEC 60028 (copper resistance law); IEC
+60404-8-1 (reversible temperature coefficient of the magnet).
+"""
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy.integrate import solve_ivp
+
+ALPHA = 0.00393 / (1 + 0.00393 * 5.0)   # copper α at 25 °C (IEC 60028: α20 = 0.00393 /K)
+BETA = -0.0002                            # AlNiCo, as the hand catalogue's motors (conftest.MOTORS)
+TA = 298.15
+
+COOLING = """
+name = "cooling"
+[supply]
+nominal_voltage = "24 V"
+[environment]
+ambient_temperature = "25 degC"
+housing_cooling_factor = {factor}
+[gearing]
+direct = true
+catalogue = false
+[cycle]
+repeat = false
+[[cycle.segments]]
+name = "long"
+duration = "900 s"
+torque = "{torque} N*m"
+speed_start = "50 rad/s"
+"""
+
+
+def row(sel, candidate):
+    t = sel.table
+    return t[t["candidate"] == candidate].iloc[0]
+
+
+def simulate_pass(torque, duration, rth1, rth2, tau_w, tau_m, factor=1.0, held_at=None):
+    """Peak winding temperature [K] of one pass from ambient at constant torque: R = 1 Ω, Kt = 0.1 N·m/A
+    at 25 °C; R and Kt held at ``held_at`` [K] or following the winding temperature."""
+    cw, ch = tau_w / rth1, tau_m / rth2
+
+    def rhs(_, y):
+        tw = TA + y[0] if held_at is None else held_at
+        current = torque / (0.1 * (1 + BETA * (tw - TA)))
+        loss = current * current * (1 + ALPHA * (tw - TA))
+        return [(loss - (y[0] - y[1]) / rth1) / cw, ((y[0] - y[1]) / rth1 - y[1] / (factor * rth2)) / ch]
+
+    sol = solve_ivp(rhs, (0, duration), [0.0, 0.0], rtol=1e-10, atol=1e-10, max_step=duration / 200)
+    return TA + sol.y[0].max()
+
+
+def test_cooling_factor_changes_the_resistance_not_the_housing_capacity(hand_catalog, envelope_file):
+    # HEAT (Rth1 6, Rth2 14 K/W, τw 20 s, τ_motor 600 s, limit 130 °C) mounted with half the datasheet's
+    # housing-to-ambient resistance, 0.25 N·m for 900 s from cold.  Taking the capacity as τ_motor/(f·Rth2)
+    # doubled the housing's heat capacity: the winding came out 18 K cooler (127 °C) and the motor passed.
+    sel = hand_catalog.select(envelope_file(COOLING.format(factor=0.5, torque=0.25)))
+    r = row(sel, "hand-heat")
+    reference = simulate_pass(0.25, 900.0, 6.0, 14.0, 20.0, 600.0, factor=0.5, held_at=r["winding_temperature"])
+    assert r["winding_temperature"] == pytest.approx(reference, abs=0.05)
+    assert r["winding_temperature"] - 273.15 > 140
+    assert r["failed"] == "temperature"
