@@ -35,6 +35,7 @@ class RecordView(NamedTuple):
     part_number: str
     values: object   #: DataFrame, one row per schema field (see :meth:`Catalog.show`)
     flags: list      #: the record's consistency flags (:class:`catalog.derive.Flag`)
+    basis_note: str = ""   #: how selection reads a brushless motor's constants (empty for DC records)
 
 
 def _input_problem(key: str, message: str) -> InputError:
@@ -185,7 +186,8 @@ class Catalog(StockMethods):
             rtype, manufacturer, part_number = require_record(con, record_id)
             stored = _stored_values(con, record_id)
             flags = _flags(con, DEFAULT_TOLERANCE, record_id)
-        return RecordView(rtype, manufacturer, part_number, _shown_values(stored, rtype, units), flags)
+        shown = _shown_values(stored, rtype, units)
+        return RecordView(rtype, manufacturer, part_number, shown, flags, _basis_note(rtype, shown))
 
     def check(self, tolerance: float | None = None, record_id: str | None = None) -> list:
         """Consistency flags: over-determined relations whose relative residual exceeds ``tolerance``.
@@ -455,6 +457,23 @@ def _shown_values(stored, record_type: str, units: str):
     frame.insert(1, "value", shown)
     frame.insert(2, "unit", labels)
     return frame
+
+
+def _basis_note(record_type: str, shown) -> str:
+    """How the selection reads a motor's constants (line-to-line conversions named; empty for DC)."""
+    if record_type != "motor":
+        return ""
+    from .select.candidates import constant_basis_note
+
+    by = shown.set_index("field")
+
+    def get(name, col):
+        v = by[col].get(name) if name in by.index else None
+        return None if v is None or (isinstance(v, float) and v != v) else v
+
+    return constant_basis_note(get("commutation", "value_text"), get("constant_basis", "value_text"),
+                               float(get("torque_constant", "value_num") or "nan"),
+                               float(get("back_emf_constant", "value_num") or "nan"))
 
 
 def _flags(con, tolerance: float, record_id: str | None) -> list:

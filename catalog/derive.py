@@ -57,7 +57,10 @@ class Equation:
 
     The first solver is the relation's primary form, used for the residual.
     ``dc_constants`` marks relations that need Kt and Ke on the same (DC-equivalent)
-    basis: they are skipped for brushless records stated line-to-line.
+    basis (Kt = Ke in SI, or a speed-torque line drawn from V/Ke), or whose datasheet
+    form assumes it (no-load speed = V/Ke with Ke the DC-equivalent peak, maximum power
+    and efficiency of the DC model): they are skipped for brushless records stated
+    line-to-line, whose Kt and Ke differ by a waveform factor.
     """
 
     name: str
@@ -130,7 +133,7 @@ EQUATIONS: tuple = (
         _s("back_emf_constant", P.back_emf_constant_from_no_load_speed, **_AT_NOMINAL_VOLTAGE),
         _s("no_load_current", P.no_load_current_from_no_load_speed, fragile=True, **_AT_NOMINAL_VOLTAGE),
         _s("terminal_resistance", P.resistance_from_no_load_speed, fragile=True, **_AT_NOMINAL_VOLTAGE),
-        _s("nominal_voltage", P.supply_voltage_from_no_load_speed))),
+        _s("nominal_voltage", P.supply_voltage_from_no_load_speed)), dc_constants=True),
     Equation("speed-torque gradient = no-load speed/stall torque", (
         _s("speed_torque_gradient", P.speed_torque_gradient_from_no_load_speed_and_stall_torque),
         _s("stall_torque", P.stall_torque_from_no_load_speed_and_gradient),
@@ -157,9 +160,9 @@ EQUATIONS: tuple = (
     Equation("maximum efficiency = (1 − √(I0/Is))²", (
         _s("max_efficiency", P.max_efficiency),
         _s("no_load_current", P.no_load_current_from_max_efficiency),
-        _s("stall_current", P.stall_current_from_max_efficiency))),
+        _s("stall_current", P.stall_current_from_max_efficiency)), dc_constants=True),
     Equation("maximum output power = (V − R·I0)²/(4R)", (
-        _s("max_output_power", P.max_output_power, **_AT_NOMINAL_VOLTAGE),)),
+        _s("max_output_power", P.max_output_power, **_AT_NOMINAL_VOLTAGE),), dc_constants=True),
     Equation("nominal current = (Tn + Kt·I0)/Kt", (
         _s("nominal_current", P.current_at_torque, torque="nominal_torque"),
         _s("nominal_torque", P.torque_at_current, current="nominal_current"),
@@ -181,7 +184,7 @@ EQUATIONS: tuple = (
     Equation("maximum output power = no-load speed·stall torque/4", (
         _s("max_output_power", P.max_output_power_from_no_load_speed_and_stall_torque),
         _s("no_load_speed", P.no_load_speed_from_max_output_power),
-        _s("stall_torque", P.stall_torque_from_max_output_power))),
+        _s("stall_torque", P.stall_torque_from_max_output_power)), dc_constants=True),
     Equation("current at maximum efficiency = √(I0·Is)", (
         _s("max_efficiency_current", P.max_efficiency_current),
         _s("no_load_current", P.no_load_current_from_max_efficiency_current),

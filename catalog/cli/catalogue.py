@@ -148,6 +148,8 @@ def show_cmd(obj: Context, record_id, units):
             written = f"{raw!r}" + (f" [{unit}]" if unit else "")
             origin = f"given: {written} ({where})"
         echo(f"  {row.field:<36} {text:<22} {origin}")
+    if rec.basis_note:
+        echo(f"  selection reads the constants: {rec.basis_note}")
     for flag in rec.flags:
         echo(f"flag: {flag}")
 

@@ -12,7 +12,10 @@ of candidates gathers just its rows (:meth:`Candidates.take`).  Ten thousand
 motors times two hundred ratios so never hold forty columns of two million
 rows, and no candidate id is written as text until somebody reads it.
 
-Motor values get the envelope's tolerance corner here (Kt and Ke scaled by
+Brushless constants stated line-to-line are converted to the DC-equivalent
+model here (:func:`dc_equivalent_constants`; a record that cannot be
+converted is refused by the ``constant_basis`` check, never guessed).  Motor
+values get the envelope's tolerance corner here (Kt and Ke scaled by
 ``1 + tolerance.torque_constant``, R by ``1 + tolerance.terminal_resistance``)
 and the housing-to-ambient thermal resistance is multiplied by the
 envelope's housing cooling factor, so every later check sees the shifted
@@ -23,7 +26,8 @@ changes how fast the housing sheds heat, not how much heat it stores.
 """
 from __future__ import annotations
 
-__all__ = ["build_candidates", "Candidates", "GEAR_DIRECT", "GEAR_CATALOGUE", "GEAR_ASSUMED", "MAX_CANDIDATES"]
+__all__ = ["build_candidates", "Candidates", "GEAR_DIRECT", "GEAR_CATALOGUE", "GEAR_ASSUMED", "MAX_CANDIDATES",
+           "dc_equivalent_constants", "constant_basis_note"]
 
 from collections.abc import Mapping
 
@@ -51,7 +55,8 @@ _GEAR = ["ratio", "efficiency", "inertia", "max_continuous_torque", "max_intermi
 _BY_MOTOR = {**{k: k for k in _MOTOR if k not in ("no_load_speed", "mass", "length", "diameter", "price")},
              "magnet_coefficient": "magnet_coefficient", "speed_from_no_load": "speed_from_no_load",
              "winding_heat_capacity": "winding_heat_capacity", "housing_heat_capacity": "housing_heat_capacity",
-             "motor": "id", "mount": "mount", "commutation": "commutation", "motor_note": "note"}
+             "motor": "id", "mount": "mount", "commutation": "commutation", "motor_note": "note",
+             "constant_basis": "constant_basis", "basis_note": "basis_note", "basis_refused": "basis_refused"}
 #: candidate key -> gear-option column (gathered by the option row): ``gear_`` + the gearhead schema's name
 _BY_OPTION = {"ratio": "ratio", "efficiency": "efficiency", "gear_inertia": "inertia", "gear": "label",
               "kind": "kind", "gear_max_continuous_torque": "max_continuous_torque",
@@ -99,6 +104,99 @@ def _magnet_coefficients(materials: pd.Series) -> np.ndarray:
         except ValueError:
             table[key] = CONSERVATIVE_MAGNET_COEFFICIENT
     return keys.map(table).to_numpy(dtype=float)
+
+
+#: stated basis -> (factor from the stated Ke to the DC-equivalent Ke, factor from the stated Kt to the
+#: DC-equivalent Kt or None where the waveform decides it, the basis in words)
+_BASES = {
+    "line-to-line-rms": (np.sqrt(2.0), np.sqrt(2.0 / 3.0), "line-to-line RMS"),
+    "line-to-line-peak": (1.0, None, "line-to-line peak"),
+}
+
+
+def dc_equivalent_constants(commutation, constant_basis, torque_constant, back_emf_constant):
+    """The DC-equivalent Kt and Ke of motors whose constants may be stated line-to-line.
+
+    Selection treats a brushless motor with its drive as a DC motor: the bus
+    must supply R·I + Ke·ω with Ke the *peak line-to-line* back-EMF per rad/s
+    (the bus voltage is a peak, and the drive connects two phases at a time
+    to it), and the power balance T·ω = Ke·ω·I of that DC-equivalent model
+    makes Kt = Ke in SI.
+
+    Parameters
+    ----------
+    commutation, constant_basis : array of str
+        The records' texts (``brushless``, ``line-to-line-rms`` ...; empty or
+        None where not stated).
+    torque_constant, back_emf_constant : ndarray
+        Kt [N·m/A] and Ke [V·s/rad] as stored (on the stated basis), NaN missing.
+
+    Returns
+    -------
+    (kt, ke, refused, note)
+        DC-equivalent Kt [N·m/A] and Ke [V·s/rad] (NaN where refused),
+        ``refused`` [bool] where the record cannot be converted, and a note
+        per motor saying how its constants were read (the reason where refused).
+
+    Notes
+    -----
+    * Ke stated line-to-line RMS: × √2 gives the line-to-line peak (a
+      sinusoid's peak factor, IEC 60050-103: peak = √2 × RMS).
+    * Ke stated line-to-line peak: the DC-equivalent Ke itself.
+    * Only Kt, stated per ampere RMS (line-to-line RMS basis): a sinusoidal
+      three-phase machine gives T = 3·E_ph,rms·I_rms/ω = √3·Ke_ll,rms·I_rms
+      (power balance of the three phases), so Ke_ll,rms = Kt/√3 and the
+      DC-equivalent Kt = Ke = √2·Kt/√3 = Kt·√(2/3).  The copper loss of that
+      model, I_dc²·R_ll with I_dc = T/Kt_dc = √(3/2)·I_rms, equals the
+      machine's 3·I_rms²·R_ll/2, so the thermal model stays exact.
+    * Only Kt, stated line-to-line peak: Kt per peak ampere is √3/2·Ke_ll,pk
+      for a sinusoidal machine but Ke_ll,pk for a trapezoidal one; the
+      waveform is not recorded, so the record is refused for selection
+      rather than guessed.
+    * Where Ke is known it decides (Kt = Ke); a brushless record without a
+      basis is read as DC-equivalent, and says so.
+
+    Sources: IEC 60050-103 (peak factor of a sinusoid); textbook chapter on
+    brushless permanent-magnet machines (power balance of a three-phase
+    machine, six-step and sinusoidal commutation).
+    """
+    com = pd.Series(commutation, dtype=object).fillna("").astype(str).str.strip().str.lower().to_numpy()
+    basis = pd.Series(constant_basis, dtype=object).fillna("").astype(str).str.strip().str.lower().to_numpy()
+    kt = np.asarray(torque_constant, dtype=float).copy()
+    ke = np.asarray(back_emf_constant, dtype=float).copy()
+    n = len(kt)
+    note = np.full(n, "", dtype=object)
+    refused = np.zeros(n, dtype=bool)
+    brushless = com == "brushless"
+    note[brushless & (basis == "dc-equivalent")] = "brushless constants stated DC-equivalent"
+    note[brushless & ~np.isin(basis, ["dc-equivalent", *_BASES])] = (
+        "brushless constants of unstated basis read as DC-equivalent")
+    for name, (ke_factor, kt_factor, words) in _BASES.items():
+        rows = basis == name      # the basis is the supplier's statement: it counts whatever the commutation
+        by_ke = rows & ~np.isnan(ke)
+        ke[by_ke] *= ke_factor
+        kt[by_ke] = ke[by_ke]
+        ke_text = "Ke stated " + words + (": × √2 = line-to-line peak back-EMF, the DC-equivalent Ke"
+                                          if ke_factor != 1.0 else " = the DC-equivalent Ke")
+        note[by_ke] = ke_text + "; Kt = Ke (power balance)"
+        by_kt = rows & np.isnan(ke) & ~np.isnan(kt)
+        if kt_factor is not None:
+            kt[by_kt] *= kt_factor
+            ke[by_kt] = kt[by_kt]
+            note[by_kt] = ("Kt stated " + words + " (per ampere RMS): × √(2/3) = the DC-equivalent Kt of a "
+                           "sinusoidal machine; Ke = Kt (power balance)")
+        else:
+            refused |= by_kt
+            kt[by_kt] = np.nan
+            note[by_kt] = ("Kt stated " + words + " without Ke: its DC equivalent depends on the waveform "
+                           "(sine or trapezoid), not converted; state Ke")
+    return kt, ke, refused, note
+
+
+def constant_basis_note(commutation, constant_basis, torque_constant=np.nan, back_emf_constant=np.nan) -> str:
+    """How the selection reads the constants of one record (empty for a DC record)."""
+    return str(dc_equivalent_constants([commutation], [constant_basis], [torque_constant],
+                                       [back_emf_constant])[3][0])
 
 
 def _stages(ratio: np.ndarray) -> np.ndarray:
@@ -271,6 +369,9 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
     k_scale = 1.0 + env.tolerance.get("torque_constant", 0.0)
     r_scale = 1.0 + env.tolerance.get("terminal_resistance", 0.0)
     mv = {c: _col(m, c) for c in _MOTOR}
+    mv["constant_basis"] = _text(m, "constant_basis")
+    mv["torque_constant"], mv["back_emf_constant"], mv["basis_refused"], mv["basis_note"] = dc_equivalent_constants(
+        _text(m, "commutation"), mv["constant_basis"], mv["torque_constant"], mv["back_emf_constant"])
     mv["torque_constant"] = mv["torque_constant"] * k_scale
     mv["back_emf_constant"] = np.where(np.isnan(mv["back_emf_constant"]), mv["torque_constant"],
                                        mv["back_emf_constant"] * k_scale)

@@ -134,7 +134,9 @@ def _notes(c, env=None):
     out = notes + np.where((notes != "") & (gear_note != ""), "; ", "") + gear_note
     extra = pd.Series(c.get("price_note", np.full(n, "", dtype=object)))
     extra_motor = pd.Series(c.get("motor_note", np.full(n, "", dtype=object)))
-    for more in (extra, extra_motor):
+    basis = pd.Series(c.get("basis_note", np.full(n, "", dtype=object)), dtype=object).where(
+        ~pd.Series(c.get("basis_refused", np.zeros(n, bool)), dtype=bool), "")   # refused: the reason says it
+    for more in (basis, extra, extra_motor):
         out = out + np.where((out != "") & (more != ""), "; ", "") + more
     return out
 

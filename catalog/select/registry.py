@@ -155,15 +155,31 @@ def _gear_margin(limit_key: str, value: Callable) -> Callable:
     return compute
 
 
+def _missing(x: CheckInputs, names) -> pd.Series:
+    """Per row, the words of the candidate columns ``names`` ((key, words) pairs) that are NaN, joined."""
+    out = pd.Series([""] * x.n, dtype=object)
+    for key, words in names:
+        gap = np.isnan(np.asarray(x.c[key], dtype=float))
+        out = out + np.where(gap & (out != ""), ", ", "") + np.where(gap, words, "")
+    return out.replace("", "a constant")
+
+
 def _duty(x: CheckInputs, cycle: str, points: str) -> str:
     return cycle if x.env.mode == "cycle" else points
 
 
 # -- the registry ---------------------------------------------------------------------------------
 REGISTRY: list[Check] = [
+    Check("constant_basis", "brushless constants on a basis that cannot be converted to the DC-equivalent model",
+          needs=("basis_refused", "basis_note"),
+          fails=lambda x, m: np.asarray(x.c["basis_refused"], dtype=bool),
+          reason=lambda x, m: pd.Series(x.c["basis_note"], dtype=object)),
     Check("motor_data", "no motor constants: cannot check voltage",
-          fails=lambda x, m: np.isnan(x.r["voltage_margin"]),
-          reason=lambda x, m: "no motor constants: cannot check voltage (R, Kt or rotor inertia missing)"),
+          needs=("basis_refused", "terminal_resistance", "torque_constant", "rotor_inertia", "friction_torque"),
+          fails=lambda x, m: np.isnan(x.r["voltage_margin"]) & ~np.asarray(x.c["basis_refused"], dtype=bool),
+          reason=lambda x, m: "no motor constants: cannot check voltage (" + _missing(
+              x, (("terminal_resistance", "R"), ("torque_constant", "Kt"), ("rotor_inertia", "rotor inertia"),
+                  ("friction_torque", "friction torque"))) + " missing)"),
     Check("voltage", "needs more voltage than the supply gives after the drive drop",
           margin=Margin("voltage_margin", required="voltage", label="V %"),
           compute=lambda x: x.r["voltage_margin"],
