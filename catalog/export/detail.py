@@ -1,10 +1,11 @@
 """From a selection to the plain inputs of the diagrams.
 
 For a candidate of a :class:`catalog.select.Selection` this rebuilds the
-candidate (motor row, gear row, the envelope's tolerance corner and cooling
-factor) with :func:`catalog.select.candidates.build_candidates` and evaluates
-it with :func:`catalog.select.evaluate.evaluate` (``detail=True``), the same
-functions the selection ran, and returns a
+candidate (motor row, gear row, the envelope's cooling factor) with
+:func:`catalog.select.candidates.build_candidates` and evaluates it with
+:func:`catalog.select.evaluate.at_corners` (``detail=True``), the same
+functions the selection ran; the lines are drawn for the motor at the
+tolerance corner that limits its voltage.  It returns a
 :class:`~catalog.export.plots.MotorModel`, the
 :class:`~catalog.export.plots.Conditions` and one
 :class:`~catalog.export.plots.OperatingPoint` per envelope segment.
@@ -74,7 +75,8 @@ def candidate_detail(selection, candidate_id: str, catalog=None, motors=None, ge
     import numpy as np
 
     from ..select.candidates import GEAR_CATALOGUE, build_candidates
-    from ..select.evaluate import FALLBACK_TEMPERATURE, evaluate
+    from ..select.evaluate import FALLBACK_TEMPERATURE, at_corners
+    from ..select.registry import corner_scales, checks
     from .lines import Conditions, MotorModel, OperatingPoint
 
     table = selection.table
@@ -100,8 +102,13 @@ def candidate_detail(selection, candidate_id: str, catalog=None, motors=None, ge
                        "(the catalogue changed since the selection?)")
     i = ids.index(candidate_id)
     one = {k: v[i:i + 1] for k, v in cand.items()}
-    d = evaluate(env, one, detail=True)
+    d = at_corners(env, one, detail=True)
     c = {k: (v[0] if hasattr(v, "__len__") and not isinstance(v, str) else v) for k, v in one.items()}
+    # the lines are drawn for the motor at the tolerance corner that limits its voltage
+    voltage = next(ch for ch in checks() if ch.key == "voltage")
+    k_scale, r_scale = corner_scales(env, voltage.corners[int(d["corner_voltage"][0])])
+    c.update(terminal_resistance=c["terminal_resistance"] * r_scale, torque_constant=c["torque_constant"] * k_scale,
+             back_emf_constant=c["back_emf_constant"] * k_scale)
     geared = int(c["kind"]) == GEAR_CATALOGUE
     model = MotorModel(
         label=candidate_id, terminal_resistance=float(c["terminal_resistance"]), torque_constant=float(c["torque_constant"]),
@@ -111,7 +118,7 @@ def candidate_detail(selection, candidate_id: str, catalog=None, motors=None, ge
         max_speed=float(c["max_speed"]), ratio=float(c["ratio"]), efficiency=float(c["efficiency"]),
         gear_max_speed=float(c["gear_max_input_speed"]) if geared else math.nan,
         gear_label=str(c["gear"]))
-    tw = float(d["winding_temperature"][0])
+    tw = float(d["voltage_temperature"][0])     # the hot temperature of that corner's voltage check
     tw_eval = tw if math.isfinite(tw) else (model.max_winding_temperature
                                              if math.isfinite(model.max_winding_temperature)
                                              else FALLBACK_TEMPERATURE)

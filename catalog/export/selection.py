@@ -94,9 +94,14 @@ def caution_lines(selection, catalog=None) -> list[tuple[str, str]]:
     env = selection.envelope
     rows = [("caution", CAUTION)]
     tol = env.tolerance
-    if tol.get("torque_constant") or tol.get("terminal_resistance"):
-        rows.append(("tolerance corner", f"every check used Kt and Ke × {1 + tol.get('torque_constant', 0):.3g} "
-                                         f"and R × {1 + tol.get('terminal_resistance', 0):.3g} (envelope tolerance)"))
+    if any(v != (0.0, 0.0) for v in tol.values()):
+        from ..select.registry import checks, corner_label
+
+        for check in checks():
+            if check.corners and check.applies(env):
+                ends = " or ".join(dict.fromkeys(corner_label(env, c) for c in check.corners))
+                rows.append(("tolerance corner", f"{check.key}: judged at {ends} (envelope tolerance"
+                                                 + (", the worse per candidate)" if " or " in ends else ")")))
     if env.housing_cooling_factor != 1.0:
         rows.append(("cooling", f"housing-to-ambient thermal resistance × {env.housing_cooling_factor:.3g} "
                                 "(envelope housing_cooling_factor); the housing's heat capacity is the "

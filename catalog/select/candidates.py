@@ -14,12 +14,10 @@ rows, and no candidate id is written as text until somebody reads it.
 
 Brushless constants stated line-to-line are converted to the DC-equivalent
 model here (:func:`dc_equivalent_constants`; a record that cannot be
-converted is refused by the ``constant_basis`` check, never guessed).  Motor
-values get the envelope's tolerance corner here (Kt and Ke scaled by
-``1 + tolerance.torque_constant``, R by ``1 + tolerance.terminal_resistance``)
-and the housing-to-ambient thermal resistance is multiplied by the
-envelope's housing cooling factor, so every later check sees the shifted
-values.  The heat capacities of winding and housing (``winding_heat_capacity``
+converted is refused by the ``constant_basis`` check, never guessed).  R,
+Kt and Ke stay the datasheet's: the evaluation applies the envelope's
+tolerance corners (:mod:`catalog.select.registry`).  The housing-to-ambient
+thermal resistance is multiplied by the envelope's housing cooling factor.  The heat capacities of winding and housing (``winding_heat_capacity``
 = τw/Rth1, ``housing_heat_capacity`` = τ_motor/Rth2, from the datasheet
 values) do not change with the cooling factor: a better or worse mounting
 changes how fast the housing sheds heat, not how much heat it stores.
@@ -366,16 +364,12 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
         gearhead of its mount, then with every assumed ratio, motor by motor.
     """
     m = motors.reset_index(drop=True)
-    k_scale = 1.0 + env.tolerance.get("torque_constant", 0.0)
-    r_scale = 1.0 + env.tolerance.get("terminal_resistance", 0.0)
     mv = {c: _col(m, c) for c in _MOTOR}
     mv["constant_basis"] = _text(m, "constant_basis")
     mv["torque_constant"], mv["back_emf_constant"], mv["basis_refused"], mv["basis_note"] = dc_equivalent_constants(
         _text(m, "commutation"), mv["constant_basis"], mv["torque_constant"], mv["back_emf_constant"])
-    mv["torque_constant"] = mv["torque_constant"] * k_scale
     mv["back_emf_constant"] = np.where(np.isnan(mv["back_emf_constant"]), mv["torque_constant"],
-                                       mv["back_emf_constant"] * k_scale)
-    mv["terminal_resistance"] = mv["terminal_resistance"] * r_scale
+                                       mv["back_emf_constant"])
     # heat capacities of the datasheet (Cw = τw/Rth1, Ch = τ_motor/Rth2): the mounting's cooling factor
     # changes the housing-to-ambient resistance only, never how much heat the housing stores
     mv["winding_heat_capacity"] = mv["thermal_time_constant_winding"] / mv["thermal_resistance_winding_housing"]

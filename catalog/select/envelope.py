@@ -91,7 +91,7 @@ class Envelope:
     commutation: list | None = None
     mount: list | None = None
     margins: dict = field(default_factory=dict)  # voltage/current/torque/speed [1], temperature [K]
-    tolerance: dict = field(default_factory=dict)  # torque_constant, terminal_resistance [1]
+    tolerance: dict = field(default_factory=dict)  # torque_constant, terminal_resistance: (low, high) [1]
     direct: bool = True
     catalogue_gears: bool = True
     ratios: list = field(default_factory=list)    # assumed gear ratios [1]
@@ -223,6 +223,10 @@ def _quantities(node, sch, where, source, problems):
     dim = sch.get("x-dimension")
     if dim is None:
         return node
+    if sch.get("x-tolerance") and isinstance(node, str):
+        symmetric = _SYMMETRIC.match(node)
+        if symmetric:
+            return _symmetric_tolerance(node, symmetric.group(1), dim, where, source, problems)
     try:
         value = float(node) if isinstance(node, (int, float)) else parse_quantity(node, dim)
     except UnitError as exc:
@@ -250,6 +254,23 @@ def _quantities(node, sch, where, source, problems):
             problems.append(Problem(source, None, _path(where),
                                     f"{text} is out of range, expected {rel} {bound['value']:g}"))
     return value
+
+
+#: a symmetric tolerance: "±10 %", "+/- 10 %", "+-0.1"
+_SYMMETRIC = re.compile(r"^\s*(?:±|\+/-|\+-)\s*(.*?)\s*$")
+
+
+def _symmetric_tolerance(text, rest, dim, where, source, problems):
+    """(−v, +v) of a symmetric tolerance ``±v`` (v a fraction or percentage in [0, 1))."""
+    try:
+        value = parse_quantity(rest, dim)
+    except UnitError as exc:
+        problems.append(Problem(source, None, _path(where), exc.message))
+        return (math.nan, math.nan)
+    if not 0.0 <= value < 1.0:
+        problems.append(Problem(source, None, _path(where), f"{text!r} is out of range, expected a symmetric "
+                                                            "tolerance of at least 0 and below 100 %"))
+    return (-value, value)
 
 
 def _contradictions(d, source, problems):
@@ -536,8 +557,9 @@ def _build(d, data, source) -> Envelope:
     ratios = sorted({ratio_label(r) for r in ratios})
     margins = {"voltage": 0.0, "current": 0.0, "torque": 0.0, "speed": 0.0, "temperature": 0.0}
     margins.update(con.get("margins", {}))
-    tol = {"torque_constant": 0.0, "terminal_resistance": 0.0}
-    tol.update(con.get("tolerance", {}))
+    # (low, high) relative deviation of each constant: a signed deviation is both ends
+    tol = {"torque_constant": (0.0, 0.0), "terminal_resistance": (0.0, 0.0)}
+    tol.update({k: tuple(v) if isinstance(v, tuple) else (v, v) for k, v in con.get("tolerance", {}).items()})
     return Envelope(
         name=d["name"], description=d.get("description", ""), source=source, mode=mode,
         names=names, duration=dur, torque=tq, speed_start=w0, speed_end=w1, continuous=cont,

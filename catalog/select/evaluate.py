@@ -38,8 +38,8 @@ depend on the motor only, so they are built once per motor of a chunk.
 """
 from __future__ import annotations
 
-__all__ = ["evaluate", "evaluate_all", "checked_in_chunks", "chunk_rows", "CHUNK", "CHUNK_BYTES", "WORKERS",
-           "SHORT_PERIOD", "FALLBACK_TEMPERATURE"]
+__all__ = ["evaluate", "at_corners", "checked", "evaluate_all", "checked_in_chunks", "chunk_rows", "CHUNK",
+           "CHUNK_BYTES", "WORKERS", "SHORT_PERIOD", "FALLBACK_TEMPERATURE"]
 
 import os
 import threading
@@ -344,7 +344,7 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         e = energy_per_cycle(vh0 * i_hot + env.drive_voltage_drop * i_abs, env.duration,
                              vh1 * i_hot + env.drive_voltage_drop * i_abs, regenerative=env.regenerative)
     out = {
-        "winding_temperature": reported, "runaway": runaway, "thermal_missing": missing,
+        "winding_temperature": reported, "runaway": runaway, "thermal_missing": missing, "voltage_temperature": tw_eval,
         "rms_current": i_rms, "peak_current": peak_current,
         "voltage_margin": (avail - need_w) / avail, "voltage_need": need_w,
         "motor_speed": ratio * seg["w_abs_max"],
@@ -388,10 +388,65 @@ def checked_in_chunks(env, c: dict, **kw) -> dict:
     return {k: (np.concatenate([p[k] for p in parts]) if np.ndim(parts[0][k]) else parts[0][k]) for k in parts[0]}
 
 
+def _at_corner(c: dict, scales: tuple) -> dict:
+    """The candidate columns with Kt and Ke × ``scales[0]`` and R × ``scales[1]``."""
+    k, r = scales
+    if k == 1.0 and r == 1.0:
+        return c
+    out = dict(c)
+    out["torque_constant"] = c["torque_constant"] * k
+    out["back_emf_constant"] = c["back_emf_constant"] * k
+    out["terminal_resistance"] = c["terminal_resistance"] * r
+    return out
+
+
+def at_corners(env, c: dict, **kw) -> dict:
+    """:func:`evaluate` at every tolerance corner the checks declare, merged into one result.
+
+    The result is that of :data:`~catalog.select.registry.METRIC_CORNER`; a
+    check judged at other corners contributes the keys it ``owns`` from the
+    corner that gives it the smallest margin, per candidate, and
+    ``corner_<check>`` (its index into the check's corners).  Without a
+    tolerance band every corner is the same and :func:`evaluate` runs once.
+    """
+    from .registry import REGISTRY, CheckInputs, corner_scales, corners_in_use
+
+    scales = corners_in_use(env)
+    results = {sc: evaluate(env, _at_corner(c, sc), **kw) for sc in scales}
+    r = dict(results[scales[0]])
+    n = len(c["ratio"])
+    for check in REGISTRY:
+        if not check.corners or not check.applies(env):
+            continue
+        own = [corner_scales(env, k) for k in check.corners]
+        if len(set(own)) == 1:
+            pick = np.zeros(n, dtype=np.intp)
+        else:
+            margins = []
+            for sc in own:
+                x = CheckInputs(env, c, results[sc], n)
+                x.check = check
+                margins.append(np.nan_to_num(np.asarray(check.compute(x), dtype=float), nan=np.inf))
+            pick = np.argmin(np.stack(margins), axis=0)       # first corner wins ties
+        for key in check.owns:
+            if key not in results[own[0]]:
+                continue
+            value = results[own[0]][key]
+            for i, sc in enumerate(own[1:], start=1):
+                chosen = pick == i
+                if chosen.any():
+                    other = results[sc][key]
+                    mask = chosen.reshape((-1,) + (1,) * (np.ndim(value) - 1))
+                    value = np.where(mask, other, value)
+            r[key] = value
+        r["corner_" + check.key] = pick
+    return r
+
+
 @_quiet
 def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: bool = False,
             where: bool = True) -> dict:
-    """:func:`evaluate` plus the checks (no texts) of candidate rows ``c``.
+    """:func:`at_corners` plus the checks (no texts) of candidate rows ``c``.
 
     Adds every margin, ``fails_<check>`` per check, ``passed`` and, with
     ``where``, ``worst_seg`` (the segment of the smallest of the voltage,
@@ -399,7 +454,7 @@ def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: 
     """
     from .checks import CHECKS, run_checks
 
-    r = evaluate(env, c, detail=detail, energy=energy, seg=seg, where=where)
+    r = at_corners(env, c, detail=detail, energy=energy, seg=seg, where=where)
     margins, failed, _, _ = run_checks(env, c, r, with_texts=False)
     r.update(margins)
     r.update({"fails_" + k: failed[k] for k in CHECKS})

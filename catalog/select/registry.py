@@ -13,18 +13,27 @@ shortlist columns, ``select --explain``, the export's column units and the
 meanings of the rejection counts.  A new check is one :func:`register` call
 (or one entry below) plus its test.
 
+A check that reads the motor constants declares its tolerance corners
+(``corners``): which end of the envelope's tolerance band of Kt (= Ke, one
+physical constant) and of R it is judged at.  The evaluation runs once per
+distinct corner in use; a check with several corners takes, per candidate,
+the one that gives it the smallest margin, and the result keys it ``owns``
+come from that corner.  Every other number of a candidate (currents,
+winding temperature, energy) is that of :data:`METRIC_CORNER`.
+
 Fractional margins are (limit − value)/limit (voltage: (available −
 needed)/available); the temperature margin is T_max − T_w in kelvin.  A NaN
 margin (not checked) never fails its check.
 """
 from __future__ import annotations
 
-__all__ = ["Margin", "Check", "CheckInputs", "REGISTRY", "register", "unregister", "checks", "margins",
-           "margin_columns", "value_columns", "CHECKS", "below_required", "RPM"]
+__all__ = ["Margin", "Check", "CheckInputs", "Corner", "HEAT", "VOLTAGE_CORNERS", "METRIC_CORNER", "REGISTRY",
+           "register", "unregister", "checks", "margins", "margin_columns", "value_columns", "CHECKS",
+           "below_required", "RPM", "corner_scales", "corner_label", "corners_in_use"]
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from typing import Callable
+from typing import Callable, NamedTuple
 
 import numpy as np
 import pandas as pd
@@ -32,6 +41,59 @@ import pandas as pd
 from .candidates import GEAR_CATALOGUE
 
 RPM = 30.0 / np.pi   #: rad/s → rpm [rpm·s/rad]
+
+
+class Corner(NamedTuple):
+    """One end of the envelope's tolerance band per constant: +1 the high end, −1 the low end.
+
+    ``torque_constant`` moves Kt and Ke together (they are one constant in SI);
+    a signed tolerance (no band) makes both ends the same value.
+    """
+
+    torque_constant: int
+    terminal_resistance: int
+
+
+#: Kt low and R high: the most current for a torque and the most copper loss (current and heat checks)
+HEAT = Corner(-1, +1)
+#: the voltage check's corners.  The needed |R·T/K + K·ω| is affine in R and, in each quadrant of the
+#: speed-torque plane, convex or monotone in K, so its largest value over the band is at one of these four;
+#: Ke and R high (first) is the usual worst at speed, R low only hurts a generating segment.
+VOLTAGE_CORNERS = (Corner(+1, +1), Corner(-1, +1), Corner(+1, -1), Corner(-1, -1))
+#: the corner of the numbers shown beside the margins (currents, winding temperature, energy per cycle)
+METRIC_CORNER = HEAT
+
+
+def _end(env, key: str, side: int) -> float:
+    low, high = env.tolerance.get(key, (0.0, 0.0))
+    return high if side > 0 else low
+
+
+def corner_scales(env, corner: Corner) -> tuple:
+    """(factor on Kt and Ke, factor on R) of ``corner`` for the envelope's tolerances [1]."""
+    return (1.0 + _end(env, "torque_constant", corner.torque_constant),
+            1.0 + _end(env, "terminal_resistance", corner.terminal_resistance))
+
+
+def corner_label(env, corner: Corner) -> str:
+    """``Kt = Ke −10 %, R +10 %``: the corner in words (deviations from the datasheet)."""
+    def pct(v):
+        return f"{v * 100:+.3g} %".replace("-", "−")
+
+    return (f"Kt = Ke {pct(_end(env, 'torque_constant', corner.torque_constant))}, "
+            f"R {pct(_end(env, 'terminal_resistance', corner.terminal_resistance))}")
+
+
+def corners_in_use(env) -> list:
+    """The distinct corner scales the active checks need, the metric corner first."""
+    out = [corner_scales(env, METRIC_CORNER)]
+    for check in REGISTRY:
+        if check.applies(env):
+            for corner in check.corners or ():
+                sc = corner_scales(env, corner)
+                if sc not in out:
+                    out.append(sc)
+    return out
 
 
 @dataclass(frozen=True)
@@ -83,6 +145,12 @@ class Check:
     normalise : callable, optional
         ``normalise(x, margin)`` → the fraction compared in ``smallest_margin``
         (default: the margin itself for fractions; no contribution otherwise).
+    corners : tuple of Corner, optional
+        The tolerance corners the check is judged at (None: it does not read
+        the motor constants).  Several: the worst per candidate.
+    owns : tuple of str
+        Evaluation keys taken from the check's own corner (required when its
+        corners are not just :data:`METRIC_CORNER`).
     """
 
     key: str
@@ -95,6 +163,8 @@ class Check:
     active: Callable | None = None
     columns: dict = field(default_factory=dict)
     normalise: Callable | None = None
+    corners: tuple | None = None
+    owns: tuple = ()
 
     def applies(self, env) -> bool:
         return True if self.active is None else bool(self.active(env))
@@ -182,6 +252,9 @@ REGISTRY: list[Check] = [
                   ("friction_torque", "friction torque"))) + " missing)"),
     Check("voltage", "needs more voltage than the supply gives after the drive drop",
           margin=Margin("voltage_margin", required="voltage", label="V %"),
+          corners=VOLTAGE_CORNERS,
+          owns=("voltage_margin", "voltage_need", "voltage_seg", "voltage_speed", "voltage_hot",
+                "voltage_temperature", "seg_voltage", "seg_hot_worse"),
           compute=lambda x: x.r["voltage_margin"],
           reason=lambda x, m: (
               "segment " + x.names(x.r["voltage_seg"]) + ": needs " + x.fmt(x.r["voltage_need"], "{:.1f}")
@@ -190,6 +263,7 @@ REGISTRY: list[Check] = [
               + f", has {x.env.available_voltage:.1f} V after the drive drop"
               + x.note(m))),
     Check("peak_current", "a segment needs more current than the drive's peak limit",
+          corners=(HEAT,),
           margin=Margin("peak_current_margin", required="current", label="Ipk %"),
           compute=lambda x: _ratio_margin(np.full(x.n, x.env.drive_peak_current), x.r["peak_current"]),
           reason=lambda x, m: (
@@ -197,6 +271,7 @@ REGISTRY: list[Check] = [
               + f", drive gives {x.env.drive_peak_current:.3g} A peak"
               + x.note(m))),
     Check("rms_current", "RMS current above the drive's continuous limit",
+          corners=(HEAT,),
           margin=Margin("rms_current_margin", required="current", label="Irms %"),
           compute=lambda x: _ratio_margin(np.full(x.n, x.env.drive_continuous_current), x.r["rms_current"]),
           reason=lambda x, m: (
@@ -207,10 +282,12 @@ REGISTRY: list[Check] = [
           fails=lambda x, m: x.r["thermal_missing"],
           reason=lambda x, m: "no thermal data: cannot check temperature"),
     Check("thermal_runaway", "thermal runaway (no steady winding temperature)",
+          corners=(HEAT,),
           fails=lambda x, m: x.r["runaway"] & ~x.r["thermal_missing"],
           reason=lambda x, m: "thermal runaway: no steady winding temperature at " + x.fmt(x.r["rms_current"])
           + " A RMS"),
     Check("temperature", "winding too hot",
+          corners=(HEAT,),
           margin=Margin("temperature_margin", "temperature_difference", required="temperature", label="ΔT K"),
           needs=("max_winding_temperature",),
           compute=lambda x: x.c["max_winding_temperature"] - x.r["winding_temperature"],
@@ -358,6 +435,8 @@ def register(check: Check, before: str | None = None) -> Check:
     """Add a check to the registry (at the end, or before the check ``before``); returns it."""
     if any(c.key == check.key for c in REGISTRY):
         raise ValueError(f"a check {check.key!r} is registered already")
+    if check.corners not in (None, (METRIC_CORNER,)) and not check.owns:
+        raise ValueError(f"check {check.key!r} is judged at its own corners: name the keys it owns")
     at = next((i for i, c in enumerate(REGISTRY) if c.key == before), len(REGISTRY))
     REGISTRY.insert(at, check)
     return check

@@ -18,7 +18,7 @@ from .candidates import GEAR_ASSUMED, GEAR_CATALOGUE, GEAR_DIRECT, build_candida
 from .checks import check_keys, estimate_flags, reason_texts
 from .registry import CHECKS, checks, margin_columns, value_columns
 from .envelope import load_envelope
-from .evaluate import EVAL_KEYS, checked_in_chunks, evaluate, evaluate_all
+from .evaluate import EVAL_KEYS, at_corners, checked_in_chunks, evaluate_all
 
 #: Who makes the parts and their part numbers (to order them); gear columns empty without a catalogue gearhead.
 PART_COLUMNS = ["manufacturer", "part_number", "gear_manufacturer", "gear_part_number"]
@@ -233,7 +233,7 @@ class Selection:
             hint = f"; did you mean {', '.join(close)}?" if close else ""
             raise NotFound(f"no candidate {candidate_id!r} for this envelope{hint}", suggestions=close)
         one = self.candidates.take(slice(i, i + 1))
-        d = evaluate(self.envelope, one, detail=True)
+        d = at_corners(self.envelope, one, detail=True)
         if self._lazy is None and "candidate" in self._cols:   # columns given in their own order
             pos = np.flatnonzero(np.asarray(self._cols["candidate"], dtype=object) == candidate_id)[:1]
         else:
@@ -251,6 +251,7 @@ class Selection:
                      if np.isfinite(tw) else f"  winding temperature: {'runaway' if tw == np.inf else 'unknown'}")
         lines.append(f"  supply {env.min_voltage:.1f} V minimum - {env.drive_voltage_drop:.1f} V drive drop "
                      f"= {env.available_voltage:.1f} V at the motor")
+        lines += _corner_lines(env, d)
         if env.mechanism is not None:
             lines.append(f"  mechanism {env.mechanism.describe()}; load inertia at the gear output "
                          f"{env.output_inertia:.4g} kg·m² (in the load torques)")
@@ -297,6 +298,23 @@ class Selection:
             lines.append("  failed checks:")
             lines += [f"    - {t}" for t in row["reasons"].split("; ")]
         return "\n".join(lines)
+
+
+def _corner_lines(env, d: dict) -> list:
+    """``  tolerance corner: ...`` lines of ``--explain``: at which end of the tolerance band each check
+    that reads the motor constants was judged (none without a tolerance)."""
+    from .registry import corner_label
+
+    if all(v == (0.0, 0.0) for v in env.tolerance.values()):
+        return []
+    groups: dict = {}
+    for check in checks():
+        if not check.corners or not check.applies(env):
+            continue
+        pick = d.get("corner_" + check.key)
+        corner = check.corners[int(pick[0])] if pick is not None and len(check.corners) > 1 else check.corners[0]
+        groups.setdefault(corner_label(env, corner), []).append(check.key)
+    return [f"  tolerance corner {label}: {', '.join(keys)}" for label, keys in groups.items()]
 
 
 def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | None = None,

@@ -105,7 +105,7 @@ def test_candidate_diagram_matches_the_selection(wheel, demo_cat):
     from catalog.export.detail import candidate_detail
     from catalog.export.figures import candidate_figure
     from catalog.select.candidates import build_candidates
-    from catalog.select.evaluate import evaluate
+    from catalog.select.evaluate import at_corners
 
     cid = wheel.shortlist["candidate"].iloc[0]
     row = wheel.shortlist.iloc[0]
@@ -114,7 +114,7 @@ def test_candidate_diagram_matches_the_selection(wheel, demo_cat):
     env = wheel.envelope
     cand = build_candidates(demo_cat.motors(), demo_cat.gearheads(), env)
     i = list(cand["id"]).index(cid)
-    d = evaluate(env, {k: v[i:i + 1] for k, v in cand.items()}, detail=True)
+    d = at_corners(env, {k: v[i:i + 1] for k, v in cand.items()}, detail=True)
     for s in range(len(env.names)):
         torque = d["seg_motor_torque"][0, s]
         w0, w1 = d["seg_speed_start"][0, s], d["seg_speed_end"][0, s]
@@ -125,6 +125,10 @@ def test_candidate_diagram_matches_the_selection(wheel, demo_cat):
     detail = candidate_detail(wheel, cid, demo_cat)
     assert detail.winding_temperature == pytest.approx(row["winding_temperature"])
     c = {k: v[i] for k, v in cand.items()}
+    # drive_wheel's tolerance is signed (one corner for every check): Kt = Ke × 0.95, R × 1.07
+    assert env.tolerance == {"torque_constant": (-0.05, -0.05), "terminal_resistance": (0.07, 0.07)}
+    c.update(terminal_resistance=c["terminal_resistance"] * 1.07, torque_constant=c["torque_constant"] * 0.95,
+             back_emf_constant=c["back_emf_constant"] * 0.95)
     tw = row["winding_temperature"]
     r = ph.resistance_at_temperature(c["terminal_resistance"], tw, c["resistance_reference_temperature"])
     kt = ph.torque_constant_at_temperature(c["torque_constant"], tw, c["magnet_coefficient"], c["resistance_reference_temperature"])

@@ -97,9 +97,20 @@ def test_top_candidate_by_simulation(demo_catalog, name):
     assert len(sel.reason_counts()) >= 3
     top = sel.shortlist.iloc[0]
     i = list(sel.candidates["id"]).index(top["candidate"])
-    c = {k: v[i] for k, v in sel.candidates.items()}
-    tw_peak, v_worst, tw_low = simulate(sel.envelope, c)
     env = sel.envelope
+    # the envelope's tolerance: current and heat at Kt low and R high; the voltage at the worst of the four
+    # ends of the band, each motor with its own winding temperature (signed tolerances: one motor)
+    def corner(k_side, r_side):
+        k = 1 + env.tolerance["torque_constant"][k_side]
+        r = 1 + env.tolerance["terminal_resistance"][r_side]
+        out = {key: v[i] for key, v in sel.candidates.items()}
+        out.update(torque_constant=out["torque_constant"] * k, back_emf_constant=out["back_emf_constant"] * k,
+                   terminal_resistance=out["terminal_resistance"] * r)
+        return out
+
+    c = corner(0, 1)
+    tw_peak, _, tw_low = simulate(env, c)
+    v_worst = max(simulate(env, corner(k, r))[1] for k in (0, 1) for r in (0, 1))
     assert v_worst <= env.available_voltage * (1 - env.margins["voltage"]) + 1e-9   # speeds reachable
     assert tw_peak <= c["max_winding_temperature"] - env.margins["temperature"]                        # winding under limit
     # the selection holds R and Kt at the peak winding temperature all cycle: conservative, by at most
