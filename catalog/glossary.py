@@ -23,6 +23,11 @@ OTHER_QUANTITIES = (
     ("Ik", "currents", "A", "motor current of each duty-cycle segment"),
     ("Δtk", "durations", "s", "duration of each duty-cycle segment"),
     ("Pk", "losses", "W", "loss in the winding during each duty-cycle segment"),
+    ("Pcu,a", "copper_loss", "W", "copper loss of each segment with R and Kt at ambient, T²·R(Ta)/Kt(Ta)²"),
+    ("P0(t0)", "no_load_loss_start", "W",
+     "no-load loss (friction and iron, Kt·I0·ω) at each segment's start; independent of the winding temperature"),
+    ("P0(t1)", "no_load_loss_end", "W", "the same at each segment's end (it ramps linearly between)"),
+    ("θ0", "start_rise", "K", "winding rise at which an iteration starts (a guess of the solution)"),
     ("P", "power", "W", "power of each segment (energy per cycle)"),
     ("Tw", "winding_temperature", "K", "mean winding temperature"),
     ("Tw(0)", "initial_winding_temperature", "K", "winding temperature at the start of a transient"),
@@ -74,7 +79,8 @@ OTHER_QUANTITIES = (
 #: Physics parameters that are options or containers, not quantities (not in the glossary).
 OPTION_PARAMETERS = frozenset({"bound", "missing", "periodic", "regenerative", "samples_per_segment",
                                "segments_first", "trajectory", "maps", "response", "values", "end_values",
-                               "end_power", "node"})
+                               "end_power", "node",
+                               "no_load_at_winding", "tolerance"})
 
 
 def _meaning(description: str) -> str:

@@ -107,10 +107,10 @@ def caution_lines(selection, catalog=None) -> list[tuple[str, str]]:
                                 "(envelope housing_cooling_factor); the housing's heat capacity is the "
                                 "datasheet's"))
     rows.append(("thermal model", "winding temperature from the two-node thermal network at the envelope's "
-                                  "ambient, copper loss only (friction, iron and brush losses not included); "
-                                  "resistance and magnet taken at the peak winding temperature all cycle "
-                                  "(conservative: a cycle whose winding cools much between its loads reads "
-                                  "a few per cent of the rise hot)"))
+                                  "ambient, copper loss only (friction, iron and brush losses not included), "
+                                  "resistance and magnet following the winding temperature at every instant; "
+                                  "the hot voltage and the currents are taken at the peak winding "
+                                  "temperature (at most the winding's limit)"))
     rows.append(("values", "catalogue values as given or derived (see the provenance sheet); typical values, "
                            "not guaranteed minimums"))
     notes = sorted({n for text in selection.shortlist.get("notes", []) if isinstance(text, str)

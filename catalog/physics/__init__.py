@@ -18,14 +18,15 @@ temperature      copper R(T), magnet Kt(T), insulation classes
 thermal          two-node thermal network: steady state, closed forms
 transient        two-node network: exact transient and periodic duty
 network          two-node network under a loss profile; the hot fixed point
+hot_network      two-node network with the losses following the winding temperature, exact
 gearing          speed, torque and inertia through a gearhead
 mechanism        screws, belts, racks, drums, wheels, rotary loads; move profiles
 cycle            RMS, mean and energy over duty-cycle segments
 broadcast        the @vectorised wrapper every function wears (scalars, arrays, Series)
 """
 
-from . import (cycle, gearing, inverse_constants, inverse_line, inverse_ratings, mechanism, motor, network,
-               operating_point, temperature, thermal, transient)
+from . import (cycle, gearing, hot_network, inverse_constants, inverse_line, inverse_ratings, mechanism, motor,
+               network, operating_point, temperature, thermal, transient)
 from .cycle import *  # noqa: F401,F403
 from .gearing import *  # noqa: F401,F403
 from .inverse_constants import *  # noqa: F401,F403
@@ -34,6 +35,7 @@ from .mechanism import *  # noqa: F401,F403
 from .inverse_ratings import *  # noqa: F401,F403
 from .motor import *  # noqa: F401,F403
 from .network import *  # noqa: F401,F403
+from .hot_network import *  # noqa: F401,F403
 from .operating_point import *  # noqa: F401,F403
 from .temperature import *  # noqa: F401,F403
 from .thermal import *  # noqa: F401,F403
@@ -49,6 +51,7 @@ __all__ = [
     *thermal.__all__,
     *transient.__all__,
     *network.__all__,
+    *hot_network.__all__,
     *gearing.__all__,
     *mechanism.__all__,
     *cycle.__all__,

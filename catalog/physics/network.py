@@ -25,9 +25,12 @@ exactly.  So the segment-end values give the exact peak of the model.
 holding R and Kt at the peak winding temperature all cycle scales every loss
 by s(y) = (1 + a·y)/(1 + b·y)² (y the peak rise), so the peak rise is the
 smallest root of y = s(y)·θ_cold, where θ_cold is the peak rise with both at
-ambient.  This is the conservative reading (the losses of the cooler part of
-the cycle are overestimated; by well under 1 % of the rise for cycles shorter
-than the motor's thermal time constant), and exact for a steady state.
+ambient.  This is a conservative bound (the losses of the cooler part of the
+cycle are overestimated: by a few per cent of the rise on a burst cycle, by
+tens of per cent on a long overload from cold), exact for a steady state;
+held at the coolest winding temperature instead it gives a bound from below.
+:mod:`catalog.physics.hot_network` solves the network with R and Kt following
+the winding exactly.
 
 Sources: textbook chapter on heating and cooling of machines (two-node
 network); linear ODE theory (matrix exponential, Putzer); IEC 60034-1 duty

@@ -22,24 +22,32 @@ extreme at a segment end):
   strongest back-EMF) and hot (at the peak winding temperature: highest R,
   lowest Kt); the worse counts.  Currents are taken hot (largest).
 
-Winding temperature: the copper losses P = I²·R with R and Kt held at the
-peak winding temperature of the cycle (the conservative reading, exact for a
-steady state) drive the two-node network at the envelope ambient.  The
-losses then scale with one factor s(T) = R(T)/Kt(T)² (relative to ambient),
-so the network is solved once with the losses at ambient
-(:func:`catalog.physics.network_peak_rise`: periodic state of a repeated
-cycle, one pass from cold otherwise, exact interior maxima) and the peak
-temperature follows from a scalar fixed point per candidate
-(:func:`catalog.physics.hot_winding_rise`; no fixed point is thermal
-runaway).  A repeated cycle shorter than :data:`SHORT_PERIOD` of the winding
-time constant is judged by its mean loss (the RMS current); operating points
-by the steady state of the hottest continuous point.  The network's maps
-depend on the motor only, so they are built once per motor of a chunk.
+Winding temperature: the copper losses P = I²·R drive the two-node network at
+the envelope ambient with R and Kt following the winding temperature at every
+instant: s(θ) = R(θ)/Kt(θ)² relative to ambient, θ the winding rise.  Solved
+exactly (:func:`catalog.physics.hot_network_rise`: the loss is affine in the
+winding temperature on each step of a segment, so every step has a closed
+form; periodic state of a repeated cycle, one pass from cold otherwise; within
+a thousandth of a kelvin or so of a direct integration), but only where it
+matters, because it costs a matrix exponential per candidate and segment.
+Brackets of the peak rise come first: the network is linear, so the rise with
+every loss at ambient is one product with the motor's response matrix per
+ratio (:func:`catalog.physics.network_response`); since s grows with θ, every
+loss held at the s of the peak gives an upper bracket (a scalar fixed point,
+:func:`catalog.physics.hot_winding_rise`; none is thermal runaway, the
+conservative screen) and every loss held at the s of the cycle's coolest
+winding temperature a lower one.  Every verdict moves monotonically with the
+peak temperature, so a candidate whose verdicts agree at both brackets is
+decided; the others, and every candidate whose numbers are shown (shortlist,
+``--explain``, exports, diagrams), get the exact solution.  Operating points:
+the steady state of the hottest continuous point, where the fixed point is
+exact.  The network's maps depend on the motor only, so they are built once
+per motor.
 """
 from __future__ import annotations
 
 __all__ = ["evaluate", "at_corners", "checked", "evaluate_all", "checked_in_chunks", "chunk_rows", "CHUNK",
-           "CHUNK_BYTES", "WORKERS", "SHORT_PERIOD", "FALLBACK_TEMPERATURE"]
+           "CHUNK_BYTES", "EXACT_CHUNK", "WORKERS", "FALLBACK_TEMPERATURE"]
 
 import os
 import threading
@@ -47,8 +55,7 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
-from ..physics import (energy_per_cycle, network_capacity_maps, network_peak_rise, network_peak_rise_grid,
-                       network_response)
+from ..physics import energy_per_cycle, hot_network_rise, network_capacity_maps, network_response
 from ..physics import hot_winding_rise as _hot_winding_rise
 from ..physics import resistance_at_temperature as _resistance_at_temperature
 from ..physics import torque_constant_at_temperature as _torque_constant_at_temperature
@@ -72,7 +79,7 @@ RESPONSE_BYTES = 64 * 2**20
 #: fit in this [bytes]; else each chunk builds those of its own motors.
 MAPS_BYTES = 256 * 2**20
 _SEGMENT_ARRAYS = 16
-SHORT_PERIOD = 0.02      #: period/τ_w below which a repeated cycle is judged by its mean loss [1]
+EXACT_CHUNK = 4096       #: candidates per chunk of the exact winding temperature [-]
 WORKERS = max(1, min(4, os.cpu_count() or 1))  #: chunks evaluated at once (threads) [-]
 FALLBACK_TEMPERATURE = 428.15  #: winding temperature assumed where thermal data is missing [K]
 
@@ -147,26 +154,29 @@ def _motor_runs(motor_ix):
     return starts, np.diff(np.r_[starts, len(motor_ix)])
 
 
-def _cold_rise(env, c, t_sq, usable, motor_maps=None):
-    """Peak winding rise per (N·m)² of T_em², (N,), NaN where unusable: the network is linear, so the
-    rise under the losses at ambient is this times R(Ta)/Kt(Ta)².  ``t_sq`` is (S, N)."""
+def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False):
+    """(peak, low): the highest and the lowest winding rise over the cycle per (N·m)² of T_em² with R
+    and Kt at ambient, (N,) each, NaN where unusable.  ``t_sq`` is (S, N).
+
+    The network is linear, so the rise under the losses at ambient is this times R(Ta)/Kt(Ta)².  Both
+    extremes are at a segment end or the cycle start (a constant winding loss per segment: see
+    :mod:`catalog.physics.network`); they come from one product with each motor's response matrix.
+    Operating points: the steady state of the hottest continuous point.  With ``trajectory``, also
+    the rise at the cycle start and every segment end, (S + 1, N) (None for operating points).
+    """
     n = t_sq.shape[1]
     rth = c["thermal_resistance_winding_housing"] + c["thermal_resistance_housing_ambient"]
-    out = np.full(n, np.nan)
     if env.mode == "points":
         cont = env.continuous
         worst = np.max(t_sq[cont], axis=0) if cont.any() else np.zeros(n)
-        return np.where(usable, worst * rth, np.nan)
-    dur = env.duration
-    mean_rule = env.repeat & (env.period < SHORT_PERIOD * c["thermal_time_constant_winding"])
-    if mean_rule.any():
-        pick = usable & mean_rule
-        out[pick] = ((dur @ t_sq) / env.period * rth)[pick]
-    net = usable & ~mean_rule
-    if not net.any():
-        return out
-    whole = bool(net.all())
-    ix = slice(None) if whole else np.flatnonzero(net)
+        peak = np.where(usable, worst * rth, np.nan)
+        return (peak, peak, None) if trajectory else (peak, peak)
+    peak, low = np.full(n, np.nan), np.full(n, np.nan)
+    path = np.full((len(env.duration) + 1, n), np.nan) if trajectory else None
+    if not usable.any():
+        return (peak, low, path) if trajectory else (peak, low)
+    whole = bool(usable.all())
+    ix = slice(None) if whole else np.flatnonzero(usable)
     sub = t_sq if whole else t_sq[:, ix]
     mix = c["motor_ix"][ix]
     starts, runs = _motor_runs(mix)
@@ -174,23 +184,33 @@ def _cold_rise(env, c, t_sq, usable, motor_maps=None):
     if motor_maps is not None:      # built once for every motor of the catalogue
         maps = NetworkMaps(*(a[mix[starts]] if a.ndim > 1 else a for a in motor_maps))
     else:
-        maps = network_capacity_maps(dur, *(c[k][first] for k in THERMAL_NETWORK_FIELDS), periodic=bool(env.repeat))
-    regular = bool(np.all(runs == runs[0]))
-    fits = len(starts) * (len(dur) + 1) * len(dur) * 8 <= RESPONSE_BYTES
-    if motor_maps is not None and regular and fits:   # a regular block: one matmul per motor
-        # (built here for the chunk's few motors: small arrays, reused memory)
-        peak = network_peak_rise_grid(sub.reshape(len(dur), len(starts), int(runs[0])),
-                                      network_response(maps)).reshape(-1)
-    elif regular:     # a regular block (motor × ratios): the maps broadcast, no gather
-        grid = NetworkMaps(*(a[:, None] if a.ndim > 1 else a for a in maps))
-        peak = network_peak_rise(sub.reshape(len(dur), len(starts), int(runs[0])), grid,
-                                 segments_first=True).reshape(-1)
+        maps = network_capacity_maps(env.duration, *(c[k][first] for k in THERMAL_NETWORK_FIELDS),
+                                     periodic=bool(env.repeat))
+    n_seg = len(env.duration)
+    per_motor = (n_seg + 1) * n_seg * 8          # one response matrix [bytes]
+    if np.all(runs == runs[0]) and len(starts) * per_motor <= RESPONSE_BYTES:
+        # a regular block (motor × ratios): one matrix product per motor
+        response = network_response(maps)                   # (motors, S + 1, S), for the chunk's few motors
+        ends = np.matmul(response, np.moveaxis(sub.reshape(n_seg, len(starts), int(runs[0])), 0, 1))
+        peak[ix] = ends.max(axis=1).reshape(-1)
+        low[ix] = ends.min(axis=1).reshape(-1)
+        if trajectory:
+            path[:, ix] = np.moveaxis(ends, 1, 0).reshape(n_seg + 1, -1)
     else:
+        # any block: each row's own motor's response, gathered for as many rows at a time as fit in
+        # RESPONSE_BYTES (the whole chunk but for cycles of hundreds of segments)
         owner = np.repeat(np.arange(len(starts)), runs)
-        peak = network_peak_rise(sub, NetworkMaps(*(a[owner] if a.ndim > 1 else a for a in maps)),
-                                 segments_first=True)
-    out[ix] = peak
-    return out
+        step = max(1, RESPONSE_BYTES // per_motor)
+        ends = np.empty((n_seg + 1, sub.shape[1]))
+        for lo in range(0, sub.shape[1], step):
+            own = owner[lo:lo + step]
+            m0 = own[0]
+            response = network_response(NetworkMaps(*(a[m0:own[-1] + 1] if a.ndim > 1 else a for a in maps)))
+            ends[:, lo:lo + step] = np.einsum("nks,sn->kn", response[own - m0], sub[:, lo:lo + step])
+        peak[ix], low[ix] = ends.max(axis=0), ends.min(axis=0)
+        if trajectory:
+            path[:, ix] = ends
+    return (peak, low, path) if trajectory else (peak, low)
 
 
 def _argmax_rows(a, top):
@@ -215,9 +235,214 @@ def _quiet(func):
     return quiet
 
 
+def _loads(env, c, seg, trajectory=False) -> dict:
+    """What does not depend on the winding temperature: torques, cold constants, the cold corner's
+    needed voltage, the cold network's extremes and the temperature brackets."""
+    n = len(c["terminal_resistance"])
+    R, Kt, Ke = c["terminal_resistance"], c["torque_constant"], c["back_emf_constant"]
+    t_ref, beta = c["resistance_reference_temperature"], c["magnet_coefficient"]
+    ta = env.ambient_temperature
+    ratio, eta = c["ratio"], c["efficiency"]
+    back = eta if env.back_drive else 1.0 / eta
+    # T_em = (J + Jg)·n·α + T_out/(n·η) (driving) or T_out·η/n (back-driven) + Tf·sign(ω): linear in 4 terms
+    n_seg = len(seg["w0"])
+    coef = _buffer("coef", (4, n))
+    np.multiply(c["rotor_inertia"] + c["gear_inertia"], ratio, out=coef[0])
+    np.divide(1.0, ratio * eta, out=coef[1])
+    np.divide(back, ratio, out=coef[2])
+    coef[3] = c["friction_torque"]
+    t_em = np.matmul(seg["basis"], coef, out=_buffer("t_em", (n_seg, n)))   # (S, N)
+    t_sq = np.multiply(t_em, t_em, out=_buffer("t_sq", (n_seg, n)))
+    r_amb = resistance_at_temperature(R, ta, t_ref)
+    kt_amb = torque_constant_at_temperature(Kt, ta, beta, t_ref)
+    ke_amb = torque_constant_at_temperature(Ke, ta, beta, t_ref)
+    fields = THERMAL_FIELDS + (CYCLE_THERMAL_FIELDS if env.mode == "cycle" else ())
+    missing = np.zeros(n, bool)
+    for name in fields:
+        missing |= np.isnan(c[name])
+    usable = ~missing & (r_amb > 0) & (kt_amb > 0)
+    scale = r_amb / (kt_amb * kt_amb)                  # copper loss per (N·m)² at ambient [W/(N·m)²]
+    peak, low, *path = _cold_range(env, c, t_sq, usable, seg.get("motor_maps"), trajectory=trajectory)
+    a = (resistance_at_temperature(R, ta + 1.0, t_ref) - r_amb) / r_amb
+    b = (torque_constant_at_temperature(Kt, ta + 1.0, beta, t_ref) - kt_amb) / kt_amb
+    # the upper bracket of the peak rise: every loss held at the s(θ) = (1 + a·θ)/(1 + b·θ)² of the peak
+    # (s grows with θ); the lower one (:func:`_lower`) where it is needed
+    upper = hot_winding_rise(peak * scale, a, b)
+    # the cold corner (winding and magnet at ambient): |R/Kt·T_em + Ke·n·ω| at the segment ends
+    emf = ke_amb * ratio
+    terms = _buffer("terms", (5, n))
+    np.multiply(coef, r_amb / kt_amb, out=terms[:4])
+    terms[4] = emf
+    cold = np.matmul(seg["voltage_basis"], terms, out=_buffer("cold", (n_seg, n)))   # at mid speed
+    np.abs(cold, out=cold)
+    cold += np.multiply.outer(seg["half_span"], emf, out=_buffer("spread", (n_seg, n)))
+    if env.mode == "cycle":
+        sq_rms = (env.duration @ t_sq) / env.period       # mean of T_em² over the cycle
+    else:
+        cont = env.continuous
+        sq_rms = np.max(t_sq[cont], axis=0) if cont.any() else np.zeros(n)
+    return {"n": n, "coef": coef, "t_em": t_em, "t_sq": t_sq, "r_amb": r_amb, "kt_amb": kt_amb,
+            "sq_top": np.maximum.reduce(t_sq, axis=0), "sq_rms": sq_rms,
+            "ke_amb": ke_amb, "a": a, "b": b, "scale": scale, "missing": missing, "usable": usable,
+            "upper": upper, "cold": cold, "peak": peak, "low": low, "path": path[0] if path else None}
+
+
+def _lower(env, base, rows) -> np.ndarray:
+    """The lower bracket of the peak rise of the candidates at ``rows`` [K] (inf: runaway for sure).
+
+    Every loss held at the s of the cycle's coolest winding temperature m: a repeated cycle's m is at
+    least the smallest root of m = s(m)·(coolest cold rise) (none: no periodic state at all), and the
+    peak at least s(m)·(cold peak); one pass from ambient starts cold, so the cold peak itself.
+    Operating points: the exact steady state (the upper bracket).
+    """
+    if env.mode == "points":
+        return base["upper"][rows]
+    peak = base["peak"][rows] * base["scale"][rows]
+    if not env.repeat:
+        return peak
+    a, b = base["a"][rows], base["b"][rows]
+    floor = hot_winding_rise(base["low"][rows] * base["scale"][rows], a, b)
+    with np.errstate(invalid="ignore"):
+        return np.where(np.isfinite(floor), peak * (1 + a * floor) / (1 + b * floor) ** 2, np.inf)
+
+
+def _quick_lower(env, base, rows) -> np.ndarray:
+    """A closed-form bound below :func:`_lower` [K]: with s(θ) ≥ 1 + k·θ (k = a − 2b, the tangent at 0
+    of the convex s) the coolest rise m ≥ Q/(1 − k·Q) (none where k·Q ≥ 1), so the peak ≥ P/(1 − k·Q),
+    Q and P the coolest and the peak cold rise."""
+    peak = base["peak"][rows] * base["scale"][rows]
+    if env.mode == "points" or not env.repeat:
+        return _lower(env, base, rows)
+    q = base["low"][rows] * base["scale"][rows]
+    kq = (base["a"][rows] - 2.0 * base["b"][rows]) * q
+    with np.errstate(divide="ignore", invalid="ignore"):
+        return np.where(kq < 1.0, peak / (1.0 - kq), np.inf)
+
+
+def _subset(base: dict, c: dict, rows):
+    """``base`` and ``c`` at the candidate positions ``rows`` (copies)."""
+    n = base["n"]
+    cut = (lambda v: v[..., rows] if isinstance(v, np.ndarray) and v.shape[-1:] == (n,) else v)
+    sub = {k: cut(v) for k, v in base.items()}
+    sub["n"] = len(rows)
+    return sub, {k: (v[rows] if isinstance(v, np.ndarray) and v.shape[:1] == (n,) else v) for k, v in c.items()}
+
+
+def _exact_rise(env, c, base, rows, start):
+    """The exact peak rise and per-segment mean rises (S, len(rows)) of the candidates at ``rows``:
+    :func:`catalog.physics.hot_network_rise` with R and Kt following the winding."""
+    sol = hot_network_rise(env.duration, base["t_sq"][:, rows] * base["scale"][rows], base["a"][rows],
+                           base["b"][rows], c["thermal_resistance_winding_housing"][rows],
+                           c["thermal_resistance_housing_ambient"][rows], c["winding_heat_capacity"][rows],
+                           c["housing_heat_capacity"][rows], periodic=bool(env.repeat), start_rise=start)
+    return sol.peak, sol.segment_mean
+
+
+def _at_temperature(env, c, seg, base, rise, seg_rise=None, detail=False, energy=False, where=False,
+                    cold_only=False):
+    """Everything that follows from the peak winding rise ``rise`` (N,) [K] (inf: runaway): the hot
+    corner's voltage, the currents at the hot torque constant, the energy per cycle (R and Kt at each
+    segment's mean rise ``seg_rise`` (S, N) where known, else at the peak).  ``cold_only``: ``rise`` is
+    zero for every usable candidate (the verdicts with the winding at ambient)."""
+    n, n_seg = base["n"], len(seg["w0"])
+    R, Kt, Ke = c["terminal_resistance"], c["torque_constant"], c["back_emf_constant"]
+    t_ref, beta = c["resistance_reference_temperature"], c["magnet_coefficient"]
+    ta = env.ambient_temperature
+    ratio, missing, usable = c["ratio"], base["missing"], base["usable"]
+    runaway = usable & np.isinf(rise)
+    fallback = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE, c["max_winding_temperature"])
+    # the hot corner: the winding at its peak, but never above its limit (hotter, the candidate fails the
+    # temperature check, and every other check is judged at the hottest the winding may be)
+    tw_eval = np.where(usable & ~runaway, np.fmin(ta + rise, fallback), fallback)
+    reported = np.where(missing, np.nan, np.where(runaway, np.inf, ta + rise))
+    r_hot = resistance_at_temperature(R, tw_eval, t_ref)
+    kt_hot = torque_constant_at_temperature(Kt, tw_eval, beta, t_ref)
+    ke_hot = torque_constant_at_temperature(Ke, tw_eval, beta, t_ref)
+    coef, t_em, t_sq, cold = base["coef"], base["t_em"], base["t_sq"], base["cold"]
+    # the hot corner: |R/Kt·T_em + Ke·n·ω| at the mid speed + Ke·n·|Δω|/2 gives the worse segment end
+    if cold_only:                        # the winding at ambient: the hot corner is the cold one
+        worse, need = np.zeros(cold.shape, bool), cold
+    else:
+        emf = ke_hot * ratio
+        terms = _buffer("terms", (5, n))
+        np.multiply(coef, r_hot / kt_hot, out=terms[:4])
+        terms[4] = emf
+        v = np.matmul(seg["voltage_basis"], terms, out=_buffer("v", (n_seg, n)))
+        np.abs(v, out=v)
+        v += np.multiply.outer(seg["half_span"], emf, out=_buffer("spread", (n_seg, n)))
+        worse = v >= cold if detail else None
+        need = np.fmax(cold, v, out=_buffer("need", (n_seg, n)))
+    need_w = np.fmax.reduce(need, axis=0)                              # NaN (no constants) never wins
+    avail = env.available_voltage
+    sq_top = base["sq_top"]
+    peak_current = np.sqrt(sq_top) / kt_hot
+    i_rms = np.sqrt(base["sq_rms"]) / kt_hot
+    out = {
+        "winding_temperature": reported, "runaway": runaway, "thermal_missing": missing, "voltage_temperature": tw_eval,
+        "rms_current": i_rms, "peak_current": peak_current,
+        "voltage_margin": (avail - need_w) / avail, "voltage_need": need_w,
+        "motor_speed": ratio * seg["w_abs_max"],
+        "gear_out_peak": np.full(n, seg["t_out_abs"][seg["gear_out_seg"]]),
+        "gear_out_rms": np.full(n, seg["out_rms"]),
+    }
+    if where:
+        rows = np.arange(n)
+        v_seg = _argmax_rows(need, need_w)
+        t_w = t_em[v_seg, rows]
+        corners = [(r / kt * t_w, ke * ratio) for r, kt, ke in ((base["r_amb"], base["kt_amb"], base["ke_amb"]),
+                                                                 (r_hot, kt_hot, ke_hot))]
+        w0, w1 = seg["w0"][v_seg], seg["w1"][v_seg]
+        ends = [[np.abs(drop + e * w) for w in (w0, w1)] for drop, e in corners]
+        out.update({"voltage_seg": v_seg, "voltage_hot": np.fmax(*ends[1]) >= np.fmax(*ends[0]),
+                    "voltage_speed": ratio * np.where(np.fmax(ends[0][0], ends[1][0]) >= np.fmax(ends[0][1], ends[1][1]),
+                                                      np.abs(w0), np.abs(w1)),
+                    "peak_current_seg": _argmax_rows(t_sq, sq_top), "speed_seg": np.full(n, seg["speed_seg"]),
+                    "gear_out_seg": np.full(n, seg["gear_out_seg"])})
+    e = np.full(n, np.nan)
+    if energy and env.mode == "cycle":
+        # R, Kt and Ke at each segment's mean winding temperature (the peak where that is not known)
+        seg_t = (tw_eval[:, None] if seg_rise is None else
+                 np.where(np.isfinite(seg_rise.T), ta + seg_rise.T, tw_eval[:, None]))          # (N, S)
+        r_s = resistance_at_temperature(R[:, None], seg_t, t_ref[:, None])
+        kt_s = torque_constant_at_temperature(Kt[:, None], seg_t, beta[:, None], t_ref[:, None])
+        ke_s = torque_constant_at_temperature(Ke[:, None], seg_t, beta[:, None], t_ref[:, None])
+        i_seg = t_em.T / kt_s
+        i_abs = np.abs(i_seg)
+        drop = i_seg * r_s
+        emf_s = ke_s * ratio[:, None]
+        vh0, vh1 = drop + emf_s * seg["w0"], drop + emf_s * seg["w1"]
+        e = energy_per_cycle(vh0 * i_seg + env.drive_voltage_drop * i_abs, env.duration,
+                             vh1 * i_seg + env.drive_voltage_drop * i_abs, regenerative=env.regenerative)
+    out["energy_per_cycle"] = e
+    if detail:   # copies: the scratch arrays are used again by the next chunk
+        t_m = t_em - np.multiply.outer(seg["friction_sign"], c["friction_torque"])
+        out.update(seg_motor_torque=t_m.T.copy(), seg_em_torque=t_em.T.copy(), seg_current=(t_em / kt_hot).T,
+                   seg_voltage=need.T.copy(), seg_speed_start=np.multiply.outer(ratio, seg["w0"]),
+                   seg_speed_end=np.multiply.outer(ratio, seg["w1"]),
+                   seg_gear_torque=np.broadcast_to(seg["t_out_abs"], (n, len(seg["w0"]))),
+                   seg_hot_worse=worse.T.copy())
+    return out
+
+
+def _verdicts(env, c, r, n) -> np.ndarray:
+    """(checks, N) failures of the checks that read the motor constants (their verdicts move with the
+    winding temperature)."""
+    from .registry import REGISTRY, CheckInputs, below_required
+
+    x = CheckInputs(env, c, r, n)
+    out = []
+    for check in REGISTRY:
+        if not check.corners or not check.applies(env):
+            continue
+        x.check = check
+        m = np.asarray(check.compute(x), dtype=float) if check.compute is not None else None
+        out.append(np.broadcast_to(np.asarray((check.fails or below_required)(x, m), dtype=bool), (n,)))
+    return np.array(out).reshape(len(out), n)
+
+
 @_quiet
 def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict | None = None,
-             where: bool = True) -> dict:
+             where: bool = True, exact: str = "all") -> dict:
     """Evaluate one chunk of candidates.
 
     Parameters
@@ -237,6 +462,16 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     where : bool
         Also say where the worst values occur (``*_seg``, ``voltage_speed``,
         ``voltage_hot``: only the texts need them; without, they are absent).
+    exact : str
+        How the peak winding temperature of a repeated or single cycle is
+        found: ``"all"`` exactly for every candidate (the numbers shown);
+        ``"band"`` from its brackets, with ``open`` [-] marking the
+        candidates where a verdict depends on where in between it lies (the
+        verdict pass solves those exactly afterwards, all at once);
+        ``"passing"`` as ``"band"``, and ``open`` also where every check of
+        the motor constants passes (a ranking by a number that moves with
+        the temperature); ``"screen"`` the upper bracket (every loss at the
+        peak temperature).
 
     Returns
     -------
@@ -245,6 +480,7 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         inf at runaway), ``runaway`` [-], ``thermal_missing`` [-],
         ``rms_current``/``peak_current`` [A], ``voltage_need``/``voltage_speed``
         (worst segment's needed voltage [V] and motor speed there [rad/s]),
+        ``voltage_temperature`` (the hot corner's winding temperature) [K],
         ``motor_speed`` [rad/s], ``gear_out_peak``/``gear_out_rms`` [N·m],
         ``energy_per_cycle`` [J], segment indices ``*_seg`` and, with
         ``detail``, arrays ``seg_*`` of shape (N, S).
@@ -254,112 +490,63 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     Arrays are laid out segments first, (S, N), so that every per-segment
     step works on contiguous rows; the torque and voltage of every segment
     are one small matrix product each, since both are linear in a handful of
-    per-candidate coefficients.
+    per-candidate coefficients.  The verdicts move monotonically with the
+    peak winding temperature (the needed voltage is the larger of a cold and
+    a hot corner, |R(θ)/Kt(θ)·T + Ke(θ)·ω| being convex in θ; the currents
+    grow as Kt falls), so a candidate whose every verdict agrees at both
+    brackets is decided without the exact solution.
     """
     seg = _segments(env) if seg is None else seg
-    n = len(c["terminal_resistance"])
-    # kernel symbols (glossary in DEVELOPERS.md): R, Kt, Ke at the reference temperature t_ref, β
-    R, Kt, Ke = c["terminal_resistance"], c["torque_constant"], c["back_emf_constant"]
-    t_ref, beta = c["resistance_reference_temperature"], c["magnet_coefficient"]
-    ta = env.ambient_temperature
-    ratio, eta = c["ratio"], c["efficiency"]
-    back = eta if env.back_drive else 1.0 / eta
-    # T_em = (J + Jg)·n·α + T_out/(n·η) (driving) or T_out·η/n (back-driven) + Tf·sign(ω): linear in 4 terms
-    n_seg = len(seg["w0"])
-    coef = _buffer("coef", (4, n))
-    np.multiply(c["rotor_inertia"] + c["gear_inertia"], ratio, out=coef[0])
-    np.divide(1.0, ratio * eta, out=coef[1])
-    np.divide(back, ratio, out=coef[2])
-    coef[3] = c["friction_torque"]
-    t_em = np.matmul(seg["basis"], coef, out=_buffer("t_em", (n_seg, n)))   # (S, N)
-    t_sq = np.multiply(t_em, t_em, out=_buffer("t_sq", (n_seg, n)))
-
-    # cold constants and the losses at ambient
-    r_amb = resistance_at_temperature(R, ta, t_ref)
-    kt_amb = torque_constant_at_temperature(Kt, ta, beta, t_ref)
-    ke_amb = torque_constant_at_temperature(Ke, ta, beta, t_ref)
-    fields = THERMAL_FIELDS + (CYCLE_THERMAL_FIELDS if env.mode == "cycle" else ())
-    missing = np.zeros(n, bool)
-    for name in fields:
-        missing |= np.isnan(c[name])
-    usable = ~missing & (r_amb > 0) & (kt_amb > 0)
-    rise = _cold_rise(env, c, t_sq, usable, seg.get("motor_maps")) * (r_amb / (kt_amb * kt_amb))
-    # the hot fixed point: R and Kt at the peak winding temperature
-    slope_r = resistance_at_temperature(R, ta + 1.0, t_ref) - r_amb
-    slope_k = torque_constant_at_temperature(Kt, ta + 1.0, beta, t_ref) - kt_amb
-    hot = hot_winding_rise(rise, slope_r / r_amb, slope_k / kt_amb)
-    runaway = usable & np.isinf(hot)
-    fallback = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE, c["max_winding_temperature"])
-    tw_eval = np.where(usable & ~runaway, ta + hot, fallback)
-    reported = np.where(missing, np.nan, np.where(runaway, np.inf, ta + hot))
-    r_hot = resistance_at_temperature(R, tw_eval, t_ref)
-    kt_hot = torque_constant_at_temperature(Kt, tw_eval, beta, t_ref)
-    ke_hot = torque_constant_at_temperature(Ke, tw_eval, beta, t_ref)
-
-    # needed voltage: |R/Kt·T_em + Ke·n·ω| at the segment ends = |… at the mid speed| + Ke·n·|Δω|/2
-    need, worse = None, None
-    spread = _buffer("spread", (n_seg, n))
-    for corner, (r, kt, ke) in enumerate(((r_amb, kt_amb, ke_amb), (r_hot, kt_hot, ke_hot))):
-        emf = ke * ratio
-        terms = _buffer("terms", (5, n))
-        np.multiply(coef, r / kt, out=terms[:4])
-        terms[4] = emf
-        v = np.matmul(seg["voltage_basis"], terms, out=_buffer(("need", "v")[corner], (n_seg, n)))  # at mid speed
-        np.abs(v, out=v)
-        v += np.multiply.outer(seg["half_span"], emf, out=spread)
-        if need is None:
-            need = v
-        else:
-            worse = v >= need if detail else None
-            np.fmax(need, v, out=need)
-    need_w = np.fmax.reduce(need, axis=0)                              # NaN (no constants) never wins
-    avail = env.available_voltage
-    sq_top = np.maximum.reduce(t_sq, axis=0)
-    peak_current = np.sqrt(sq_top) / kt_hot
-    found = {}
-    if where:
-        rows = np.arange(n)
-        v_seg = _argmax_rows(need, need_w)
-        t_w = t_em[v_seg, rows]
-        corners = [(r / kt * t_w, ke * ratio) for r, kt, ke in ((r_amb, kt_amb, ke_amb), (r_hot, kt_hot, ke_hot))]
-        w0, w1 = seg["w0"][v_seg], seg["w1"][v_seg]
-        ends = [[np.abs(drop + emf * w) for w in (w0, w1)] for drop, emf in corners]
-        found = {"voltage_seg": v_seg, "voltage_hot": np.fmax(*ends[1]) >= np.fmax(*ends[0]),
-                 "voltage_speed": ratio * np.where(np.fmax(ends[0][0], ends[1][0]) >= np.fmax(ends[0][1], ends[1][1]),
-                                                   np.abs(w0), np.abs(w1)),
-                 "peak_current_seg": _argmax_rows(t_sq, sq_top), "speed_seg": np.full(n, seg["speed_seg"]),
-                 "gear_out_seg": np.full(n, seg["gear_out_seg"])}
-    if env.mode == "cycle":
-        i_rms = np.sqrt((env.duration @ t_sq) / env.period) / kt_hot
-    else:
-        cont = env.continuous
-        i_rms = (np.sqrt(np.max(t_sq[cont], axis=0)) / kt_hot) if cont.any() else np.zeros(n)
-    e = np.full(n, np.nan)
-    if energy and env.mode == "cycle":
-        i_hot = (t_em / kt_hot).T
-        i_abs = np.abs(i_hot)
-        drop = (t_em * (r_hot / kt_hot)).T
-        emf = (ke_hot * ratio)[:, None]
-        vh0, vh1 = drop + emf * seg["w0"], drop + emf * seg["w1"]
-        e = energy_per_cycle(vh0 * i_hot + env.drive_voltage_drop * i_abs, env.duration,
-                             vh1 * i_hot + env.drive_voltage_drop * i_abs, regenerative=env.regenerative)
-    out = {
-        "winding_temperature": reported, "runaway": runaway, "thermal_missing": missing, "voltage_temperature": tw_eval,
-        "rms_current": i_rms, "peak_current": peak_current,
-        "voltage_margin": (avail - need_w) / avail, "voltage_need": need_w,
-        "motor_speed": ratio * seg["w_abs_max"],
-        "gear_out_peak": np.full(n, seg["t_out_abs"][seg["gear_out_seg"]]),
-        "gear_out_rms": np.full(n, seg["out_rms"]), "energy_per_cycle": e, **found,
-    }
-    if detail:   # copies: the scratch arrays are used again by the next chunk
-        t_m = t_em - np.multiply.outer(seg["friction_sign"], c["friction_torque"])
-        out.update(seg_motor_torque=t_m.T.copy(), seg_em_torque=t_em.T.copy(), seg_current=(t_em / kt_hot).T,
-                   seg_voltage=need.T.copy(), seg_speed_start=np.multiply.outer(ratio, seg["w0"]),
-                   seg_speed_end=np.multiply.outer(ratio, seg["w1"]),
-                   seg_gear_torque=np.broadcast_to(seg["t_out_abs"], (n, len(seg["w0"]))),
-                   seg_hot_worse=worse.T.copy())
-    return out
-
+    base = _loads(env, c, seg, trajectory=exact == "all")
+    upper = base["upper"]
+    n = base["n"]
+    full = dict(detail=detail, energy=energy, where=where)
+    if env.mode != "cycle" or exact == "screen":
+        return _at_temperature(env, c, seg, base, upper, **full)
+    usable = base["usable"]
+    if exact != "all":
+        out = _at_temperature(env, c, seg, base, upper, **full)
+        fails_hi = _verdicts(env, c, out, n)
+        # every verdict is monotone in the peak rise θ on [0, upper]: equal at θ = 0 and at the upper
+        # bracket, it is decided; else the lower bracket may still decide it
+        cold = _at_temperature(env, c, seg, base, np.zeros(n), cold_only=True)
+        rows = np.flatnonzero(usable & np.any(fails_hi != _verdicts(env, c, cold, n), axis=0))
+        open_ = np.zeros(n, bool)
+        if exact == "passing":
+            open_ = usable & ~np.any(fails_hi, axis=0)
+        if rows.size:
+            # at or beyond the winding's limit every other check is judged at the limit (capped) and the
+            # temperature check fails at both brackets: decided.  A closed-form lower bound first (the
+            # tangent 1 + (a − 2b)·θ of s at 0 lies below s), the lower bracket where that is not enough
+            limit = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE,
+                             c["max_winding_temperature"])[rows] - env.ambient_temperature
+            rows = rows[_quick_lower(env, base, rows) < limit]
+            limit = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE,
+                             c["max_winding_temperature"])[rows] - env.ambient_temperature
+            lower = _lower(env, base, rows)
+            rows, lower = rows[lower < limit], lower[lower < limit]
+        if rows.size:
+            sub_base, sub_c = _subset(base, c, rows)
+            lo = _at_temperature(env, sub_c, seg, sub_base, lower)
+            open_[rows] |= np.any(_verdicts(env, sub_c, lo, len(rows)) != fails_hi[:, rows], axis=0)
+        out["open"] = open_
+        return out
+    rise, seg_rise = upper.copy(), None
+    rows = np.flatnonzero(usable)
+    if rows.size:
+        lower = _lower(env, base, rows)
+        # the first guess: the cold trajectory with every loss at the s of the middle of the brackets
+        a, b = base["a"][rows], base["b"][rows]
+        mid = np.where(np.isfinite(upper[rows]), 0.5 * (lower + upper[rows]), lower)
+        mid = np.where(np.isfinite(mid), mid, 0.0)
+        start = base["path"][:, rows] * base["scale"][rows] * ((1 + a * mid) / (1 + b * mid) ** 2)
+        peak, mean = _exact_rise(env, c, base, rows, start)
+        # the exact value lies between the brackets (a rounding outside them would break the verdicts
+        # decided by the brackets)
+        rise[rows] = np.where(np.isinf(peak), np.inf, np.clip(peak, lower, upper[rows]))
+        seg_rise = np.full((len(env.duration), n), np.nan)
+        seg_rise[:, rows] = mean
+    return _at_temperature(env, c, seg, base, rise, seg_rise, **full)
 
 def _chunk_starts(motor_ix, total: int, size: int = CHUNK) -> list:
     """Chunk boundaries near every ``size`` rows, moved to the start of a motor's run (so a
@@ -414,6 +601,8 @@ def at_corners(env, c: dict, **kw) -> dict:
     scales = corners_in_use(env)
     results = {sc: evaluate(env, _at_corner(c, sc), **kw) for sc in scales}
     r = dict(results[scales[0]])
+    if "open" in r:      # a verdict left open at any corner: the candidate is solved exactly
+        r["open"] = np.logical_or.reduce([results[sc]["open"] for sc in scales])
     n = len(c["ratio"])
     for check in REGISTRY:
         if not check.corners or not check.applies(env):
@@ -445,7 +634,7 @@ def at_corners(env, c: dict, **kw) -> dict:
 
 @_quiet
 def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: bool = False,
-            where: bool = True) -> dict:
+            where: bool = True, exact: str = "all") -> dict:
     """:func:`at_corners` plus the checks (no texts) of candidate rows ``c``.
 
     Adds every margin, ``fails_<check>`` per check, ``passed`` and, with
@@ -454,7 +643,7 @@ def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: 
     """
     from .checks import CHECKS, run_checks
 
-    r = at_corners(env, c, detail=detail, energy=energy, seg=seg, where=where)
+    r = at_corners(env, c, detail=detail, energy=energy, seg=seg, where=where, exact=exact)
     margins, failed, _, _ = run_checks(env, c, r, with_texts=False)
     r.update(margins)
     r.update({"fails_" + k: failed[k] for k in CHECKS})
@@ -469,6 +658,11 @@ def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: 
         worst[better], low = r[at][better], np.where(better, m, low)
     r["worst_seg"] = worst
     return r
+
+
+#: ranking keys whose values move with the winding temperature (a ranking by them needs the exact
+#: temperature of every candidate that can pass)
+TEMPERATURE_KEYS = ("winding_temperature", "rms_current", "peak_current", "energy_per_cycle", "smallest_margin")
 
 
 def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
@@ -501,30 +695,54 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
     wanted = None if keep is None else {"passed", *("fails_" + k for k in CHECKS), *keep}
+    # the verdicts need the exact winding temperature only where a bracket leaves one open; numbers kept
+    # for a ranking need it wherever a candidate can pass
+    exact = "passing" if keep is None or any(k in TEMPERATURE_KEYS for k in keep) else "band"
     out: dict = {}
 
+    def take(rows):
+        if is_set:
+            return cand.take(rows, keys)
+        return {k: v[rows] for k, v in cand.items() if k in keys}
+
     def run(b):
-        c = cand.take(slice(*b), keys) if is_set else {k: v[b[0]:b[1]] for k, v in cand.items() if k in keys}
-        r = checked(env, c, energy=energy, seg=seg, where=wanted is None)
-        return b, (r if wanted is None else {k: v for k, v in r.items() if k in wanted})
+        r = checked(env, take(slice(*b)), energy=energy, seg=seg, where=wanted is None, exact=exact)
+        return b, (r if wanted is None else {k: v for k, v in r.items() if k in wanted or k == "open"})
+
+    def run_exact(rows):
+        r = checked(env, take(rows), energy=energy, seg=seg, where=wanted is None, exact="all")
+        return rows, (r if wanted is None else {k: v for k, v in r.items() if k in wanted})
 
     def store(b, r):
         if not out:
             for k, v in r.items():
                 out[k] = np.empty(total, dtype=np.asarray(v).dtype)
+        at = slice(*b) if isinstance(b, tuple) else b
         for k, v in r.items():
-            out[k][b[0]:b[1]] = v
+            if k in out:
+                out[k][at] = v
 
-    workers = min(len(bounds), WORKERS)
+    def sweep(fn, parts):
+        """``fn`` over ``parts``, side by side on the worker threads, each result stored."""
+        workers = min(len(parts), WORKERS)
+        if not parts:
+            return
+        store(*fn(parts[0]))
+        if workers > 1:   # numpy releases the GIL inside its array loops: chunks run side by side
+            with ThreadPoolExecutor(max_workers=workers) as pool:
+                for b, r in pool.map(fn, parts[1:]):
+                    store(b, r)
+        else:
+            for b in parts[1:]:
+                store(*fn(b))
+
     # the chunks are the parallel work: a BLAS that also starts threads for each small product only
     # fights them (20x slower here)
     with threadpool_limits(1, user_api="blas"):
-        store(*run(bounds[0]))
-        if workers > 1:   # numpy releases the GIL inside its array loops: chunks run side by side
-            with ThreadPoolExecutor(max_workers=workers) as pool:
-                for b, r in pool.map(run, bounds[1:]):
-                    store(b, r)
-        else:
-            for b in bounds[1:]:
-                store(*run(b))
+        sweep(run, bounds)
+        # the candidates whose verdict (or ranked number) hangs on the exact winding temperature, solved
+        # together: the same function as for the rows shown, so their verdicts agree
+        rows = np.flatnonzero(out.pop("open")) if "open" in out else np.zeros(0, dtype=np.intp)
+        step = min(EXACT_CHUNK, chunk_rows(n_seg))
+        sweep(run_exact, [rows[i:i + step] for i in range(0, len(rows), step)])
     return out

@@ -281,23 +281,19 @@ REGISTRY: list[Check] = [
     Check("thermal_data", "no thermal data: cannot check temperature",
           fails=lambda x, m: x.r["thermal_missing"],
           reason=lambda x, m: "no thermal data: cannot check temperature"),
-    Check("thermal_runaway", "thermal runaway (no steady winding temperature)",
-          corners=(HEAT,),
-          fails=lambda x, m: x.r["runaway"] & ~x.r["thermal_missing"],
-          reason=lambda x, m: "thermal runaway: no steady winding temperature at " + x.fmt(x.r["rms_current"])
-          + " A RMS"),
-    Check("temperature", "winding too hot",
+    Check("temperature", "winding too hot, or no steady winding temperature (thermal runaway)",
           corners=(HEAT,),
           margin=Margin("temperature_margin", "temperature_difference", required="temperature", label="ΔT K"),
           needs=("max_winding_temperature",),
           compute=lambda x: x.c["max_winding_temperature"] - x.r["winding_temperature"],
-          # runaway (margin −inf) is a check of its own
-          fails=lambda x, m: np.isfinite(x.r["winding_temperature"]) & (m < x.required()),
+          # a runaway (margin −inf) is the hottest case of all; no thermal data is a check of its own
+          fails=lambda x, m: ~x.r["thermal_missing"] & (x.r["runaway"] | (m < x.required())),
           normalise=lambda x, m: m / (x.c["max_winding_temperature"] - x.env.ambient_temperature),
-          reason=lambda x, m: (
+          reason=lambda x, m: pd.Series(np.where(
+              x.r["runaway"],
+              "thermal runaway: no steady winding temperature at " + x.fmt(x.r["rms_current"]) + " A RMS",
               "winding reaches " + x.fmt(x.r["winding_temperature"] - 273.15, "{:.0f}") + " °C, limit "
-              + x.fmt(x.c["max_winding_temperature"] - 273.15, "{:.0f}") + " °C"
-              + x.note(m))),
+              + x.fmt(x.c["max_winding_temperature"] - 273.15, "{:.0f}") + " °C" + x.note(m)), dtype=object)),
     Check("speed_data", "no motor speed limit: cannot check speed", needs=("max_speed",),
           fails=lambda x, m: np.isnan(x.c["max_speed"]),
           reason=lambda x, m: "no motor speed limit: cannot check speed"),

@@ -68,7 +68,99 @@ def test_cooling_factor_changes_the_resistance_not_the_housing_capacity(hand_cat
     # doubled the housing's heat capacity: the winding came out 18 K cooler (127 °C) and the motor passed.
     sel = hand_catalog.select(envelope_file(COOLING.format(factor=0.5, torque=0.25)))
     r = row(sel, "hand-heat")
-    reference = simulate_pass(0.25, 900.0, 6.0, 14.0, 20.0, 600.0, factor=0.5, held_at=r["winding_temperature"])
-    assert r["winding_temperature"] == pytest.approx(reference, abs=0.05)
+    reference = simulate_pass(0.25, 900.0, 6.0, 14.0, 20.0, 600.0, factor=0.5)
+    assert r["winding_temperature"] == pytest.approx(reference, abs=0.1)
     assert r["winding_temperature"] - 273.15 > 140
     assert r["failed"] == "temperature"
+
+
+def simulate_cycle(segments, rth1, rth2, tau_w, tau_m, held_at=None):
+    """Peak winding temperature [K] of the periodic state of ``segments`` ((duration, torque) pairs),
+    R = 1 Ω and Kt = 0.1 N·m/A at 25 °C held at ``held_at`` [K] or following the winding; repeated
+    cycle after cycle from ambient until the cycle start settles."""
+    cw, ch = tau_w / rth1, tau_m / rth2
+
+    def rhs(_, y, torque):
+        tw = TA + y[0] if held_at is None else held_at
+        current = torque / (0.1 * (1 + BETA * (tw - TA)))
+        loss = current * current * (1 + ALPHA * (tw - TA))
+        return [(loss - (y[0] - y[1]) / rth1) / cw, ((y[0] - y[1]) / rth1 - y[1] / rth2) / ch]
+
+    y = np.zeros(2)
+    for _cycle in range(3000):
+        start, top = y.copy(), y[0]
+        for duration, torque in segments:
+            sol = solve_ivp(rhs, (0, duration), y, args=(torque,), rtol=1e-10, atol=1e-10, max_step=duration / 50)
+            top = max(top, sol.y[0].max())
+            y = sol.y[:, -1]
+        if np.max(np.abs(y - start)) < 1e-7:
+            break
+    return TA + top
+
+
+def screen(simulate, *args):
+    """The conservative reading: R and Kt held all cycle at the peak temperature they produce."""
+    t = TA + 50.0
+    for _ in range(80):
+        t = simulate(*args, held_at=t)
+    return t
+
+
+BURST = """
+name = "burst"
+[supply]
+nominal_voltage = "24 V"
+[environment]
+ambient_temperature = "25 degC"
+[gearing]
+direct = true
+catalogue = false
+[cycle]
+[[cycle.segments]]
+name = "burst"
+duration = "4 s"
+torque = "0.55 N*m"
+speed_start = "20 rad/s"
+[[cycle.segments]]
+name = "pause"
+duration = "40 s"
+torque = "0 N*m"
+speed_start = "0 rad/s"
+"""
+
+
+def test_a_burst_cycle_within_a_tenth_of_a_kelvin(hand_catalog, envelope_file):
+    # HOTV (Rth1 3, Rth2 7 K/W, τw 20 s, τ_motor 600 s): 4 s at 0.55 N·m (5.5 A) in 44 s, repeated.
+    # Holding R and Kt at the peak all cycle overstated the rise by several per cent.
+    r = row(hand_catalog.select(envelope_file(BURST)), "hand-hotv")
+    reference = simulate_cycle([(4.0, 0.55), (40.0, 0.0)], 3.0, 7.0, 20.0, 600.0)
+    assert r["winding_temperature"] == pytest.approx(reference, abs=0.1)
+    held = screen(simulate_cycle, [(4.0, 0.55), (40.0, 0.0)], 3.0, 7.0, 20.0, 600.0)
+    assert (held - TA) / (reference - TA) > 1.02
+
+
+def test_a_long_overload_from_cold_passes_within_a_tenth_of_a_kelvin(hand_catalog, envelope_file):
+    # HEAT (Rth1 6, Rth2 14 K/W, τw 20 s, τ_motor 600 s, limit 130 °C): 0.212 N·m for 900 s from cold.
+    # R and Kt following the winding: 125.1 °C, it passes; held at the peak all the way: 133.5 °C (the
+    # rise 8 % high), and the motor was lost.
+    r = row(hand_catalog.select(envelope_file(COOLING.format(factor=1.0, torque=0.212))), "hand-heat")
+    reference = simulate_pass(0.212, 900.0, 6.0, 14.0, 20.0, 600.0)
+    assert r["winding_temperature"] == pytest.approx(reference, abs=0.1)
+    assert r["passed"] and reference - 273.15 < 130.0
+    held = screen(lambda *a, held_at: simulate_pass(*a, held_at=held_at), 0.212, 900.0, 6.0, 14.0, 20.0, 600.0)
+    assert held - 273.15 > 130.0
+
+
+@pytest.mark.parametrize("name", ["drive_wheel", "lift_axis", "camera_pan", "water_pump", "impossible"])
+def test_verdicts_from_the_brackets_are_the_exact_verdicts(demo_catalog, name):
+    # The verdict pass solves exactly only where a verdict hangs on the winding temperature; every row
+    # read is evaluated exactly: both must give every check the same verdict.
+    from pathlib import Path
+
+    import pandas as pd
+
+    sel = demo_catalog.select(Path(__file__).resolve().parents[2] / "queries" / f"{name}.toml")
+    table = sel.table            # "passed" from the verdict pass, "failed" evaluated again exactly
+    assert ((table["failed"] == "") == table["passed"]).all()
+    exact_counts = pd.Series([k for f in table["failed"] for k in f.split(", ") if k]).value_counts()
+    assert exact_counts.sort_index().to_dict() == sel.reason_counts().sort_index().to_dict()
