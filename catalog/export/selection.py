@@ -107,8 +107,10 @@ def caution_lines(selection, catalog=None) -> list[tuple[str, str]]:
                                 "(envelope housing_cooling_factor); the housing's heat capacity is the "
                                 "datasheet's"))
     rows.append(("thermal model", "winding temperature from the two-node thermal network at the envelope's "
-                                  "ambient, copper loss only (friction, iron and brush losses not included), "
-                                  "resistance and magnet following the winding temperature at every instant; "
+                                  "ambient: copper loss with resistance and magnet following the winding "
+                                  "temperature at every instant, friction and iron loss (Kt·I0·ω) at the "
+                                  "winding of a brushed motor, the housing of a brushless one (the brushes' "
+                                  "own loss is not included, their voltage drop is); "
                                   "the hot voltage and the currents are taken at the peak winding "
                                   "temperature (at most the winding's limit)"))
     rows.append(("values", "catalogue values as given or derived (see the provenance sheet); typical values, "

@@ -25,7 +25,7 @@ changes how fast the housing sheds heat, not how much heat it stores.
 from __future__ import annotations
 
 __all__ = ["build_candidates", "Candidates", "GEAR_DIRECT", "GEAR_CATALOGUE", "GEAR_ASSUMED", "MAX_CANDIDATES",
-           "dc_equivalent_constants", "constant_basis_note"]
+           "dc_equivalent_constants", "constant_basis_note", "no_load_at_winding"]
 
 from collections.abc import Mapping
 
@@ -44,7 +44,7 @@ _MOTOR = ["terminal_resistance", "torque_constant", "back_emf_constant", "fricti
           "rotor_inertia", "thermal_resistance_winding_housing", "thermal_resistance_housing_ambient",
           "thermal_time_constant_winding", "thermal_time_constant_motor", "max_winding_temperature",
           "resistance_reference_temperature", "max_speed", "no_load_speed", "mass", "length",
-          "diameter", "price"]
+          "diameter", "price", "max_peak_current", "brush_voltage_drop"]
 _GEAR = ["ratio", "efficiency", "inertia", "max_continuous_torque", "max_intermittent_torque",
          "max_input_speed", "mass", "length", "diameter", "price"]
 
@@ -54,7 +54,9 @@ _BY_MOTOR = {**{k: k for k in _MOTOR if k not in ("no_load_speed", "mass", "leng
              "magnet_coefficient": "magnet_coefficient", "speed_from_no_load": "speed_from_no_load",
              "winding_heat_capacity": "winding_heat_capacity", "housing_heat_capacity": "housing_heat_capacity",
              "motor": "id", "mount": "mount", "commutation": "commutation", "motor_note": "note",
-             "constant_basis": "constant_basis", "basis_note": "basis_note", "basis_refused": "basis_refused"}
+             "constant_basis": "constant_basis", "basis_note": "basis_note", "basis_refused": "basis_refused",
+             "no_load_at_winding": "no_load_at_winding", "current_basis_factor": "current_basis_factor",
+             "brush_note": "brush_note"}
 #: candidate key -> gear-option column (gathered by the option row): ``gear_`` + the gearhead schema's name
 _BY_OPTION = {"ratio": "ratio", "efficiency": "efficiency", "gear_inertia": "inertia", "gear": "label",
               "kind": "kind", "gear_max_continuous_torque": "max_continuous_torque",
@@ -195,6 +197,25 @@ def constant_basis_note(commutation, constant_basis, torque_constant=np.nan, bac
     """How the selection reads the constants of one record (empty for a DC record)."""
     return str(dc_equivalent_constants([commutation], [constant_basis], [torque_constant],
                                        [back_emf_constant])[3][0])
+
+
+def no_load_at_winding(commutation) -> np.ndarray:
+    """Where a motor's no-load losses (friction and iron, Kt·I0·ω) heat it: True the winding node.
+
+    A brushed motor carries its winding on the rotor together with the
+    commutator and, iron-core, the armature iron whose flux alternates: the
+    iron losses and the commutator's friction arise there, so the winding
+    node (a coreless motor's small iron loss in its stator return path is
+    counted there too, as is a motor whose commutation is not stated: the
+    hotter reading).  A brushless motor's rotor carries magnets only; its iron
+    losses arise in the stator lamination pressed into the housing and its
+    friction in the bearings: the housing node.  Source: textbook chapters on
+    DC machines (core loss in the rotating armature; brush and bearing
+    friction) and on brushless permanent-magnet machines (core loss in the
+    stator).
+    """
+    com = pd.Series(commutation, dtype=object).fillna("").astype(str).str.strip().str.lower().to_numpy()
+    return com != "brushless"
 
 
 def _stages(ratio: np.ndarray) -> np.ndarray:
@@ -370,6 +391,20 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
         _text(m, "commutation"), mv["constant_basis"], mv["torque_constant"], mv["back_emf_constant"])
     mv["back_emf_constant"] = np.where(np.isnan(mv["back_emf_constant"]), mv["torque_constant"],
                                        mv["back_emf_constant"])
+    commutation = pd.Series(_text(m, "commutation")).str.strip().str.lower().to_numpy()
+    mv["no_load_at_winding"] = no_load_at_winding(commutation)
+    # the phase current a motor's own peak limit is stated in, per DC-equivalent ampere (line-to-line
+    # records: a sinusoidal drive's phase peak is 2/√3 of the DC-equivalent current, a six-step one's
+    # equal to it; the larger is taken)
+    mv["current_basis_factor"] = np.where(np.isin(mv["constant_basis"], list(_BASES)), 2.0 / np.sqrt(3.0), 1.0)
+    brushed = commutation == "brushed"
+    own = mv["brush_voltage_drop"]
+    default = 0.0 if env.brush_voltage_drop is None else env.brush_voltage_drop
+    mv["brush_voltage_drop"] = np.where(~np.isnan(own), own, np.where(brushed, default, 0.0))
+    mv["brush_note"] = np.where(
+        brushed & np.isnan(own),
+        "brush voltage drop not stated: taken as 0 V (supply.brush_voltage_drop sets one)"
+        if env.brush_voltage_drop is None else f"brush voltage drop {default:.3g} V (envelope default)", "").astype(object)
     # heat capacities of the datasheet (Cw = τw/Rth1, Ch = τ_motor/Rth2): the mounting's cooling factor
     # changes the housing-to-ambient resistance only, never how much heat the housing stores
     mv["winding_heat_capacity"] = mv["thermal_time_constant_winding"] / mv["thermal_resistance_winding_housing"]

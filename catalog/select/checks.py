@@ -136,7 +136,8 @@ def _notes(c, env=None):
     extra_motor = pd.Series(c.get("motor_note", np.full(n, "", dtype=object)))
     basis = pd.Series(c.get("basis_note", np.full(n, "", dtype=object)), dtype=object).where(
         ~pd.Series(c.get("basis_refused", np.zeros(n, bool)), dtype=bool), "")   # refused: the reason says it
-    for more in (basis, extra, extra_motor):
+    brush = pd.Series(c.get("brush_note", np.full(n, "", dtype=object)), dtype=object)
+    for more in (basis, brush, extra, extra_motor):
         out = out + np.where((out != "") & (more != ""), "; ", "") + more
     return out
 

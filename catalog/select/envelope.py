@@ -80,6 +80,7 @@ class Envelope:
     nominal_voltage: float = math.nan      # [V]
     min_voltage: float = math.nan          # [V]
     drive_voltage_drop: float = 0.0        # [V]
+    brush_voltage_drop: float | None = None  # [V] of brushed motors that state none; None: not given (0 V)
     drive_continuous_current: float = math.inf  # [A]
     drive_peak_current: float = math.inf   # [A]
     regenerative: bool = False
@@ -565,7 +566,8 @@ def _build(d, data, source) -> Envelope:
         names=names, duration=dur, torque=tq, speed_start=w0, speed_end=w1, continuous=cont,
         repeat=d.get("cycle", d.get("motion", {})).get("repeat", True),
         nominal_voltage=sup["nominal_voltage"], min_voltage=sup.get("min_voltage", sup["nominal_voltage"]),
-        drive_voltage_drop=sup.get("drive_voltage_drop", 0.0), drive_continuous_current=cont_i,
+        drive_voltage_drop=sup.get("drive_voltage_drop", 0.0), brush_voltage_drop=sup.get("brush_voltage_drop"),
+        drive_continuous_current=cont_i,
         drive_peak_current=sup.get("drive_peak_current", cont_i), regenerative=sup.get("regenerative", False),
         ambient_temperature=envi.get("ambient_temperature", 298.15),
         housing_cooling_factor=envi.get("housing_cooling_factor", 1.0),

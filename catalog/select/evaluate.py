@@ -16,15 +16,24 @@ extreme at a segment end):
   :func:`catalog.physics.required_motor_torque`;
 * electromagnetic torque  T_em = T_m + T_f·sign(ω)  (friction opposes motion;
   none at standstill);
-* current I = T_em/Kt(T); voltage V = R(T)·I + Ke(T)·ω at both segment ends,
-  needed |V| (inductive drop L·dI/dt neglected: currents are constant within
-  a segment), in two corners: cold (winding and magnet at ambient: the
-  strongest back-EMF) and hot (at the peak winding temperature: highest R,
-  lowest Kt); the worse counts.  Currents are taken hot (largest).
+* current I = T_em/Kt(T); voltage V = R(T)·I + V_brush·sign(I) + Ke(T)·ω at
+  both segment ends (the brushes of a brushed motor drop their voltage in the
+  direction of the current), needed |V| (inductive drop L·dI/dt neglected:
+  currents are constant within a segment), in two corners: cold (winding and
+  magnet at ambient: the strongest back-EMF) and hot (at the peak winding
+  temperature, at most the winding's limit: highest R, lowest Kt); the worse
+  counts.  Currents are taken hot (largest).
 
-Winding temperature: the copper losses P = I²·R drive the two-node network at
+Losses: the copper loss I²·R, and the no-load loss T_f·|ω| = Kt·I0·|ω|
+(friction and iron, independent of the winding temperature, ramping with
+the speed) at the node where it arises
+(:func:`catalog.select.candidates.no_load_at_winding`: the winding of a
+brushed motor, the housing of a brushless one).
+
+Winding temperature: the losses drive the two-node network at
 the envelope ambient with R and Kt following the winding temperature at every
-instant: s(θ) = R(θ)/Kt(θ)² relative to ambient, θ the winding rise.  Solved
+instant: the copper loss scales with s(θ) = R(θ)/Kt(θ)² relative to ambient,
+θ the winding rise.  Solved
 exactly (:func:`catalog.physics.hot_network_rise`: the loss is affine in the
 winding temperature on each step of a segment, so every step has a closed
 form; periodic state of a repeated cycle, one pass from cold otherwise; within
@@ -90,7 +99,8 @@ EVAL_KEYS = ("motor_ix", "terminal_resistance", "torque_constant", "back_emf_con
              "rotor_inertia", "gear_inertia", "thermal_resistance_winding_housing",
              "thermal_resistance_housing_ambient", "thermal_time_constant_winding", "thermal_time_constant_motor",
              "max_winding_temperature", "resistance_reference_temperature", "magnet_coefficient", "ratio",
-             "efficiency", "winding_heat_capacity", "housing_heat_capacity")
+             "efficiency", "winding_heat_capacity", "housing_heat_capacity", "no_load_at_winding",
+             "brush_voltage_drop")
 CYCLE_THERMAL_FIELDS = ("thermal_time_constant_winding", "thermal_time_constant_motor")
 #: the candidate columns of the two-node network, in the order of :func:`catalog.physics.network_capacity_maps`
 #: (the heat capacities are the datasheet's; the housing-to-ambient resistance has the cooling factor)
@@ -154,63 +164,102 @@ def _motor_runs(motor_ix):
     return starts, np.diff(np.r_[starts, len(motor_ix)])
 
 
-def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False):
-    """(peak, low): the highest and the lowest winding rise over the cycle per (N·m)² of T_em² with R
-    and Kt at ambient, (N,) each, NaN where unusable.  ``t_sq`` is (S, N).
+def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False) -> dict:
+    """The network with R and Kt at ambient, per candidate ((N,) arrays, NaN where unusable).
 
-    The network is linear, so the rise under the losses at ambient is this times R(Ta)/Kt(Ta)².  Both
-    extremes are at a segment end or the cycle start (a constant winding loss per segment: see
-    :mod:`catalog.physics.network`); they come from one product with each motor's response matrix.
-    Operating points: the steady state of the hottest continuous point.  With ``trajectory``, also
-    the rise at the cycle start and every segment end, (S + 1, N) (None for operating points).
+    ``peak``/``low``: the highest and the lowest winding rise over the cycle per (N·m)² of T_em²
+    (the copper loss then is this times R(Ta)/Kt(Ta)²); both are at a segment end or the cycle start
+    (a constant winding loss per segment: see :mod:`catalog.physics.network`) and come from one
+    product with each motor's response matrix.  The no-load loss T_f·n·|ω| (friction and iron,
+    independent of the winding temperature): ``no_load_up`` bounds its winding rise from above at
+    every instant (entering the winding, which heats the winding at least as much as the housing
+    does: e11 ≥ e21 of the network; at each segment's fastest speed), ``no_load_low`` from below at
+    every segment end (at its own node, each segment's slowest speed).  With ``trajectory`` also
+    ``path`` (copper, per (N·m)²) and ``no_load_path`` (its own node, each segment's mean speed), the
+    rises at the cycle start and every segment end, (S + 1, N).  Operating points: the steady
+    states of the continuous points, ``points`` (P, N) copper and ``no_load_points`` (P, N).
     """
     n = t_sq.shape[1]
-    rth = c["thermal_resistance_winding_housing"] + c["thermal_resistance_housing_ambient"]
+    out = {k: np.full(n, np.nan) for k in ("peak", "low", "no_load_up", "no_load_low")}
+    rth1, rth2 = c["thermal_resistance_winding_housing"], c["thermal_resistance_housing_ambient"]
+    f = c["friction_torque"] * c["ratio"]                    # no-load loss per rad/s of load speed [W·s/rad]
+    at_w = np.asarray(c["no_load_at_winding"], dtype=bool)
     if env.mode == "points":
         cont = env.continuous
-        worst = np.max(t_sq[cont], axis=0) if cont.any() else np.zeros(n)
-        peak = np.where(usable, worst * rth, np.nan)
-        return (peak, peak, None) if trajectory else (peak, peak)
-    peak, low = np.full(n, np.nan), np.full(n, np.nan)
-    path = np.full((len(env.duration) + 1, n), np.nan) if trajectory else None
+        speed = np.abs(env.speed_start[cont])[:, None]
+        out["points"] = np.where(usable, t_sq[cont] * (rth1 + rth2), np.nan)
+        out["no_load_points"] = np.where(usable, speed * f * np.where(at_w, rth1 + rth2, rth2), np.nan)
+        out["peak"] = out["points"].max(axis=0) if cont.any() else np.where(usable, 0.0, np.nan)
+        return out
+    n_seg = len(env.duration)
+    if trajectory:
+        out["path"], out["no_load_path"] = np.full((n_seg + 1, n), np.nan), np.full((n_seg + 1, n), np.nan)
     if not usable.any():
-        return (peak, low, path) if trajectory else (peak, low)
+        return out
     whole = bool(usable.all())
     ix = slice(None) if whole else np.flatnonzero(usable)
     sub = t_sq if whole else t_sq[:, ix]
     mix = c["motor_ix"][ix]
     starts, runs = _motor_runs(mix)
     first = np.arange(n)[ix][starts]
+    net = [c[k][first] for k in THERMAL_NETWORK_FIELDS]
     if motor_maps is not None:      # built once for every motor of the catalogue
         maps = NetworkMaps(*(a[mix[starts]] if a.ndim > 1 else a for a in motor_maps))
     else:
-        maps = network_capacity_maps(env.duration, *(c[k][first] for k in THERMAL_NETWORK_FIELDS),
-                                     periodic=bool(env.repeat))
-    n_seg = len(env.duration)
-    per_motor = (n_seg + 1) * n_seg * 8          # one response matrix [bytes]
-    if np.all(runs == runs[0]) and len(starts) * per_motor <= RESPONSE_BYTES:
-        # a regular block (motor × ratios): one matrix product per motor
-        response = network_response(maps)                   # (motors, S + 1, S), for the chunk's few motors
-        ends = np.matmul(response, np.moveaxis(sub.reshape(n_seg, len(starts), int(runs[0])), 0, 1))
-        peak[ix] = ends.max(axis=1).reshape(-1)
-        low[ix] = ends.min(axis=1).reshape(-1)
-        if trajectory:
-            path[:, ix] = np.moveaxis(ends, 1, 0).reshape(n_seg + 1, -1)
-    else:
-        # any block: each row's own motor's response, gathered for as many rows at a time as fit in
-        # RESPONSE_BYTES (the whole chunk but for cycles of hundreds of segments)
-        owner = np.repeat(np.arange(len(starts)), runs)
-        step = max(1, RESPONSE_BYTES // per_motor)
-        ends = np.empty((n_seg + 1, sub.shape[1]))
-        for lo in range(0, sub.shape[1], step):
-            own = owner[lo:lo + step]
-            m0 = own[0]
-            response = network_response(NetworkMaps(*(a[m0:own[-1] + 1] if a.ndim > 1 else a for a in maps)))
-            ends[:, lo:lo + step] = np.einsum("nks,sn->kn", response[own - m0], sub[:, lo:lo + step])
-        peak[ix], low[ix] = ends.max(axis=0), ends.min(axis=0)
-        if trajectory:
-            path[:, ix] = ends
-    return (peak, low, path) if trajectory else (peak, low)
+        maps = network_capacity_maps(env.duration, *net, periodic=bool(env.repeat))
+    n_cand = sub.shape[1]
+    per_motor = (n_seg + 1) * n_seg * 8            # one response matrix [bytes]
+    group = max(1, RESPONSE_BYTES // per_motor)     # motors (or rows) whose response matrices fit at once
+    offsets = np.r_[0, np.cumsum(runs)]             # each motor's first candidate column in ``sub``
+    regular = bool(np.all(runs == runs[0]))
+    w_abs = np.abs(np.stack([env.speed_start, env.speed_end]))
+    fast, slow, mean = w_abs.max(axis=0), w_abs.min(axis=0), w_abs.mean(axis=0)
+    f_sub, at_w_sub = f[ix], at_w[ix]
+    no_load = bool(np.any(f_sub > 0))
+    ends = np.empty((n_seg + 1, n_cand))
+    nl_up, nl_low = np.zeros(n_cand), np.zeros(n_cand)
+    nl_path = np.zeros((n_seg + 1, n_cand)) if trajectory else None
+    # one pass over all the chunk's motors but for cycles of hundreds of segments, whose response
+    # matrices are built a group of motors at a time
+    for g0 in range(0, len(starts), group):
+        g1 = min(len(starts), g0 + group)
+        lo, hi, r = offsets[g0], offsets[g1], runs[g0:g1]
+        response = network_response(NetworkMaps(*(a[g0:g1] if a.ndim > 1 else a for a in maps)))  # (m, S + 1, S)
+        if regular:       # a regular block (motor × ratios): one matrix product per motor
+            block = np.matmul(response, np.moveaxis(sub[:, lo:hi].reshape(n_seg, g1 - g0, int(runs[0])), 0, 1))
+            ends[:, lo:hi] = np.moveaxis(block, 1, 0).reshape(n_seg + 1, -1)
+        else:             # each row its own motor's response, gathered for as many rows as fit
+            owner = np.repeat(np.arange(g1 - g0), r)
+            for a0 in range(lo, hi, group):
+                a1 = min(hi, a0 + group)
+                ends[:, a0:a1] = np.einsum("nks,sn->kn", response[owner[a0 - lo:a1 - lo]], sub[:, a0:a1])
+        if no_load:
+            spread = (lambda per_motor: np.repeat(per_motor, r, axis=-1))   # motors -> candidates
+            housing = network_response(network_capacity_maps(env.duration, *(x[g0:g1] for x in net),
+                                                              periodic=bool(env.repeat), node="housing"))
+            fg, own = f_sub[lo:hi], at_w_sub[lo:hi]
+            nl_up[lo:hi] = fg * spread((response @ fast).max(axis=1))
+            low_w, low_h = (response @ slow).min(axis=1), (housing @ slow).min(axis=1)
+            nl_low[lo:hi] = fg * np.where(own, spread(low_w), spread(low_h))
+            if trajectory:
+                nl_path[:, lo:hi] = fg * np.where(own, spread((response @ mean).T), spread((housing @ mean).T))
+    out["peak"][ix], out["low"][ix] = ends.max(axis=0), ends.min(axis=0)
+    out["no_load_up"][ix], out["no_load_low"][ix] = nl_up, nl_low
+    if trajectory:
+        out["path"][:, ix], out["no_load_path"][:, ix] = ends, nl_path
+    return out
+
+
+def _offset_rise(cold, offset, a, b):
+    """Smallest y with y = s(y)·cold + offset, s(y) = (1 + a·y)/(1 + b·y)², inf where there is none [K].
+
+    With y = offset + z: z = s(offset)·cold·(1 + a'·z)/(1 + b'·z)², a' = a/(1 + a·offset),
+    b' = b/(1 + b·offset), the fixed point :func:`catalog.physics.hot_winding_rise` solves."""
+    if not np.any(offset):
+        return hot_winding_rise(cold, a, b)
+    ka, kb = 1.0 + a * offset, 1.0 + b * offset
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return offset + hot_winding_rise(cold * ka / (kb * kb), a / ka, b / kb)
 
 
 def _argmax_rows(a, top):
@@ -262,18 +311,31 @@ def _loads(env, c, seg, trajectory=False) -> dict:
         missing |= np.isnan(c[name])
     usable = ~missing & (r_amb > 0) & (kt_amb > 0)
     scale = r_amb / (kt_amb * kt_amb)                  # copper loss per (N·m)² at ambient [W/(N·m)²]
-    peak, low, *path = _cold_range(env, c, t_sq, usable, seg.get("motor_maps"), trajectory=trajectory)
+    net = _cold_range(env, c, t_sq, usable, seg.get("motor_maps"), trajectory=trajectory)
     a = (resistance_at_temperature(R, ta + 1.0, t_ref) - r_amb) / r_amb
     b = (torque_constant_at_temperature(Kt, ta + 1.0, beta, t_ref) - kt_amb) / kt_amb
-    # the upper bracket of the peak rise: every loss held at the s(θ) = (1 + a·θ)/(1 + b·θ)² of the peak
-    # (s grows with θ); the lower one (:func:`_lower`) where it is needed
-    upper = hot_winding_rise(peak * scale, a, b)
-    # the cold corner (winding and magnet at ambient): |R/Kt·T_em + Ke·n·ω| at the segment ends
+    # the upper bracket of the peak rise: every copper loss held at the s(θ) = (1 + a·θ)/(1 + b·θ)² of the
+    # peak (s grows with θ), the no-load loss at its bound from above; the lower one (:func:`_lower`) where
+    # it is needed.  Operating points: the exact steady state of the hottest continuous point.
+    if env.mode == "points":
+        upper = np.zeros(n)
+        for cu, nl in zip(net.get("points", ()), net.get("no_load_points", ())):
+            upper = np.fmax(upper, _offset_rise(cu * scale, nl, a, b))
+        upper = np.where(usable, upper, np.nan)
+    else:
+        upper = _offset_rise(net["peak"] * scale, net["no_load_up"], a, b)
+    # the cold corner (winding and magnet at ambient): |R/Kt·T_em + V_brush·sign(I) + Ke·n·ω| at the
+    # segment ends
     emf = ke_amb * ratio
     terms = _buffer("terms", (5, n))
     np.multiply(coef, r_amb / kt_amb, out=terms[:4])
     terms[4] = emf
     cold = np.matmul(seg["voltage_basis"], terms, out=_buffer("cold", (n_seg, n)))   # at mid speed
+    brush = c["brush_voltage_drop"]
+    brush_sign = None
+    if np.any(brush > 0):            # the brushes drop their voltage in the direction of the current
+        brush_sign = np.sign(t_em) * brush
+        cold += brush_sign
     np.abs(cold, out=cold)
     cold += np.multiply.outer(seg["half_span"], emf, out=_buffer("spread", (n_seg, n)))
     if env.mode == "cycle":
@@ -284,26 +346,29 @@ def _loads(env, c, seg, trajectory=False) -> dict:
     return {"n": n, "coef": coef, "t_em": t_em, "t_sq": t_sq, "r_amb": r_amb, "kt_amb": kt_amb,
             "sq_top": np.maximum.reduce(t_sq, axis=0), "sq_rms": sq_rms,
             "ke_amb": ke_amb, "a": a, "b": b, "scale": scale, "missing": missing, "usable": usable,
-            "upper": upper, "cold": cold, "peak": peak, "low": low, "path": path[0] if path else None}
+            "upper": upper, "cold": cold, "brush_sign": brush_sign, "peak": net["peak"], "low": net["low"],
+            "no_load_low": net["no_load_low"], "path": net.get("path"), "no_load_path": net.get("no_load_path")}
 
 
 def _lower(env, base, rows) -> np.ndarray:
     """The lower bracket of the peak rise of the candidates at ``rows`` [K] (inf: runaway for sure).
 
-    Every loss held at the s of the cycle's coolest winding temperature m: a repeated cycle's m is at
-    least the smallest root of m = s(m)·(coolest cold rise) (none: no periodic state at all), and the
-    peak at least s(m)·(cold peak); one pass from ambient starts cold, so the cold peak itself.
+    Every copper loss held at the s of the cycle's coolest winding temperature m: a repeated cycle's m
+    is at least the smallest root of m = s(m)·(coolest cold copper rise) (none: no periodic state at
+    all), and the peak at least s(m)·(cold copper peak) plus the no-load loss's bound from below; one
+    pass from ambient starts cold, so the cold peak itself.
     Operating points: the exact steady state (the upper bracket).
     """
     if env.mode == "points":
         return base["upper"][rows]
     peak = base["peak"][rows] * base["scale"][rows]
+    no_load = base["no_load_low"][rows]
     if not env.repeat:
-        return peak
+        return peak + no_load
     a, b = base["a"][rows], base["b"][rows]
     floor = hot_winding_rise(base["low"][rows] * base["scale"][rows], a, b)
     with np.errstate(invalid="ignore"):
-        return np.where(np.isfinite(floor), peak * (1 + a * floor) / (1 + b * floor) ** 2, np.inf)
+        return np.where(np.isfinite(floor), peak * (1 + a * floor) / (1 + b * floor) ** 2 + no_load, np.inf)
 
 
 def _quick_lower(env, base, rows) -> np.ndarray:
@@ -316,7 +381,7 @@ def _quick_lower(env, base, rows) -> np.ndarray:
     q = base["low"][rows] * base["scale"][rows]
     kq = (base["a"][rows] - 2.0 * base["b"][rows]) * q
     with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(kq < 1.0, peak / (1.0 - kq), np.inf)
+        return np.where(kq < 1.0, peak / (1.0 - kq) + base["no_load_low"][rows], np.inf)
 
 
 def _subset(base: dict, c: dict, rows):
@@ -331,10 +396,15 @@ def _subset(base: dict, c: dict, rows):
 def _exact_rise(env, c, base, rows, start):
     """The exact peak rise and per-segment mean rises (S, len(rows)) of the candidates at ``rows``:
     :func:`catalog.physics.hot_network_rise` with R and Kt following the winding."""
+    f = (c["friction_torque"] * c["ratio"])[rows]          # the no-load loss T_f·n·|ω|, ramping with the speed
     sol = hot_network_rise(env.duration, base["t_sq"][:, rows] * base["scale"][rows], base["a"][rows],
                            base["b"][rows], c["thermal_resistance_winding_housing"][rows],
                            c["thermal_resistance_housing_ambient"][rows], c["winding_heat_capacity"][rows],
-                           c["housing_heat_capacity"][rows], periodic=bool(env.repeat), start_rise=start)
+                           c["housing_heat_capacity"][rows], periodic=bool(env.repeat),
+                           no_load_loss_start=np.multiply.outer(np.abs(env.speed_start), f),
+                           no_load_loss_end=np.multiply.outer(np.abs(env.speed_end), f),
+                           no_load_at_winding=np.asarray(c["no_load_at_winding"], dtype=bool)[rows],
+                           start_rise=start)
     return sol.peak, sol.segment_mean
 
 
@@ -368,6 +438,8 @@ def _at_temperature(env, c, seg, base, rise, seg_rise=None, detail=False, energy
         np.multiply(coef, r_hot / kt_hot, out=terms[:4])
         terms[4] = emf
         v = np.matmul(seg["voltage_basis"], terms, out=_buffer("v", (n_seg, n)))
+        if base["brush_sign"] is not None:
+            v += base["brush_sign"]
         np.abs(v, out=v)
         v += np.multiply.outer(seg["half_span"], emf, out=_buffer("spread", (n_seg, n)))
         worse = v >= cold if detail else None
@@ -389,8 +461,9 @@ def _at_temperature(env, c, seg, base, rise, seg_rise=None, detail=False, energy
         rows = np.arange(n)
         v_seg = _argmax_rows(need, need_w)
         t_w = t_em[v_seg, rows]
-        corners = [(r / kt * t_w, ke * ratio) for r, kt, ke in ((base["r_amb"], base["kt_amb"], base["ke_amb"]),
-                                                                 (r_hot, kt_hot, ke_hot))]
+        brush_w = 0.0 if base["brush_sign"] is None else base["brush_sign"][v_seg, rows]
+        corners = [(r / kt * t_w + brush_w, ke * ratio)
+                   for r, kt, ke in ((base["r_amb"], base["kt_amb"], base["ke_amb"]), (r_hot, kt_hot, ke_hot))]
         w0, w1 = seg["w0"][v_seg], seg["w1"][v_seg]
         ends = [[np.abs(drop + e * w) for w in (w0, w1)] for drop, e in corners]
         out.update({"voltage_seg": v_seg, "voltage_hot": np.fmax(*ends[1]) >= np.fmax(*ends[0]),
@@ -411,8 +484,9 @@ def _at_temperature(env, c, seg, base, rise, seg_rise=None, detail=False, energy
         drop = i_seg * r_s
         emf_s = ke_s * ratio[:, None]
         vh0, vh1 = drop + emf_s * seg["w0"], drop + emf_s * seg["w1"]
-        e = energy_per_cycle(vh0 * i_seg + env.drive_voltage_drop * i_abs, env.duration,
-                             vh1 * i_seg + env.drive_voltage_drop * i_abs, regenerative=env.regenerative)
+        drops = env.drive_voltage_drop + c["brush_voltage_drop"][:, None]     # drive and brushes
+        e = energy_per_cycle(vh0 * i_seg + drops * i_abs, env.duration,
+                             vh1 * i_seg + drops * i_abs, regenerative=env.regenerative)
     out["energy_per_cycle"] = e
     if detail:   # copies: the scratch arrays are used again by the next chunk
         t_m = t_em - np.multiply.outer(seg["friction_sign"], c["friction_torque"])
@@ -539,7 +613,8 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         a, b = base["a"][rows], base["b"][rows]
         mid = np.where(np.isfinite(upper[rows]), 0.5 * (lower + upper[rows]), lower)
         mid = np.where(np.isfinite(mid), mid, 0.0)
-        start = base["path"][:, rows] * base["scale"][rows] * ((1 + a * mid) / (1 + b * mid) ** 2)
+        start = (base["path"][:, rows] * base["scale"][rows] * ((1 + a * mid) / (1 + b * mid) ** 2)
+                 + base["no_load_path"][:, rows])
         peak, mean = _exact_rise(env, c, base, rows, start)
         # the exact value lies between the brackets (a rounding outside them would break the verdicts
         # decided by the brackets)

@@ -270,6 +270,17 @@ REGISTRY: list[Check] = [
               "segment " + x.names(x.r["peak_current_seg"]) + ": needs " + x.fmt(x.r["peak_current"]) + " A"
               + f", drive gives {x.env.drive_peak_current:.3g} A peak"
               + x.note(m))),
+    Check("motor_peak_current", "a segment needs more current than the motor's own peak limit",
+          corners=(HEAT,),
+          margin=Margin("motor_peak_current_margin", required="current", label="Imot %"),
+          needs=("max_peak_current", "current_basis_factor"),
+          # a motor that states no limit is not checked (NaN margin); line-to-line records state their
+          # limit in phase current: the DC-equivalent current × current_basis_factor
+          compute=lambda x: _ratio_margin(x.c["max_peak_current"], x.r["peak_current"] * x.c["current_basis_factor"]),
+          reason=lambda x, m: (
+              "segment " + x.names(x.r["peak_current_seg"]) + ": needs "
+              + x.fmt(x.r["peak_current"] * x.c["current_basis_factor"]) + " A, the motor's peak limit is "
+              + x.fmt(x.c["max_peak_current"]) + " A" + x.note(m))),
     Check("rms_current", "RMS current above the drive's continuous limit",
           corners=(HEAT,),
           margin=Margin("rms_current_margin", required="current", label="Irms %"),

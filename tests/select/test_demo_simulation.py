@@ -6,8 +6,9 @@ back-driven, Coulomb friction opposing motion); the current I = T/Kt(Tw) and
 the terminal voltage V = R(Tw)·I + Ke(Tw)·ω follow from the armature equation
 with L·dI/dt neglected (piecewise-constant current); the winding and housing
 temperatures are integrated with scipy.integrate.solve_ivp on the two-node
-network (Cw·dTw/dt = I²R(Tw) − (Tw − Th)/Rth1, Ch·dTh/dt = (Tw − Th)/Rth1 −
-(Th − Ta)/(f·Rth2), Cw = τw/Rth1, Ch = τm/Rth2 of the datasheet, f the cooling factor), repeated cycle after cycle from
+network (Cw·dTw/dt = I²R(Tw) [+ P0] − (Tw − Th)/Rth1, Ch·dTh/dt = (Tw − Th)/Rth1 [+ P0] −
+(Th − Ta)/(f·Rth2), Cw = τw/Rth1, Ch = τm/Rth2 of the datasheet, f the cooling factor, P0 = T_f·|ω|
+the friction and iron loss at the node where it arises), repeated cycle after cycle from
 ambient until the cycle-start temperature settles.
 
 Sources: textbook chapter on DC machines (armature and torque equations);
@@ -55,26 +56,35 @@ def simulate(env, c):
         a = (w1 - w0) / d if env.mode == "cycle" else 0.0
         segs.append((d, motor_torque(env, c, env.torque[k], (w0 + w1) / 2, a), w0, w1, env.continuous[k]))
 
-    def rhs(_, y, t_em):
+    # friction and iron losses T_f·|ω_motor| heat the rotor's winding node of a brushed motor, the stator
+    # (housing) of a brushless one (textbook chapters on DC and brushless PM machines: where the core and
+    # friction losses arise); ω ramps linearly within a segment
+    at_winding = str(c["commutation"]).lower() != "brushless"
+
+    def rhs(t, y, t_em, w0=0.0, w1=0.0, d=1.0):
         tw, th = y
         i = t_em / kt_at(c, tw, "torque_constant")
-        return [(i * i * resistance(c, tw) - (tw - th) / c["thermal_resistance_winding_housing"]) / cw,
-                ((tw - th) / c["thermal_resistance_winding_housing"] - (th - ta) / c["thermal_resistance_housing_ambient"]) / ch]
+        no_load = c["friction_torque"] * c["ratio"] * abs(w0 + (w1 - w0) * t / d)
+        copper = i * i * resistance(c, tw) + (no_load if at_winding else 0.0)
+        return [(copper - (tw - th) / c["thermal_resistance_winding_housing"]) / cw,
+                ((tw - th) / c["thermal_resistance_winding_housing"] - (th - ta) / c["thermal_resistance_housing_ambient"]
+                 + (0.0 if at_winding else no_load)) / ch]
 
     y = np.array([ta, ta])
     if env.mode == "points":   # continuous points held until steady, the hottest counts
         peak = ta
-        for d, t_em, *_rest, cont in segs:
+        for d, t_em, w0, w1, cont in segs:
             if cont:
-                sol = solve_ivp(rhs, (0, 20 * c["thermal_time_constant_motor"]), [ta, ta], args=(t_em,), rtol=1e-9, atol=1e-9)
+                sol = solve_ivp(rhs, (0, 20 * c["thermal_time_constant_motor"]), [ta, ta], args=(t_em, w0, w1),
+                                rtol=1e-9, atol=1e-9)
                 peak = max(peak, sol.y[0, -1])
         tw_peak = tw_low = peak
     else:
         for _cycle in range(2000):
             start = y.copy()
             tw_peak, tw_low = -np.inf, np.inf
-            for d, t_em, *_ in segs:
-                sol = solve_ivp(rhs, (0, d), y, args=(t_em,), rtol=1e-9, atol=1e-9, max_step=d / 4)
+            for d, t_em, w0, w1, _ in segs:
+                sol = solve_ivp(rhs, (0, d), y, args=(t_em, w0, w1, d), rtol=1e-9, atol=1e-9, max_step=d / 4)
                 tw_peak = max(tw_peak, sol.y[0].max())
                 tw_low = min(tw_low, sol.y[0].min())
                 y = sol.y[:, -1]

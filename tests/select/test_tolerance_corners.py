@@ -79,7 +79,8 @@ def test_voltage_at_ke_and_r_high(hand_catalog, envelope_file):
     assert "needs 22.5 V" in r["reasons"]
     text = sel.explain("hand-hotv")
     assert "tolerance corner Kt = Ke +10 %, R +10 %: voltage" in text
-    assert "tolerance corner Kt = Ke −10 %, R +10 %: peak_current, rms_current, temperature" in text
+    assert ("tolerance corner Kt = Ke −10 %, R +10 %: peak_current, motor_peak_current, rms_current, temperature"
+            in text)
 
 
 def test_voltage_of_a_generating_segment_at_r_low(hand_catalog, envelope_file):
