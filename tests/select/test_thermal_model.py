@@ -164,3 +164,21 @@ def test_verdicts_from_the_brackets_are_the_exact_verdicts(demo_catalog, name):
     assert ((table["failed"] == "") == table["passed"]).all()
     exact_counts = pd.Series([k for f in table["failed"] for k in f.split(", ") if k]).value_counts()
     assert exact_counts.sort_index().to_dict() == sel.reason_counts().sort_index().to_dict()
+
+
+def test_response_matrices_built_a_few_motors_at_a_time_give_the_same_numbers(demo_catalog, monkeypatch):
+    # A cycle of hundreds of segments builds the network's response matrices a group of motors (or rows)
+    # at a time, within evaluate.RESPONSE_BYTES: the same numbers as all at once.  Forced here with a
+    # limit of a single matrix, on a demo envelope (a regular motor × ratios block and catalogue gears).
+    from pathlib import Path
+
+    from catalog.select import evaluate
+
+    query = Path(__file__).resolve().parents[2] / "queries" / "lift_axis.toml"
+    whole = demo_catalog.select(query).table
+    monkeypatch.setattr(evaluate, "RESPONSE_BYTES", 1)
+    pieces = demo_catalog.select(query).table
+    assert (whole["candidate"] == pieces["candidate"]).all()
+    np.testing.assert_allclose(pieces["winding_temperature"].to_numpy(float),
+                               whole["winding_temperature"].to_numpy(float), rtol=1e-12, equal_nan=True)
+    assert (whole["passed"] == pieces["passed"]).all()
