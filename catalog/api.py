@@ -35,7 +35,11 @@ class RecordView(NamedTuple):
     part_number: str
     values: object   #: DataFrame, one row per schema field (see :meth:`Catalog.show`)
     flags: list      #: the record's consistency flags (:class:`catalog.derive.Flag`)
-    basis_note: str = ""   #: how selection reads a brushless motor's constants (empty for DC records)
+
+    @property
+    def basis_note(self) -> str:
+        """How the selection reads a brushless motor's constants (empty for other records)."""
+        return _basis_note(self.record_type, self.values)
 
 
 def _input_problem(key: str, message: str) -> InputError:
@@ -186,8 +190,7 @@ class Catalog(StockMethods):
             rtype, manufacturer, part_number = require_record(con, record_id)
             stored = _stored_values(con, record_id)
             flags = _flags(con, DEFAULT_TOLERANCE, record_id)
-        shown = _shown_values(stored, rtype, units)
-        return RecordView(rtype, manufacturer, part_number, shown, flags, _basis_note(rtype, shown))
+        return RecordView(rtype, manufacturer, part_number, _shown_values(stored, rtype, units), flags)
 
     def check(self, tolerance: float | None = None, record_id: str | None = None) -> list:
         """Consistency flags: over-determined relations whose relative residual exceeds ``tolerance``.
