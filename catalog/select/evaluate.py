@@ -164,6 +164,24 @@ def _motor_runs(motor_ix):
     return starts, np.diff(np.r_[starts, len(motor_ix)])
 
 
+def _substeps(n_segments: int) -> int:
+    """Sub-steps per segment of the no-load loss's bounds: 8, fewer for cycles of many segments (the
+    response matrices grow with the square of the sub-steps), at least 1."""
+    return int(max(1, min(8, 160 // max(1, n_segments))))
+
+
+def _sub_speeds(env, k: int):
+    """(fastest, slowest) speed magnitude of each of the ``k`` equal sub-steps of every segment, (S·k,)
+    each [rad/s]: the speed is linear in time, so its magnitude over a sub-step lies between those at
+    the sub-step's ends, or falls to zero where the speed changes sign inside it."""
+    frac = np.arange(k + 1) / k
+    w = env.speed_start[:, None] + (env.speed_end - env.speed_start)[:, None] * frac        # (S, k + 1)
+    w0, w1 = w[:, :-1].reshape(-1), w[:, 1:].reshape(-1)
+    fast = np.fmax(np.abs(w0), np.abs(w1))
+    slow = np.where(np.sign(w0) * np.sign(w1) < 0, 0.0, np.fmin(np.abs(w0), np.abs(w1)))
+    return fast, slow
+
+
 def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False) -> dict:
     """The network with R and Kt at ambient, per candidate ((N,) arrays, NaN where unusable).
 
@@ -173,14 +191,19 @@ def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False) -> dict
     product with each motor's response matrix.  The no-load loss T_f·n·|ω| (friction and iron,
     independent of the winding temperature): ``no_load_up`` bounds its winding rise from above at
     every instant (entering the winding, which heats the winding at least as much as the housing
-    does: e11 ≥ e21 of the network; at each segment's fastest speed), ``no_load_low`` from below at
-    every segment end (at its own node, each segment's slowest speed).  With ``trajectory`` also
+    does: e11 ≥ e21 of the network; at each sub-step's fastest speed), ``no_load_low`` from below at
+    every segment end (at its own node, each sub-step's slowest speed) and ``no_load_at_peak`` from
+    below at the segment end where the copper rise peaks.  The loss ramps with the speed within a
+    segment; each segment is cut into :func:`_substeps` equal sub-steps for these bounds (the speed
+    is linear in time, so its magnitude over a sub-step lies between the sub-step's ends, or reaches
+    zero where it changes sign): the bounds close on the ramp as the sub-steps shrink, at the cost
+    of one product per motor (the speed profile is the same for all its gear ratios).  With ``trajectory`` also
     ``path`` (copper, per (N·m)²) and ``no_load_path`` (its own node, each segment's mean speed), the
     rises at the cycle start and every segment end, (S + 1, N).  Operating points: the steady
     states of the continuous points, ``points`` (P, N) copper and ``no_load_points`` (P, N).
     """
     n = t_sq.shape[1]
-    out = {k: np.full(n, np.nan) for k in ("peak", "low", "no_load_up", "no_load_low")}
+    out = {k: np.full(n, np.nan) for k in ("peak", "low", "no_load_up", "no_load_low", "no_load_at_peak")}
     rth1, rth2 = c["thermal_resistance_winding_housing"], c["thermal_resistance_housing_ambient"]
     f = c["friction_torque"] * c["ratio"]                    # no-load loss per rad/s of load speed [W·s/rad]
     at_w = np.asarray(c["no_load_at_winding"], dtype=bool)
@@ -212,12 +235,15 @@ def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False) -> dict
     group = max(1, RESPONSE_BYTES // per_motor)     # motors (or rows) whose response matrices fit at once
     offsets = np.r_[0, np.cumsum(runs)]             # each motor's first candidate column in ``sub``
     regular = bool(np.all(runs == runs[0]))
-    w_abs = np.abs(np.stack([env.speed_start, env.speed_end]))
-    fast, slow, mean = w_abs.max(axis=0), w_abs.min(axis=0), w_abs.mean(axis=0)
+    mean = np.abs(np.stack([env.speed_start, env.speed_end])).mean(axis=0)
     f_sub, at_w_sub = f[ix], at_w[ix]
     no_load = bool(np.any(f_sub > 0))
     ends = np.empty((n_seg + 1, n_cand))
-    nl_up, nl_low = np.zeros(n_cand), np.zeros(n_cand)
+    nl_up, nl_low, nl_at_peak = np.zeros(n_cand), np.zeros(n_cand), np.zeros(n_cand)
+    if no_load:
+        k_sub = _substeps(n_seg)
+        sub_durations = np.repeat(env.duration / k_sub, k_sub)
+        fast_sub, slow_sub = _sub_speeds(env, k_sub)
     nl_path = np.zeros((n_seg + 1, n_cand)) if trajectory else None
     # one pass over all the chunk's motors but for cycles of hundreds of segments, whose response
     # matrices are built a group of motors at a time
@@ -235,16 +261,24 @@ def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False) -> dict
                 ends[:, a0:a1] = np.einsum("nks,sn->kn", response[owner[a0 - lo:a1 - lo]], sub[:, a0:a1])
         if no_load:
             spread = (lambda per_motor: np.repeat(per_motor, r, axis=-1))   # motors -> candidates
-            housing = network_response(network_capacity_maps(env.duration, *(x[g0:g1] for x in net),
+            group_net = [x[g0:g1] for x in net]
+            housing = network_response(network_capacity_maps(env.duration, *group_net,
                                                               periodic=bool(env.repeat), node="housing"))
             fg, own = f_sub[lo:hi], at_w_sub[lo:hi]
-            nl_up[lo:hi] = fg * spread((response @ fast).max(axis=1))
-            low_w, low_h = (response @ slow).min(axis=1), (housing @ slow).min(axis=1)
-            nl_low[lo:hi] = fg * np.where(own, spread(low_w), spread(low_h))
+            # the no-load loss's bounds on sub-steps (per watt and rad/s of the motor: one product per motor)
+            sub_w = network_response(network_capacity_maps(sub_durations, *group_net, periodic=bool(env.repeat)))
+            sub_h = network_response(network_capacity_maps(sub_durations, *group_net, periodic=bool(env.repeat),
+                                                           node="housing"))
+            nl_up[lo:hi] = fg * spread((sub_w @ fast_sub).max(axis=1))
+            low_w, low_h = sub_w @ slow_sub, sub_h @ slow_sub                     # (motors, S·K + 1)
+            nl_low[lo:hi] = fg * np.where(own, spread(low_w.min(axis=1)), spread(low_h.min(axis=1)))
+            at_ends = np.where(own, spread(low_w[:, ::k_sub].T), spread(low_h[:, ::k_sub].T))   # (S + 1, cand)
+            top = ends[:, lo:hi].argmax(axis=0)                          # the end where the copper peaks
+            nl_at_peak[lo:hi] = fg * at_ends[top, np.arange(hi - lo)]
             if trajectory:
                 nl_path[:, lo:hi] = fg * np.where(own, spread((response @ mean).T), spread((housing @ mean).T))
     out["peak"][ix], out["low"][ix] = ends.max(axis=0), ends.min(axis=0)
-    out["no_load_up"][ix], out["no_load_low"][ix] = nl_up, nl_low
+    out["no_load_up"][ix], out["no_load_low"][ix], out["no_load_at_peak"][ix] = nl_up, nl_low, nl_at_peak
     if trajectory:
         out["path"][:, ix], out["no_load_path"][:, ix] = ends, nl_path
     return out
@@ -347,7 +381,8 @@ def _loads(env, c, seg, trajectory=False) -> dict:
             "sq_top": np.maximum.reduce(t_sq, axis=0), "sq_rms": sq_rms,
             "ke_amb": ke_amb, "a": a, "b": b, "scale": scale, "missing": missing, "usable": usable,
             "upper": upper, "cold": cold, "brush_sign": brush_sign, "peak": net["peak"], "low": net["low"],
-            "no_load_low": net["no_load_low"], "path": net.get("path"), "no_load_path": net.get("no_load_path")}
+            "no_load_low": net["no_load_low"], "no_load_at_peak": net.get("no_load_at_peak"), "path": net.get("path"),
+            "no_load_path": net.get("no_load_path")}
 
 
 def _lower(env, base, rows) -> np.ndarray:
@@ -362,7 +397,7 @@ def _lower(env, base, rows) -> np.ndarray:
     if env.mode == "points":
         return base["upper"][rows]
     peak = base["peak"][rows] * base["scale"][rows]
-    no_load = base["no_load_low"][rows]
+    no_load = base["no_load_at_peak"][rows]        # at the end where the copper rise peaks
     if not env.repeat:
         return peak + no_load
     a, b = base["a"][rows], base["b"][rows]
@@ -381,7 +416,7 @@ def _quick_lower(env, base, rows) -> np.ndarray:
     q = base["low"][rows] * base["scale"][rows]
     kq = (base["a"][rows] - 2.0 * base["b"][rows]) * q
     with np.errstate(divide="ignore", invalid="ignore"):
-        return np.where(kq < 1.0, peak / (1.0 - kq) + base["no_load_low"][rows], np.inf)
+        return np.where(kq < 1.0, peak / (1.0 - kq) + base["no_load_at_peak"][rows], np.inf)
 
 
 def _subset(base: dict, c: dict, rows):
