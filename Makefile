@@ -29,7 +29,8 @@ test: $(TSTAMP)
 bench: $(TSTAMP)
 	$(PY) -m benchmarks
 
-# Regenerate every generated document of docs/ (the list: catalog/docs.py:GENERATED).
+# Regenerate every generated document of docs/ (the list: catalog/docs.py:GENERATED) and the
+# README's example outputs (catalog/readme.py: a run of its commands on a fresh demo catalogue).
 docs: $(STAMP)
 	$(PY) -m catalog.docs
 
