@@ -30,7 +30,8 @@ bench: $(TSTAMP)
 	$(PY) -m pip install --quiet -e '.[test,bench]'
 	$(PY) -m benchmarks
 
-# Regenerate every generated document of docs/ (the list: catalog/docs.py:GENERATED).
+# Regenerate every generated document of docs/ (the list: catalog/docs.py:GENERATED) and the
+# README's example outputs (catalog/readme.py: a run of its commands on a fresh demo catalogue).
 docs: $(STAMP)
 	$(PY) -m catalog.docs
 

@@ -121,6 +121,9 @@ def main(argv=None) -> int:
     parser = argparse.ArgumentParser(prog="python -m catalog.demo", description=__doc__.splitlines()[0])
     parser.add_argument("--db", default="demo/motorshelf-demo.duckdb", help="catalogue file to build")
     parser.add_argument("--fresh", action="store_true", help="delete the file first")
+    parser.add_argument("--sample", type=Path, default=SAMPLE,
+                        help="folder of the demo datasheets, its manifest.yaml and stock file (default: sample_catalog/ "
+                             "of this checkout)")
     args = parser.parse_args(argv)
     db = Path(args.db)
     if args.fresh and db.exists():
@@ -128,8 +131,8 @@ def main(argv=None) -> int:
         wal = db.with_name(db.name + ".wal")
         if wal.exists():
             wal.unlink()
-    print(f"motorshelf demo: building {db} from {SAMPLE.name}/")
-    s = build(db)
+    print(f"motorshelf demo: building {db} from {args.sample.name}/")
+    s = build(db, args.sample)
     print(f"\nsummary: {s['suppliers']} suppliers, {s['motors']} motors, {s['gearheads']} gearheads; "
           f"{s['given_values']} values stored ({s['converted']} converted to SI), "
           f"{s['derived_values']} derived")

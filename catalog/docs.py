@@ -1,10 +1,13 @@
-"""The generated documents of ``docs/``: one table, one command to regenerate them all.
+"""The generated documents of ``docs/`` and the README's example outputs: one command regenerates them all.
 
 ``python -m catalog.docs`` (what ``make docs`` runs) writes every document of
-:data:`GENERATED` whose text differs from what its generator makes now;
+:data:`GENERATED` whose text differs from what its generator makes now, then
+rewrites the output blocks of ``README.md`` that differ from a fresh run of the
+commands above them on a freshly built demo catalogue (:mod:`catalog.readme`);
 ``python -m catalog.docs --check`` writes nothing and exits 1 naming the stale
 ones.  ``tests/test_docs.py`` fails when one is stale.  A new generated document
-is one :class:`GeneratedDoc` entry.
+is one :class:`GeneratedDoc` entry; a new README output block is one marker
+(see :mod:`catalog.readme`).
 """
 from __future__ import annotations
 
@@ -100,20 +103,35 @@ def main(argv=None) -> int:
     """``python -m catalog.docs [--check] [--project DIR]``."""
     import argparse
 
+    from . import readme
+
     parser = argparse.ArgumentParser(prog="python -m catalog.docs", description=__doc__.splitlines()[0])
     parser.add_argument("--check", action="store_true", help="write nothing; exit 1 when a document is stale")
     parser.add_argument("--project", type=Path, default=PROJECT, help="the project folder (default: this checkout)")
     args = parser.parse_args(argv)
-    if args.check:
-        stale = stale_docs(args.project)
-        for doc in stale:
-            print(f"stale: {doc.path} (run `make docs`)", file=sys.stderr)
-        return 1 if stale else 0
-    written = write_docs(args.project)
-    for path in written:
-        print(f"wrote {path}")
-    if not written:
-        print(f"all {len(GENERATED)} generated documents are current")
+    has_readme = (args.project / readme.README).is_file()
+    try:
+        if args.check:
+            stale = [doc.path for doc in stale_docs(args.project)]
+            stale += [f"{readme.README} (output block {i!r})" for i in
+                      (readme.stale_examples(args.project) if has_readme else [])]
+            for name in stale:
+                print(f"stale: {name} (run `make docs`)", file=sys.stderr)
+            return 1 if stale else 0
+        written = write_docs(args.project)
+        for path in written:
+            print(f"wrote {path}")
+        if not written:
+            print(f"all {len(GENERATED)} generated documents are current")
+        if has_readme:
+            blocks = readme.write_readme(args.project)
+            if blocks:
+                print(f"wrote {args.project / readme.README}: output block(s) {', '.join(blocks)}")
+            else:
+                print(f"{readme.README}: every example output is current")
+    except readme.ReadmeError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
     return 0
 
 

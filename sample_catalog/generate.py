@@ -510,6 +510,17 @@ def main():
                                     ("kettlebrook_gearheads.csv", KETT_G, grows[KETT], False)):
         cols, unit, body = table(style, recs, bare=bare)
         write_csv(HERE / path, [f"{f} [{unit[f]}]" if bare and unit[f] not in (None, "1") else f for _, f in cols], body)
+        if path == "vaskeline_motors.csv":     # the supplier's corrected line of the typo (README: `history`)
+            fields = [f for _, f in cols]
+            at = [r[fields.index("part_number")] for r in body].index(TYPO[1])
+            fixed = list(body[at])
+            fixed[fields.index(TYPO[2])] = sig(typo_si[TYPO[2]] * 1e3, 4)
+            assert unit[TYPO[2]] == "mNm/A" and fixed != body[at]
+            errs = check_motor(displayed_si([(f, fixed[fields.index(f)] if f == TYPO[2] else s, u)
+                                             for f, s, u in mrows[VASK][at]]))
+            assert max(errs.values()) <= 0.015, errs
+            write_csv(HERE / "vaskeline_fix.csv", [f"{f} [{unit[f]}]" if unit[f] not in (None, "1") else f
+                                                   for _, f in cols], [fixed])
     # shape 3: supplier headers + mapping profile (CSV motors; XLSX gear units behind a notes sheet and a title row)
     profiles = {}
     for name, style, recs, const, rtype, desc in (

@@ -40,7 +40,9 @@ def parse_params(items) -> dict:
 @click.option("--out", "out", required=True, type=click.Path(dir_okay=False), metavar="FILE",
               help=f"Output file: {extension_list()} (the format follows the extension).")
 @click.option("--where", default=None, metavar="CONDITION",
-              help="SQL condition on the motors/gearheads view (SI units), e.g. \"mass < $m AND mount = 'F22'\".")
+              help="SQL condition on the motors/gearheads view (SI units), e.g. "
+                   "'mass < $m AND mount = $mount' --param m=0.2 --param mount=F22 (in single quotes, "
+                   "so that the shell leaves $ and < alone).")
 @click.option("--param", "params", multiple=True, metavar="NAME=VALUE",
               help="A named value of --where ($NAME), e.g. --param m=0.2; repeat for several.")
 @OUT_UNITS_OPTION
