@@ -58,13 +58,14 @@ from __future__ import annotations
 __all__ = ["evaluate", "at_corners", "checked", "evaluate_all", "checked_in_chunks", "chunk_rows", "CHUNK",
            "CHUNK_BYTES", "EXACT_CHUNK", "WORKERS", "FALLBACK_TEMPERATURE"]
 
+import math
 import os
 import threading
 from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
-from ..physics import energy_per_cycle, hot_network_rise, network_capacity_maps, network_response
+from ..physics import energy_per_cycle, hot_network_rise, network_capacity_maps, network_response, network_rise_path
 from ..physics import hot_winding_rise as _hot_winding_rise
 from ..physics import resistance_at_temperature as _resistance_at_temperature
 from ..physics import torque_constant_at_temperature as _torque_constant_at_temperature
@@ -145,7 +146,7 @@ def _buffer(name: str, shape: tuple) -> np.ndarray:
     arrays never leave :func:`evaluate`.
     """
     pool = _LOCAL.__dict__.setdefault("buffers", {})
-    size = int(np.prod(shape))
+    size = math.prod(shape)
     buf = pool.get(name)
     if buf is None or buf.size < size:
         buf = pool[name] = np.empty(max(size, CHUNK * 32))
@@ -262,20 +263,21 @@ def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False) -> dict
         if no_load:
             spread = (lambda per_motor: np.repeat(per_motor, r, axis=-1))   # motors -> candidates
             group_net = [x[g0:g1] for x in net]
-            housing = network_response(network_capacity_maps(env.duration, *group_net,
-                                                              periodic=bool(env.repeat), node="housing"))
             fg, own = f_sub[lo:hi], at_w_sub[lo:hi]
-            # the no-load loss's bounds on sub-steps (per watt and rad/s of the motor: one product per motor)
-            sub_w = network_response(network_capacity_maps(sub_durations, *group_net, periodic=bool(env.repeat)))
-            sub_h = network_response(network_capacity_maps(sub_durations, *group_net, periodic=bool(env.repeat),
-                                                           node="housing"))
-            nl_up[lo:hi] = fg * spread((sub_w @ fast_sub).max(axis=1))
-            low_w, low_h = sub_w @ slow_sub, sub_h @ slow_sub                     # (motors, S·K + 1)
-            nl_low[lo:hi] = fg * np.where(own, spread(low_w.min(axis=1)), spread(low_h.min(axis=1)))
-            at_ends = np.where(own, spread(low_w[:, ::k_sub].T), spread(low_h[:, ::k_sub].T))   # (S + 1, cand)
+            # the no-load loss's bounds on sub-steps, per W·s/rad of the motor (the speed profile is the
+            # same for all its gear ratios): one sweep of the network per motor
+            sub_maps = [network_capacity_maps(sub_durations, *group_net, periodic=bool(env.repeat), node=node)
+                        for node in ("winding", "housing")]
+            nl_up[lo:hi] = fg * spread(network_rise_path(fast_sub, sub_maps[0]).max(axis=0))
+            low_w, low_h = (network_rise_path(slow_sub, m) for m in sub_maps)    # (S·K + 1, motors)
+            nl_low[lo:hi] = fg * np.where(own, spread(low_w.min(axis=0)), spread(low_h.min(axis=0)))
             top = ends[:, lo:hi].argmax(axis=0)                          # the end where the copper peaks
-            nl_at_peak[lo:hi] = fg * at_ends[top, np.arange(hi - lo)]
+            owner = np.repeat(np.arange(g1 - g0), r)
+            at_top = top * k_sub                                         # that end among the sub-step ends
+            nl_at_peak[lo:hi] = fg * np.where(own, low_w[at_top, owner], low_h[at_top, owner])
             if trajectory:
+                housing = network_response(network_capacity_maps(env.duration, *group_net,
+                                                                  periodic=bool(env.repeat), node="housing"))
                 nl_path[:, lo:hi] = fg * np.where(own, spread((response @ mean).T), spread((housing @ mean).T))
     out["peak"][ix], out["low"][ix] = ends.max(axis=0), ends.min(axis=0)
     out["no_load_up"][ix], out["no_load_low"][ix], out["no_load_at_peak"][ix] = nl_up, nl_low, nl_at_peak

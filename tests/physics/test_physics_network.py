@@ -181,3 +181,22 @@ def test_a_loss_at_the_housing_node_matches_a_simulation(periodic):
     np.testing.assert_allclose(response @ loss, ends, atol=1e-6)
     with pytest.raises(ValueError, match="node"):
         ph.network_capacity_maps(d, r1, r2, cw, ch, periodic, node="rotor")
+
+
+@pytest.mark.parametrize("periodic", [True, False])
+def test_the_rise_path_is_the_response_matrix_times_the_losses(periodic):
+    # Source: network_response (checked above against the closed-form network and solve_ivp): the
+    # path sweeps the same recurrence on the state, so both agree to rounding, for per-row losses
+    # (S, batch) and for one profile every row shares (S,), at the winding and the housing node.
+    d, (r1, r2, tw, tm), loss = random_case(5, n=40)
+    cw, ch = tw / r1, tm / r2
+    for node in ("winding", "housing"):
+        maps = ph.network_capacity_maps(d, r1, r2, cw, ch, periodic=periodic, node=node)
+        response = ph.network_response(maps)                      # (n, S + 1, S)
+        path = ph.network_rise_path(loss.T, maps)                 # (S + 1, n)
+        np.testing.assert_allclose(path, np.einsum("nks,ns->kn", response, loss), rtol=1e-10, atol=1e-10)
+        shared = ph.network_rise_path(loss[0], maps)              # one profile for every row
+        np.testing.assert_allclose(shared, (response @ loss[0]).T, rtol=1e-10, atol=1e-10)
+    winding = ph.network_capacity_maps(d, r1, r2, cw, ch, periodic=periodic)
+    np.testing.assert_allclose(ph.network_rise_path(loss.T, winding).max(axis=0), ph.network_peak_rise(loss, winding),
+                               rtol=1e-12, atol=1e-12)
