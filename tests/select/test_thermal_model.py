@@ -182,3 +182,84 @@ def test_response_matrices_built_a_few_motors_at_a_time_give_the_same_numbers(de
     np.testing.assert_allclose(pieces["winding_temperature"].to_numpy(float),
                                whole["winding_temperature"].to_numpy(float), rtol=1e-12, equal_nan=True)
     assert (whole["passed"] == pieces["passed"]).all()
+
+
+REVERSING = """
+name = "reversing"
+[supply]
+nominal_voltage = "24 V"
+drive_peak_current = "40 A"
+drive_continuous_current = "20 A"
+[environment]
+ambient_temperature = "{ambient} degC"
+[gearing]
+direct = true
+catalogue = true
+ratio_range = {{ min = 3, max = 60, steps = 12 }}
+[cycle]
+repeat = {repeat}
+[[cycle.segments]]
+name = "ramp up"
+duration = "{d1} s"
+torque = "0.3 N*m"
+speed_start = "0 rpm"
+speed_end = "{w} rpm"
+[[cycle.segments]]
+name = "reverse"
+duration = "{d2} s"
+torque = "0.1 N*m"
+speed_start = "{w} rpm"
+speed_end = "-{w} rpm"
+[[cycle.segments]]
+name = "back"
+duration = "{d1} s"
+torque = "-0.2 N*m"
+speed_start = "-{w} rpm"
+speed_end = "0 rpm"
+[[cycle.segments]]
+name = "dwell"
+duration = "{d3} s"
+torque = "0 N*m"
+speed_start = "0 rpm"
+"""
+
+
+@pytest.mark.parametrize("case", [
+    dict(ambient=40, repeat="true", d1=0.8, d2=1.5, d3=2.0, w=150),
+    dict(ambient=25, repeat="true", d1=5.0, d2=20.0, d3=10.0, w=300),
+    dict(ambient=60, repeat="false", d1=30.0, d2=200.0, d3=30.0, w=80),
+])
+def test_every_verdict_the_brackets_decide_is_the_exact_verdict(demo_catalog, envelope_file, case):
+    # The verdict pass decides a candidate from brackets of its peak winding temperature (the no-load
+    # loss bounded on sub-steps of speed ramps that reverse) and solves exactly only where they leave a
+    # verdict open.  Reference: the exact solution of every candidate (evaluate.checked(exact="all"),
+    # itself within 0.1 K of solve_ivp above): every verdict decided by the brackets must be its verdict.
+    from catalog.select import load_envelope
+    from catalog.select.candidates import build_candidates
+    from catalog.select.checks import check_keys
+    from catalog.select.evaluate import EVAL_KEYS, checked
+    from catalog.select.registry import CHECKS
+
+    env = load_envelope(envelope_file(REVERSING.format(**case)))
+    cand = build_candidates(demo_catalog.motors(), demo_catalog.gearheads(), env)
+    keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
+    c = cand.take(np.arange(cand.size), keys)
+    c = {k: c[k] for k in keys}
+    # as the datasheets say, and with friction and iron losses 20 times theirs (the no-load loss then
+    # heats the winding as much as the copper does, and its bounds decide verdicts)
+    for friction in (c["friction_torque"], 20.0 * c["friction_torque"]):
+        c["friction_torque"] = friction
+        band = checked(env, c, exact="band", where=False, energy=False)
+        exact = checked(env, c, exact="all", where=False, energy=False)
+        decided = ~band["open"]
+        assert decided.sum() > 0.5 * cand.size           # the brackets decide most candidates
+        for key in CHECKS:
+            np.testing.assert_array_equal(band["fails_" + key][decided], exact["fails_" + key][decided],
+                                          err_msg=key)
+        # the upper bracket (every loss at the peak's s, the no-load loss at each sub-step's fastest speed)
+        # lies above the exact peak of every candidate, and close to it
+        screen = checked(env, c, exact="screen", where=False, energy=False)["winding_temperature"]
+        both = np.isfinite(screen) & np.isfinite(exact["winding_temperature"])
+        assert np.all(exact["winding_temperature"][both] <= screen[both] + 1e-6)
+        # something depends on the temperature in each case: candidates pass and fail the temperature check
+        assert exact["fails_temperature"].any() and (~exact["fails_temperature"]).any()
