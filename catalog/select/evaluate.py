@@ -183,7 +183,31 @@ def _sub_speeds(env, k: int):
     return fast, slow
 
 
-def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False) -> dict:
+def _no_load_bounds(env, net) -> dict:
+    """The no-load loss's winding rise per W·s/rad of loss per load speed, per motor (its speed profile
+    is the same for all the motor's gear ratios): ``up`` (M,) the highest over the cycle (entering the
+    winding, at each sub-step's fastest speed), ``low_w``/``low_h`` (S + 1, M) at the cycle start and
+    every segment end, entering the winding or the housing (each sub-step's slowest speed), and
+    their minima ``min_w``/``min_h`` (M,).  ``net`` holds the motors' :data:`THERMAL_NETWORK_FIELDS`."""
+    k_sub = _substeps(len(env.duration))
+    sub_durations = np.repeat(env.duration / k_sub, k_sub)
+    fast_sub, slow_sub = _sub_speeds(env, k_sub)
+    maps = [network_capacity_maps(sub_durations, *net, periodic=bool(env.repeat), node=node)
+            for node in ("winding", "housing")]
+    low_w, low_h = (network_rise_path(slow_sub, m) for m in maps)             # (S·K + 1, M)
+    return {"up": network_rise_path(fast_sub, maps[0]).max(axis=0), "low_w": low_w[::k_sub],
+            "low_h": low_h[::k_sub], "min_w": low_w.min(axis=0), "min_h": low_h.min(axis=0)}
+
+
+def _first_top(block, top, axis):
+    """Index along ``axis`` of the first element of ``block`` equal to ``top`` (its maximum there)."""
+    idx = np.zeros(top.shape, dtype=np.intp)
+    for k in range(block.shape[axis] - 1, -1, -1):       # ascending order wins: the loop runs backwards
+        idx[np.take(block, k, axis=axis) == top] = k
+    return idx
+
+
+def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False, motor_no_load=None) -> dict:
     """The network with R and Kt at ambient, per candidate ((N,) arrays, NaN where unusable).
 
     ``peak``/``low``: the highest and the lowest winding rise over the cycle per (N·m)² of T_em²
@@ -239,47 +263,47 @@ def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False) -> dict
     mean = np.abs(np.stack([env.speed_start, env.speed_end])).mean(axis=0)
     f_sub, at_w_sub = f[ix], at_w[ix]
     no_load = bool(np.any(f_sub > 0))
-    ends = np.empty((n_seg + 1, n_cand))
+    ends = np.empty((n_seg + 1, n_cand)) if trajectory or not regular else None
     nl_up, nl_low, nl_at_peak = np.zeros(n_cand), np.zeros(n_cand), np.zeros(n_cand)
-    if no_load:
-        k_sub = _substeps(n_seg)
-        sub_durations = np.repeat(env.duration / k_sub, k_sub)
-        fast_sub, slow_sub = _sub_speeds(env, k_sub)
+    peak, low, top = np.empty(n_cand), np.empty(n_cand), np.empty(n_cand, dtype=np.intp)
+    if no_load:    # per motor of the chunk: from the catalogue's once, else built here
+        bounds = (_no_load_bounds(env, net) if motor_no_load is None else
+                  {k: v[..., mix[starts]] for k, v in motor_no_load.items()})
     nl_path = np.zeros((n_seg + 1, n_cand)) if trajectory else None
     # one pass over all the chunk's motors but for cycles of hundreds of segments, whose response
     # matrices are built a group of motors at a time
     for g0 in range(0, len(starts), group):
         g1 = min(len(starts), g0 + group)
         lo, hi, r = offsets[g0], offsets[g1], runs[g0:g1]
-        response = network_response(NetworkMaps(*(a[g0:g1] if a.ndim > 1 else a for a in maps)))  # (m, S + 1, S)
+        response = (network_response(NetworkMaps(*(a[g0:g1] if a.ndim > 1 else a for a in maps)))  # (m, S + 1, S)
+                    if regular or (trajectory and no_load) else None)
         if regular:       # a regular block (motor × ratios): one matrix product per motor
             block = np.matmul(response, np.moveaxis(sub[:, lo:hi].reshape(n_seg, g1 - g0, int(runs[0])), 0, 1))
-            ends[:, lo:hi] = np.moveaxis(block, 1, 0).reshape(n_seg + 1, -1)
-        else:             # each row its own motor's response, gathered for as many rows as fit
-            owner = np.repeat(np.arange(g1 - g0), r)
-            for a0 in range(lo, hi, group):
-                a1 = min(hi, a0 + group)
-                ends[:, a0:a1] = np.einsum("nks,sn->kn", response[owner[a0 - lo:a1 - lo]], sub[:, a0:a1])
+            block_top = block.max(axis=1)                                           # (motors, ratios)
+            peak[lo:hi], low[lo:hi] = block_top.reshape(-1), block.min(axis=1).reshape(-1)
+            top[lo:hi] = _first_top(block, block_top, axis=1).reshape(-1)
+            if trajectory:
+                ends[:, lo:hi] = np.moveaxis(block, 1, 0).reshape(n_seg + 1, -1)
+        else:             # each row swept through its own motor's network (O(S) per row)
+            owner = np.arange(g0, g1).repeat(r)
+            ends[:, lo:hi] = network_rise_path(sub[:, lo:hi], NetworkMaps(*(a[owner] if a.ndim > 1 else a
+                                                                              for a in maps)))
+            peak[lo:hi], low[lo:hi] = ends[:, lo:hi].max(axis=0), ends[:, lo:hi].min(axis=0)
+            top[lo:hi] = _first_top(ends[:, lo:hi], peak[lo:hi], axis=0)
         if no_load:
             spread = (lambda per_motor: np.repeat(per_motor, r, axis=-1))   # motors -> candidates
             group_net = [x[g0:g1] for x in net]
             fg, own = f_sub[lo:hi], at_w_sub[lo:hi]
-            # the no-load loss's bounds on sub-steps, per W·s/rad of the motor (the speed profile is the
-            # same for all its gear ratios): one sweep of the network per motor
-            sub_maps = [network_capacity_maps(sub_durations, *group_net, periodic=bool(env.repeat), node=node)
-                        for node in ("winding", "housing")]
-            nl_up[lo:hi] = fg * spread(network_rise_path(fast_sub, sub_maps[0]).max(axis=0))
-            low_w, low_h = (network_rise_path(slow_sub, m) for m in sub_maps)    # (S·K + 1, motors)
-            nl_low[lo:hi] = fg * np.where(own, spread(low_w.min(axis=0)), spread(low_h.min(axis=0)))
-            top = ends[:, lo:hi].argmax(axis=0)                          # the end where the copper peaks
-            owner = np.repeat(np.arange(g1 - g0), r)
-            at_top = top * k_sub                                         # that end among the sub-step ends
-            nl_at_peak[lo:hi] = fg * np.where(own, low_w[at_top, owner], low_h[at_top, owner])
+            owner = np.arange(g0, g1).repeat(r)
+            nl_up[lo:hi] = fg * bounds["up"][owner]
+            nl_low[lo:hi] = fg * np.where(own, bounds["min_w"][owner], bounds["min_h"][owner])
+            at = top[lo:hi]                                              # the end where the copper peaks
+            nl_at_peak[lo:hi] = fg * np.where(own, bounds["low_w"][at, owner], bounds["low_h"][at, owner])
             if trajectory:
                 housing = network_response(network_capacity_maps(env.duration, *group_net,
                                                                   periodic=bool(env.repeat), node="housing"))
                 nl_path[:, lo:hi] = fg * np.where(own, spread((response @ mean).T), spread((housing @ mean).T))
-    out["peak"][ix], out["low"][ix] = ends.max(axis=0), ends.min(axis=0)
+    out["peak"][ix], out["low"][ix] = peak, low
     out["no_load_up"][ix], out["no_load_low"][ix], out["no_load_at_peak"][ix] = nl_up, nl_low, nl_at_peak
     if trajectory:
         out["path"][:, ix], out["no_load_path"][:, ix] = ends, nl_path
@@ -347,7 +371,8 @@ def _loads(env, c, seg, trajectory=False) -> dict:
         missing |= np.isnan(c[name])
     usable = ~missing & (r_amb > 0) & (kt_amb > 0)
     scale = r_amb / (kt_amb * kt_amb)                  # copper loss per (N·m)² at ambient [W/(N·m)²]
-    net = _cold_range(env, c, t_sq, usable, seg.get("motor_maps"), trajectory=trajectory)
+    net = _cold_range(env, c, t_sq, usable, seg.get("motor_maps"), trajectory=trajectory,
+                      motor_no_load=seg.get("motor_no_load"))
     a = (resistance_at_temperature(R, ta + 1.0, t_ref) - r_amb) / r_amb
     b = (torque_constant_at_temperature(Kt, ta + 1.0, beta, t_ref) - kt_amb) / kt_amb
     # the upper bracket of the peak rise: every copper loss held at the s(θ) = (1 + a·θ)/(1 + b·θ)² of the
@@ -803,6 +828,7 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
         with np.errstate(all="ignore"):
             seg["motor_maps"] = network_capacity_maps(env.duration, *(mt[k] for k in THERMAL_NETWORK_FIELDS),
                                                       periodic=bool(env.repeat))
+            seg["motor_no_load"] = _no_load_bounds(env, [mt[k] for k in THERMAL_NETWORK_FIELDS])
     starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total, chunk_rows(n_seg))
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
