@@ -100,13 +100,25 @@ def provenance_table(values, record_types: dict, preset: str = "metric", name: s
     shown, unit, si_unit = [None] * n, [None] * n, [None] * n
     si_vals = [None] * n
     fields = {t: fields_for(t) for t in ("motor", "gearhead")}
-    keyed = values.assign(_rt=values["record_id"].map(record_types).fillna("motor"))
-    cur = values[values["field"] == "currency"]
-    currency_of = dict(zip(cur["record_id"], cur["value_text"]))
-    for (rt, fname), grp in keyed.groupby(["_rt", "field"], sort=False):
+    record_ids = values["record_id"].to_numpy(dtype=object)
+    field_names = values["field"].to_numpy(dtype=object)
+    rtypes = np.array([record_types.get(r) or "motor" for r in record_ids], dtype=object)
+    all_nums = values["value_num"].to_numpy(dtype=float, na_value=np.nan)
+    is_currency = field_names == "currency"
+    currency_of = dict(zip(record_ids[is_currency], values["value_text"].to_numpy(dtype=object)[is_currency]))
+    # one conversion per (record type, field): the rows of each group, found without pandas' groupby
+    keys = np.array([f"{t}\x00{f}" for t, f in zip(rtypes, field_names)], dtype=object)
+    if n:
+        uniq, first, group_of = np.unique(keys.astype(str), return_index=True, return_inverse=True)
+        order = np.argsort(group_of, kind="stable")
+        cuts = np.searchsorted(group_of[order], np.arange(len(uniq) + 1))
+    else:
+        first, order, cuts = np.zeros(0, dtype=int), np.zeros(0, dtype=int), np.zeros(1, dtype=int)
+    for g, at in enumerate(first):
+        rt, fname = rtypes[at], field_names[at]
         f = fields[rt].get(fname)
-        nums = grp["value_num"].to_numpy(dtype=float, na_value=np.nan)
-        pos = grp.index.to_numpy()
+        pos = order[cuts[g]:cuts[g + 1]]
+        nums = all_nums[pos]
         if f is None or not f.is_numeric or np.all(np.isnan(nums)):
             continue
         if f.dimension is None:
@@ -117,14 +129,13 @@ def provenance_table(values, record_types: dict, preset: str = "metric", name: s
             disp = convert(nums)
             si_label = si_unit_label(f.dimension, fname)
             label = label or UNITLESS
-        ids = grp["record_id"].tolist()
         for k, p in enumerate(pos):
             i = int(p)
             shown[i] = clean_number(disp[k], f.kind == "integer")
             si_vals[i] = clean_number(nums[k])
             unit[i] = label
             if fname == "price":
-                unit[i] = currency_of.get(ids[k]) or NO_CURRENCY
+                unit[i] = currency_of.get(record_ids[i]) or NO_CURRENCY
             si_unit[i] = si_label or unit[i]
     src = [f"{a}:{int(b)}" if isinstance(a, str) and a and b == b and b is not None else (a or None)
            for a, b in zip(values["source_file"], values["source_row"])]

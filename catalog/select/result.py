@@ -367,7 +367,7 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     order, rank, pareto = _rank(table["passed"], env, fetch)
     lazy = None
     if n:
-        parts = _part_names(motors, gearheads)
+        parts = _part_names(motors, gearheads, cand)
         keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
 
         def lazy(at):
@@ -378,8 +378,8 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
             with np.errstate(all="ignore"):   # extreme values overflow to inf in the texts' numbers
                 failed, reasons, notes = reason_texts(env, c, r)
             out = {"rank": rank[at], "candidate": c["id"], "motor": c["motor"], "gear": c["gear"], "ratio": c["ratio"]}
-            for column, source in parts:
-                out[column] = pd.Series(c[source], dtype=object).map(parts[(column, source)]).to_numpy(dtype=object)
+            for (column, source), by_row in parts.items():   # per motor or gear-option row, then per candidate
+                out[column] = by_row[cand.motor_ix[at] if source == "motor" else cand.option_ix[at]]
             out["worst_segment"] = np.asarray(env.names, dtype=object)[r["worst_seg"]] if len(at) else []
             for k in margin_columns() + list(value_columns()) + METRIC_COLUMNS:
                 out[k] = r[k]
@@ -397,15 +397,18 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     return sel
 
 
-def _part_names(motors, gearheads) -> dict:
-    """(column, candidate key) -> {record id: text}: makers and part numbers to order by."""
+def _part_names(motors, gearheads, cand) -> dict:
+    """(column, candidate key) -> object array of makers or part numbers to order by, one per motor row
+    (key ``motor``) or gear-option row (key ``gear``) of ``cand``; NaN where the option is no gearhead."""
     out = {}
-    for frame, key, prefix in ((motors, "motor", ""), (gearheads, "gear", "gear_")):
+    for frame, key, prefix, ids in ((motors, "motor", "", cand.motors["id"]),
+                                    (gearheads, "gear", "gear_", cand.options["label"])):
         if frame is None or not len(frame) or "id" not in frame:
             frame = pd.DataFrame(columns=["id"])
-        ids = frame["id"].astype(str)
+        names = pd.Series(ids, dtype=object)
         for field in ("manufacturer", "part_number"):
-            out[(prefix + field, key)] = dict(zip(ids, frame[field])) if field in frame else {}
+            table = dict(zip(frame["id"].astype(str), frame[field])) if field in frame else {}
+            out[(prefix + field, key)] = names.map(table).to_numpy(dtype=object)
     return out
 
 

@@ -41,6 +41,8 @@ from ..store import Store
 #: A queue of writes keeps the file open for at most this many writes, or this long [s].
 LINGER_WRITES = 16
 LINGER_SECONDS = 1.0
+#: The provenance (stored values) of at most this many records is kept between requests.
+KEEP_RECORDS = 5000
 
 
 def _faults() -> tuple:
@@ -302,6 +304,47 @@ class ServedCatalog(Catalog):
             with self._kept_lock:
                 self._kept[key] = (sig, value)
         return value
+
+    def provenance(self, record_ids):
+        """:meth:`Catalog.provenance`, each record's rows kept while the file is unchanged (at most
+        :data:`KEEP_RECORDS` records): a selection's shortlist mostly names records read before."""
+        import numpy as np
+        import pandas as pd
+
+        from ..api import PROVENANCE_COLUMNS, Provenance
+
+        ids = sorted({str(i) for i in record_ids})
+        sig = self.store.signature()
+        with self._kept_lock:
+            kept = self._kept.get("provenance")
+            if kept is None or sig is None or kept[0] != sig:
+                kept = (sig, {})
+            known = kept[1]
+            missing = [i for i in ids if i not in known]
+        if missing:
+            read = super().provenance(missing)
+            values = read.values
+            starts = np.flatnonzero(np.r_[True, values["record_id"].to_numpy()[1:] != values["record_id"].to_numpy()[:-1]]) \
+                if len(values) else np.zeros(0, dtype=int)
+            bounds = dict(zip(values["record_id"].to_numpy()[starts], zip(starts, np.r_[starts[1:], len(values)]))) \
+                if len(values) else {}
+            fresh = {}
+            for rid in missing:   # the records asked for (a few dozen), not the catalogue's rows
+                lo, hi = bounds.get(rid, (0, 0))
+                fresh[rid] = (values.iloc[lo:hi], read.record_types.get(rid))
+            if sig is not None and self.store.signature() == sig:
+                with self._kept_lock:
+                    if len(known) + len(fresh) > KEEP_RECORDS:
+                        known = {}
+                    known.update(fresh)
+                    self._kept["provenance"] = (sig, known)
+            known = {**known, **fresh}
+        parts = [known[i] for i in ids if known[i][1] is not None]
+        if not parts:
+            return Provenance(pd.DataFrame(columns=list(PROVENANCE_COLUMNS)), {})
+        values = pd.concat([p[0] for p in parts], ignore_index=True) if len(parts) > 1 else \
+            parts[0][0].reset_index(drop=True)
+        return Provenance(values, {i: known[i][1] for i in ids if known[i][1] is not None})
 
     def motors(self):
         return self._keep("motors", super().motors).copy(deep=False)
