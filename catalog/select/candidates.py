@@ -223,17 +223,37 @@ def _stages(ratio: np.ndarray) -> np.ndarray:
     return np.maximum(1, np.ceil(np.log(ratio) / np.log(7.0) - 1e-9))
 
 
-def _each_mount(gears):
-    """One row per mount a gearhead lists (``'F22; F28'`` fits motors of F22 and of F28)."""
+def _mount_table(motor_mounts, gear_mounts) -> tuple:
+    """(fits, code per motor): ``fits[code, j]`` where gearhead ``j`` lists the mount code (``'F22; F28'``
+    fits motors of F22 and of F28); an empty text on either side matches nothing.  The motors that fit
+    gearhead ``j`` are those whose row of ``fits[code]`` is set there."""
     from ..fields import split_list
 
-    codes = gears["mount"].map(split_list)
-    out = gears.assign(mount=codes).explode("mount").dropna(subset=["mount"])
-    return out.drop_duplicates(["o", "mount"]).astype({"o": np.intp})
+    codes, motor_code = np.unique(np.asarray(motor_mounts, dtype=object).astype(str), return_inverse=True)
+    index = {c: i for i, c in enumerate(codes) if c}
+    fits = np.zeros((len(codes), len(gear_mounts)), dtype=bool)    # mount codes x gearheads (a few of each)
+    for j, text in enumerate(gear_mounts):
+        for code in split_list(text):
+            if code in index:
+                fits[index[code], j] = True
+    return fits, motor_code.reshape(-1)
 
 
 def _text(frame, name) -> np.ndarray:
-    return _col(frame, name, object).fillna("").astype(str).to_numpy(dtype=object)
+    """The column ``name`` of ``frame`` as an object array of str, empty where missing (or absent)."""
+    if name not in frame.columns:
+        return np.full(len(frame), "", dtype=object)
+    return _texts(frame[name].to_numpy(dtype=object))
+
+
+def _texts(values) -> np.ndarray:
+    """An object array of str: missing values (None, NaN, NA) empty, any other value as ``str``."""
+    out = np.asarray(values, dtype=object).copy()
+    out[pd.isna(out)] = ""
+    odd = np.fromiter((type(v) is not str for v in out), dtype=bool, count=len(out))
+    if odd.any():
+        out[odd] = [str(v) for v in out[odd]]
+    return out
 
 
 class Candidates(Mapping):
@@ -347,17 +367,14 @@ class Candidates(Mapping):
         self._cache.pop("motor_note", None)
 
 
-def _refuse_too_many(env, motor_mounts, options: dict, n_motor: int) -> None:
-    """Count the candidates before making any (a catalogue gearhead pairs with the motors of its
-    mount) and refuse more than :data:`MAX_CANDIDATES` with what to change."""
+def _refuse_too_many(env, n_catalogue: int, options: dict, n_motor: int) -> None:
+    """Count the candidates before making any (``n_catalogue`` motor-gearhead pairs of one mount) and
+    refuse more than :data:`MAX_CANDIDATES` with what to change."""
     from ..errors import InputError, Problem
 
     kind = options["kind"]
     direct = n_motor if env.direct else 0
-    cat_mounts = pd.Series(options["mount"][kind == GEAR_CATALOGUE])
-    per_mount = cat_mounts[cat_mounts != ""].value_counts()
-    motor_counts = pd.Series(motor_mounts).value_counts()
-    catalogue = int((per_mount * motor_counts.reindex(per_mount.index).fillna(0)).sum())
+    catalogue = int(n_catalogue)
     assumed = n_motor * int(np.count_nonzero(kind == GEAR_ASSUMED))
     total = direct + catalogue + assumed
     if total > MAX_CANDIDATES:
@@ -423,49 +440,54 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
     mv["note"] = np.full(len(m), "", dtype=object)
     n_motor = len(m)
 
-    # the gear-option table: direct, the catalogue gearheads, the assumed ratios
-    opts, pairs = [], []
+    # the gear-option table: direct, the catalogue gearheads, the assumed ratios (columns of arrays)
+    parts = []
     if env.direct:
-        opts.append(pd.DataFrame({"ratio": [1.0], "efficiency": [1.0], "inertia": [0.0], "label": ["direct"],
-                                  "suffix": [""], "kind": [GEAR_DIRECT], "mount": [""]}))
+        parts.append({"ratio": [1.0], "efficiency": [1.0], "inertia": [0.0], "label": ["direct"], "suffix": [""],
+                      "kind": [GEAR_DIRECT], "mount": [""]})
     if env.catalogue_gears and len(gearheads):
         gh = gearheads.reset_index(drop=True)
-        g = pd.DataFrame({c: _col(gh, c) for c in _GEAR})
-        g["inertia"] = g["inertia"].fillna(0.0)
+        g = {c: _col(gh, c) for c in _GEAR}
+        g["inertia"] = np.where(np.isnan(g["inertia"]), 0.0, g["inertia"])
         g["label"] = gh["id"].astype(str).to_numpy(dtype=object)
-        g["suffix"] = ("+" + g["label"]).to_numpy(dtype=object)
-        g["kind"] = GEAR_CATALOGUE
+        g["suffix"] = np.array(["+" + x for x in g["label"]], dtype=object)
+        g["kind"] = np.full(len(gh), GEAR_CATALOGUE)
         g["price"], g["currency"], g["price_note"] = _prices(gh, env)
         g["mount"] = _text(gh, "mount")
-        opts.append(g)
+        parts.append(g)
     if env.ratios:
         ratios = np.asarray(env.ratios, dtype=float)
         stages = np.full(len(ratios), env.stages) if env.stages else _stages(ratios)
         labels = [f"ratio-{r:g}" if r != int(r) else f"ratio-{r:.1f}" for r in ratios]
         est = env.assumed_gear    # estimates (gearing.assumed), else an assumed gear adds nothing
-        opts.append(pd.DataFrame({"ratio": ratios, "efficiency": env.stage_efficiency ** stages,
-                                  "inertia": env.gear_inertia, "label": labels,
-                                  "suffix": ["@" + x for x in labels], "kind": GEAR_ASSUMED, "mount": "",
-                                  "mass": est.get("mass_per_stage", 0.0) * stages,
-                                  "length": est.get("length_per_stage", 0.0) * stages,
-                                  "price": est.get("price", 0.0), "currency": env.currency or ""}))
-    table = pd.concat(opts, ignore_index=True) if opts else pd.DataFrame(columns=["kind"])
-    options = {c: _col(table, c) for c in _GEAR}
+        k = len(ratios)
+        parts.append({"ratio": ratios, "efficiency": env.stage_efficiency ** stages,
+                      "inertia": np.full(k, env.gear_inertia, dtype=float), "label": labels,
+                      "suffix": ["@" + x for x in labels], "kind": np.full(k, GEAR_ASSUMED), "mount": [""] * k,
+                      "mass": est.get("mass_per_stage", 0.0) * stages,
+                      "length": est.get("length_per_stage", 0.0) * stages,
+                      "price": np.full(k, est.get("price", 0.0), dtype=float), "currency": [env.currency or ""] * k})
+    sizes = [len(p["kind"]) for p in parts]
+    options = {c: np.concatenate([np.asarray(p[c], dtype=float) if c in p else np.full(size, np.nan)
+                                  for p, size in zip(parts, sizes)] or [np.zeros(0)]) for c in _GEAR}
     for c in ("label", "suffix", "currency", "price_note", "mount"):
-        options[c] = _text(table, c)
-    options["kind"] = table["kind"].to_numpy(dtype=int) if len(table) else np.zeros(0, dtype=int)
+        options[c] = _texts(np.concatenate([np.asarray(p[c], dtype=object) if c in p else np.full(size, None)
+                                            for p, size in zip(parts, sizes)] or [np.zeros(0, dtype=object)]))
+    options["kind"] = np.concatenate([np.asarray(p["kind"], dtype=int) for p in parts] or [np.zeros(0, dtype=int)])
     kind = options["kind"]
-    _refuse_too_many(env, mv["mount"], options, n_motor)
     motor_rows = np.arange(n_motor)
+    cat_rows = np.flatnonzero(kind == GEAR_CATALOGUE)
+    n_catalogue = 0
+    if len(cat_rows) and n_motor:
+        fits, motor_code = _mount_table(mv["mount"], options["mount"][cat_rows])
+        n_catalogue = int(np.bincount(motor_code, minlength=len(fits)) @ fits.sum(axis=1))
+    _refuse_too_many(env, n_catalogue, options, n_motor)
+    pairs = []
     if env.direct:
         pairs.append((motor_rows, np.zeros(n_motor, dtype=np.intp)))
-    cat_rows = np.flatnonzero(kind == GEAR_CATALOGUE)
-    if len(cat_rows) and n_motor:
-        left = pd.DataFrame({"m": motor_rows, "mount": mv["mount"]})
-        right = _each_mount(pd.DataFrame({"o": cat_rows, "mount": options["mount"][cat_rows]}))
-        both = left[left["mount"] != ""].merge(right[right["mount"] != ""], on="mount").sort_values(
-            ["m", "o"], kind="stable")
-        pairs.append((both["m"].to_numpy(dtype=np.intp), both["o"].to_numpy(dtype=np.intp)))
+    if n_catalogue:   # by motor row, then gearhead row
+        m_at, g_at = np.nonzero(fits[motor_code])
+        pairs.append((m_at.astype(np.intp), cat_rows[g_at].astype(np.intp)))
     ratio_rows = np.flatnonzero(kind == GEAR_ASSUMED)
     if len(ratio_rows) and n_motor:
         pairs.append((np.repeat(motor_rows, len(ratio_rows)), np.tile(ratio_rows, n_motor)))

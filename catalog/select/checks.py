@@ -143,16 +143,15 @@ def reason_texts(env, c: dict, r: dict, rows=None) -> tuple:
                            for k, v in d.items()})
         sub, res = (c.take(rows) if hasattr(c, "take") else take(c)), take(r)
     _, failed, texts, notes = run_checks(env, sub, res)
-    keys = _join({k: np.where(failed[k], k, "").astype(object) for k in failed}, ", ", _size(sub))
+    keys = _join({k: np.where(failed[k], k, "").astype(object) for k in failed if failed[k].any()}, ", ", _size(sub))
     reasons = _join(texts, "; ", _size(sub))
     return keys, reasons, notes
 
 
 def _join(columns: dict, sep: str, n: int) -> np.ndarray:
-    """Row-wise join of the non-empty strings of several (n,) object columns, column by column (no row loop)."""
+    """Row-wise join of the non-empty texts of several (n,) object columns of str, column by column (no row loop)."""
     out = np.full(n, "", dtype=object)
-    for values in columns.values():
-        v = _text_array(values, n)
+    for v in columns.values():
         has = v != ""
         if not has.any():
             continue
@@ -181,15 +180,15 @@ def _notes(c, env=None) -> np.ndarray:
     n = _size(c)
     gear_text = assumed_gear_note(env) if env is not None else \
         "assumed gear: ratings, mass, size and price not included"
-    basis = _text_array(c.get("basis_note", np.full(n, "", dtype=object)), n)
+    basis = _text_array(c.get("basis_note", ""), n)
     basis = np.where(np.asarray(c.get("basis_refused", np.zeros(n, bool)), dtype=bool), "", basis)  # refused: the reason says it
     parts = {"speed": np.where(np.asarray(c["speed_from_no_load"], dtype=bool),
                                "motor speed limit taken from the no-load speed", "").astype(object),
              "gear": np.where(np.asarray(c["kind"]) == GEAR_ASSUMED, gear_text, "").astype(object),
              "basis": basis.astype(object),
-             "brush": c.get("brush_note", np.full(n, "", dtype=object)),
-             "price": c.get("price_note", np.full(n, "", dtype=object)),
-             "motor": c.get("motor_note", np.full(n, "", dtype=object))}
+             "brush": _text_array(c.get("brush_note", ""), n),
+             "price": _text_array(c.get("price_note", ""), n),
+             "motor": _text_array(c.get("motor_note", ""), n)}
     return _join(parts, "; ", n)
 
 
