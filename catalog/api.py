@@ -340,6 +340,8 @@ class Catalog(StockMethods):
         envelope = load_envelope(envelope)   # envelope mistakes first, before reading the file
         kw.setdefault("motor_notes", self._flag_notes())
         kw["catalog"] = self  # exports read the provenance of the values used from here
+        if out is not None:
+            kw.setdefault("every_row", True)   # the export reads every candidate (the rejected ones too)
         if stock_mode(envelope, stock) != "ignore":
             sel = select_with_stock(self.motors(), self.gearheads(), envelope, self.stock_available(),
                                     stock, top=top, **kw)

@@ -317,8 +317,15 @@ def _corner_lines(env, d: dict) -> list:
     return [f"  tolerance corner {label}: {', '.join(keys)}" for label, keys in groups.items()]
 
 
+#: A selection asked to read every row (``select(..., every_row=True)``) evaluates them all at once up to
+#: this many candidates (about 60 numbers each, 25 MB, are kept with it); beyond, it decides the verdicts
+#: first as always.
+EVERY_ROW_MAX = 50_000
+
+
 def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | None = None,
-           motor_notes: dict | None = None, catalog=None, misses: int | None = None) -> Selection:
+           motor_notes: dict | None = None, catalog=None, misses: int | None = None,
+           every_row: bool = False) -> Selection:
     """Evaluate every motor × gear option against a load envelope.
 
     Parameters
@@ -337,6 +344,13 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     misses : int, optional
         Also list this many closest misses (``Selection.misses()``); without it
         they are listed only when nothing passes.
+    every_row : bool
+        The caller will read every candidate (an export with the rejected
+        candidates, the whole ``table``): with at most :data:`EVERY_ROW_MAX`
+        candidates, every row is evaluated in full once, now, and the rows
+        read later are taken from it, instead of deciding the verdicts first
+        (the temperature brackets) and evaluating the rows read again.  The
+        same function gives the same numbers and verdicts either way.
 
     Returns
     -------
@@ -355,7 +369,12 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     n = cand.size
     rank_cols = [k.lstrip("-") for k in list(env.rank_keys) + list(env.pareto or [])]
     from_cand = {"mass", "price", "length", "diameter", "ratio"}
-    res = evaluate_all(env, cand, energy=with_energy, keep=[k for k in rank_cols if k not in from_cand]) if n else {}
+    eval_keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
+    whole = bool(every_row) and 0 < n <= EVERY_ROW_MAX   # every row evaluated once, in full
+    if whole:
+        res = checked_in_chunks(env, cand.take(slice(None), eval_keys))
+    else:
+        res = evaluate_all(env, cand, energy=with_energy, keep=[k for k in rank_cols if k not in from_cand]) if n else {}
     table = {"passed": res["passed"] if n else np.zeros(0, bool)}
     for k in CHECKS:
         table["fails_" + k] = res["fails_" + k] if n else np.zeros(0, bool)
@@ -368,13 +387,13 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     lazy = None
     if n:
         parts = _part_names(motors, gearheads, cand)
-        keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
 
         def lazy(at):
             """Every column of the candidates at positions ``at``: the evaluation and checks run again on
-            these rows (the same arithmetic as for the verdicts), then their texts."""
+            these rows (the same arithmetic as for the verdicts; taken from the whole evaluation when
+            there is one), then their texts."""
             c = cand.take(at)
-            r = checked_in_chunks(env, {k: c[k] for k in keys})
+            r = {k: v[at] for k, v in res.items()} if whole else checked_in_chunks(env, {k: c[k] for k in eval_keys})
             with np.errstate(all="ignore"):   # extreme values overflow to inf in the texts' numbers
                 failed, reasons, notes = reason_texts(env, c, r)
             out = {"rank": rank[at], "candidate": c["id"], "motor": c["motor"], "gear": c["gear"], "ratio": c["ratio"]}

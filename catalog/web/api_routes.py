@@ -189,8 +189,9 @@ def selection_document(cat, sel) -> bytes:
     return json.dumps(document(sel, "si", cat), ensure_ascii=False).encode("utf-8")
 
 
-def run_envelope(cat, data: bytes, source: str, top=None, stock=None):
-    """Validate the envelope text ``data`` (named ``source`` in messages) and select."""
+def run_envelope(cat, data: bytes, source: str, top=None, stock=None, every_row: bool = False):
+    """Validate the envelope text ``data`` (named ``source`` in messages) and select (``every_row``: the
+    caller reads every candidate, see :func:`catalog.select.select`)."""
     import tempfile
     from pathlib import Path
 
@@ -200,7 +201,7 @@ def run_envelope(cat, data: bytes, source: str, top=None, stock=None):
         path = Path(d) / "envelope.toml"
         path.write_bytes(data)
         env = load_envelope(path, source=source)   # the CLI's checks and lines, named after the upload
-    return cat.select(env, top=top, stock=stock)
+    return cat.select(env, top=top, stock=stock, every_row=every_row)
 
 
 async def select(request):
@@ -247,7 +248,7 @@ async def select(request):
     cat = catalog_of(request)
 
     def work():
-        sel = run_envelope(cat, data, "envelope.toml", top, stock)
+        sel = run_envelope(cat, data, "envelope.toml", top, stock, every_row=True)   # the document holds every candidate
         return selection_document(cat, sel)
 
     body = await in_thread(work)
