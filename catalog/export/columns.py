@@ -333,14 +333,10 @@ def apply_given_digits(table, values, id_column: str = "id") -> None:
 
 def text_column(name: str, values, kind: str = "text") -> Column:
     """A text (or ``bool``) column; missing values stay None."""
-    out = []
-    for v in values:
-        if _missing(v):
-            out.append(None)
-        elif kind == "bool":
-            out.append(bool(v))
-        else:
-            out.append(str(v))
+    if kind == "bool":
+        out = [None if _missing(v) else bool(v) for v in values]
+    else:   # a plain str is its own text (the common case, without the missing-value test)
+        out = [v if type(v) is str else (None if _missing(v) else str(v)) for v in values]
     return Column(name, kind, out, list(out))
 
 

@@ -424,10 +424,16 @@ def _part_names(motors, gearheads, cand) -> dict:
                                     (gearheads, "gear", "gear_", cand.options["label"])):
         if frame is None or not len(frame) or "id" not in frame:
             frame = pd.DataFrame(columns=["id"])
-        names = pd.Series(ids, dtype=object)
+        index = pd.Index(frame["id"].astype(str))
+        last = ~index.duplicated(keep="last")              # an id given twice: its last row (as a dict would)
+        at = index[last].get_indexer(pd.Index(np.asarray(ids, dtype=object)))
+        at = np.where(at >= 0, np.flatnonzero(last)[np.maximum(at, 0)] if last.any() else -1, -1)
         for field in ("manufacturer", "part_number"):
-            table = dict(zip(frame["id"].astype(str), frame[field])) if field in frame else {}
-            out[(prefix + field, key)] = names.map(table).to_numpy(dtype=object)
+            values = frame[field].to_numpy(dtype=object) if field in frame else np.zeros(0, dtype=object)
+            found = (at >= 0) & (at < len(values))
+            by_row = np.full(len(at), np.nan, dtype=object)
+            by_row[found] = values[at[found]]
+            out[(prefix + field, key)] = by_row
     return out
 
 
