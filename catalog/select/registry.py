@@ -189,8 +189,13 @@ class CheckInputs:
 
     @staticmethod
     def fmt(values, spec: str = "{:.3g}") -> np.ndarray:
-        """``values`` as texts in the format ``spec``, an object array (joins with ``+``)."""
-        return np.array([spec.format(v) for v in np.asarray(values, dtype=float)], dtype=object)
+        """``values`` as texts in the format ``spec``, an object array (joins with ``+``); each distinct
+        value (bit pattern: −0 and 0 apart) is formatted once (limits repeat over a motor's gear options)."""
+        v = np.ascontiguousarray(values, dtype=float)
+        if v.size <= 32:
+            return np.array([spec.format(x) for x in v], dtype=object)
+        bits, at = np.unique(v.view(np.int64), return_inverse=True)
+        return np.array([spec.format(x) for x in bits.view(np.float64)], dtype=object)[at.reshape(v.shape)]
 
     def note(self, margin_value) -> np.ndarray:
         """``, margin 3.2 % < 10 %`` where a required margin was missed while the limit itself was kept."""

@@ -140,15 +140,16 @@ class Selection:
         self._passed = np.asarray(table["passed"], dtype=bool)
         self._n_pass = int(self._passed.sum())
         shown = self._order[self._passed[self._order]]
-        self.shortlist = self._rows(shown[:top])[shortlist_columns() + list(extra_columns)].reset_index(drop=True)
+        self.shortlist = self._rows(shown[:top], shortlist_columns() + list(extra_columns))
 
-    def _rows(self, rows) -> pd.DataFrame:
-        """The rows at positions ``rows`` as a DataFrame, with the text columns (built only for them)."""
+    def _rows(self, rows, columns=None) -> pd.DataFrame:
+        """The rows at positions ``rows`` as a DataFrame, with the text columns (built only for them);
+        ``columns``: only these, in this order."""
         rows = np.asarray(rows, dtype=np.intp)
         data = {k: np.asarray(v)[rows] for k, v in self._cols.items()}
         if self._lazy is not None:
             data.update(self._lazy(rows))
-        return pd.DataFrame(data)
+        return pd.DataFrame(data if columns is None else {k: data[k] for k in columns})
 
     @property
     def table(self) -> pd.DataFrame:
@@ -174,8 +175,8 @@ class Selection:
         """Every failing candidate with its failed checks and their numbers (texts built on first access)."""
         if self._rejected is None:
             failing = self._order[~self._passed[self._order]]
-            self._rejected = self._rows(failing)[
-                ["candidate", "motor", "gear", *PART_COLUMNS, "ratio", "failed", "reasons"]].reset_index(drop=True)
+            self._rejected = self._rows(failing, ["candidate", "motor", "gear", *PART_COLUMNS, "ratio", "failed",
+                                                  "reasons"])
         return self._rejected
 
     @property
