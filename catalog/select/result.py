@@ -425,10 +425,7 @@ def _part_names(motors, gearheads, cand) -> dict:
                                     (gearheads, "gear", "gear_", cand.options["label"])):
         if frame is None or not len(frame) or "id" not in frame:
             frame = pd.DataFrame(columns=["id"])
-        index = pd.Index(frame["id"].astype(str))
-        last = ~index.duplicated(keep="last")              # an id given twice: its last row (as a dict would)
-        at = index[last].get_indexer(pd.Index(np.asarray(ids, dtype=object)))
-        at = np.where(at >= 0, np.flatnonzero(last)[np.maximum(at, 0)] if last.any() else -1, -1)
+        at = _positions(frame["id"].astype(str).to_numpy(dtype=object), np.asarray(ids, dtype=object))
         for field in ("manufacturer", "part_number"):
             values = frame[field].to_numpy(dtype=object) if field in frame else np.zeros(0, dtype=object)
             found = (at >= 0) & (at < len(values))
@@ -436,6 +433,17 @@ def _part_names(motors, gearheads, cand) -> dict:
             by_row[found] = values[at[found]]
             out[(prefix + field, key)] = by_row
     return out
+
+
+def _positions(frame_ids: np.ndarray, ids: np.ndarray) -> np.ndarray:
+    """Row of ``frame_ids`` holding each of ``ids`` (−1: none; an id given twice: its last row, as a dict
+    would); the candidates' motors are the frame's rows in order, found without an index."""
+    if len(frame_ids) == len(ids) and np.array_equal(frame_ids, ids) and pd.Index(frame_ids).is_unique:
+        return np.arange(len(ids))
+    index = pd.Index(frame_ids)
+    last = ~index.duplicated(keep="last")
+    at = index[last].get_indexer(pd.Index(ids))
+    return np.where(at >= 0, np.flatnonzero(last)[np.maximum(at, 0)] if last.any() else -1, -1)
 
 
 def _rank(passed: np.ndarray, env, fetch) -> tuple:
