@@ -76,7 +76,7 @@ def _prices(frame, env):
     and a price in a currency without a rate becomes NaN with a note.
     """
     price = _col(frame, "price")
-    cur = _col(frame, "currency", object).fillna("").astype(str).to_numpy(dtype=object)
+    cur = _text(frame, "currency")
     note = np.full(len(frame), "", dtype=object)
     if env.currency is None:
         return price, cur, note
@@ -94,16 +94,31 @@ def _col(frame, name, dtype=float):
     return np.full(len(frame), np.nan) if dtype is float else pd.Series([None] * len(frame), dtype=object)
 
 
-def _magnet_coefficients(materials: pd.Series) -> np.ndarray:
+def _magnet_coefficients(materials) -> np.ndarray:
     """β per motor [1/K]: looked up once per distinct material; unknown → conservative."""
-    keys = materials.fillna("unknown").astype(str).str.strip().str.lower()
-    table = {}
-    for key in keys.unique():   # a handful of materials, not one per motor
+    codes, keys = pd.factorize(_normal(materials, missing="unknown"))
+    table = []
+    for key in keys:   # a handful of materials, not one per motor
         try:
-            table[key] = magnet_coefficient(key, missing=CONSERVATIVE_MAGNET_COEFFICIENT)
+            table.append(magnet_coefficient(key, missing=CONSERVATIVE_MAGNET_COEFFICIENT))
         except ValueError:
-            table[key] = CONSERVATIVE_MAGNET_COEFFICIENT
-    return keys.map(table).to_numpy(dtype=float)
+            table.append(CONSERVATIVE_MAGNET_COEFFICIENT)
+    return np.asarray(table, dtype=float)[codes] if len(codes) else np.zeros(0)
+
+
+def _normal(values, missing: str = "") -> np.ndarray:
+    """Texts stripped of surrounding white space and lower-cased, an object array of str (``missing`` for
+    missing values, any other value as ``str``), by the Unicode rules of pandas' string methods (pyarrow's
+    ``utf8_trim_whitespace`` and ``utf8_lower``) without a Series for each step."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    v = np.array(values, dtype=object).reshape(-1)
+    v[pd.isna(v)] = missing
+    odd = np.fromiter((type(x) is not str for x in v), dtype=bool, count=len(v))
+    if odd.any():
+        v[odd] = [str(x) for x in v[odd]]
+    return pc.utf8_lower(pc.utf8_trim_whitespace(pa.array(v, type=pa.string()))).to_numpy(zero_copy_only=False)
 
 
 #: stated basis -> (factor from the stated Ke to the DC-equivalent Ke, factor from the stated Kt to the
@@ -160,8 +175,8 @@ def dc_equivalent_constants(commutation, constant_basis, torque_constant, back_e
     brushless permanent-magnet machines (power balance of a three-phase
     machine, six-step and sinusoidal commutation).
     """
-    com = pd.Series(commutation, dtype=object).fillna("").astype(str).str.strip().str.lower().to_numpy()
-    basis = pd.Series(constant_basis, dtype=object).fillna("").astype(str).str.strip().str.lower().to_numpy()
+    com = _normal(commutation)
+    basis = _normal(constant_basis)
     kt = np.asarray(torque_constant, dtype=float).copy()
     ke = np.asarray(back_emf_constant, dtype=float).copy()
     n = len(kt)
@@ -214,8 +229,7 @@ def no_load_at_winding(commutation) -> np.ndarray:
     friction) and on brushless permanent-magnet machines (core loss in the
     stator).
     """
-    com = pd.Series(commutation, dtype=object).fillna("").astype(str).str.strip().str.lower().to_numpy()
-    return com != "brushless"
+    return _normal(commutation) != "brushless"
 
 
 def _stages(ratio: np.ndarray) -> np.ndarray:
@@ -309,8 +323,7 @@ class Candidates(Mapping):
         if key in ("mass", "length", "price"):   # an assumed gear adds its estimates (0 without them)
             geared = self.options["kind"][oix] != GEAR_DIRECT
         if key == "id":
-            return (pd.Series(self.motors["id"][mix], dtype=object)
-                    + pd.Series(self.options["suffix"][oix], dtype=object)).to_numpy(dtype=object)
+            return np.asarray(self.motors["id"], dtype=object)[mix] + np.asarray(self.options["suffix"], dtype=object)[oix]
         if key in ("mass", "length", "price"):
             total = self.motors[key][mix] + np.where(geared, self.options[key][oix], 0.0)
             if key == "price":
@@ -408,7 +421,7 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
         _text(m, "commutation"), mv["constant_basis"], mv["torque_constant"], mv["back_emf_constant"])
     mv["back_emf_constant"] = np.where(np.isnan(mv["back_emf_constant"]), mv["torque_constant"],
                                        mv["back_emf_constant"])
-    commutation = pd.Series(_text(m, "commutation")).str.strip().str.lower().to_numpy()
+    commutation = _normal(_text(m, "commutation"))
     mv["no_load_at_winding"] = no_load_at_winding(commutation)
     # the phase current a motor's own peak limit is stated in, per DC-equivalent ampere (line-to-line
     # records: a sinusoidal drive's phase peak is 2/√3 of the DC-equivalent current, a six-step one's

@@ -217,10 +217,12 @@ class Selection:
     def reason_counts(self) -> pd.Series:
         """Number of rejected candidates failing each check, most frequent first."""
         rej = ~self._passed
-        counts = pd.Series([int(np.count_nonzero(np.asarray(self._cols["fails_" + k], dtype=bool) & rej))
-                            for k in CHECKS], dtype=int)
-        counts.index = list(CHECKS)
-        return counts[counts > 0].sort_values(ascending=False, kind="stable")
+        keys = list(CHECKS)
+        counts = np.array([np.count_nonzero(np.asarray(self._cols["fails_" + k], dtype=bool) & rej) for k in keys],
+                          dtype=int)
+        kept = np.flatnonzero(counts > 0)
+        kept = kept[np.argsort(-counts[kept], kind="stable")]     # most frequent first, ties in registry order
+        return pd.Series(counts[kept], index=[keys[i] for i in kept], dtype=int)
 
     def explain(self, candidate_id: str) -> str:
         """The whole story of one candidate: every segment and every margin, as text."""
