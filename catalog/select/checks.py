@@ -127,12 +127,16 @@ def check_keys(env) -> tuple:
     return tuple(keys)
 
 
-def reason_texts(env, c: dict, r: dict, rows=None) -> tuple:
+def reason_texts(env, c: dict, r: dict, rows=None, texts: bool = True, notes: bool = True) -> tuple:
     """(failed keys, reasons, notes) as object arrays, for the candidate positions ``rows`` of ``c``
-    and ``r`` (or for all of them when ``c`` and ``r`` already hold just the rows wanted).
+    and ``r`` (or for all of them when ``c`` and ``r`` already hold just the rows wanted); None for
+    the parts not asked for (``texts``: the failed keys and reasons, ``notes``).
 
     The checks are row-wise, so running them on the rows asked for gives the
-    same texts as on the whole table, at the cost of those rows only.
+    same texts as on the whole table, at the cost of those rows only.  Where
+    ``r`` holds the verdicts and margins of :func:`catalog.select.evaluate.checked`
+    (``fails_<check>``, the margin columns), they are taken as they are
+    instead of being computed again.
     """
     if rows is None:
         sub, res = c, r
@@ -142,10 +146,25 @@ def reason_texts(env, c: dict, r: dict, rows=None) -> tuple:
         take = (lambda d: {k: (v[rows] if isinstance(v, np.ndarray) and v.ndim and len(v) == n else v)
                            for k, v in d.items()})
         sub, res = (c.take(rows) if hasattr(c, "take") else take(c)), take(r)
-    _, failed, texts, notes = run_checks(env, sub, res)
-    keys = _join({k: np.where(failed[k], k, "").astype(object) for k in failed if failed[k].any()}, ", ", _size(sub))
-    reasons = _join(texts, "; ", _size(sub))
-    return keys, reasons, notes
+    n = _size(sub)
+    keys = reasons = None
+    if texts:
+        if all("fails_" + ch.key in res and (ch.margin is None or ch.margin.column in res) for ch in REGISTRY):
+            failed, text = {}, {}
+            x = CheckInputs(env, sub, res, n)
+            for check in REGISTRY:
+                failed[check.key] = np.asarray(res["fails_" + check.key], dtype=bool)
+                if not failed[check.key].any():
+                    continue
+                x.check = check
+                m = (np.asarray(res[check.margin.column], dtype=float) if check.margin is not None else
+                     np.asarray(check.compute(x), dtype=float) if check.compute is not None else None)
+                text[check.key] = _reason_column(env, sub, res, n, check, m, failed[check.key])
+        else:
+            _, failed, text, _ = run_checks(env, sub, res)
+        keys = _join({k: np.where(failed[k], k, "").astype(object) for k in failed if failed[k].any()}, ", ", n)
+        reasons = _join(text, "; ", n)
+    return keys, reasons, (_notes(sub, env) if notes else None)
 
 
 def _join(columns: dict, sep: str, n: int) -> np.ndarray:

@@ -148,7 +148,7 @@ class Selection:
         rows = np.asarray(rows, dtype=np.intp)
         data = {k: np.asarray(v)[rows] for k, v in self._cols.items()}
         if self._lazy is not None:
-            data.update(self._lazy(rows))
+            data.update(self._lazy(rows, columns))
         return pd.DataFrame(data if columns is None else {k: data[k] for k in columns})
 
     @property
@@ -391,14 +391,16 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     if n:
         parts = _part_names(motors, gearheads, cand)
 
-        def lazy(at):
+        def lazy(at, columns=None):
             """Every column of the candidates at positions ``at``: the evaluation and checks run again on
             these rows (the same arithmetic as for the verdicts; taken from the whole evaluation when
-            there is one), then their texts."""
+            there is one), then their texts (those of ``columns`` only, when given)."""
             c = cand.take(at)
             r = {k: v[at] for k, v in res.items()} if whole else checked_in_chunks(env, {k: c[k] for k in eval_keys})
+            want = (lambda k: True) if columns is None else set(columns).__contains__
             with np.errstate(all="ignore"):   # extreme values overflow to inf in the texts' numbers
-                failed, reasons, notes = reason_texts(env, c, r)
+                failed, reasons, notes = reason_texts(env, c, r, texts=want("failed") or want("reasons"),
+                                                      notes=want("notes"))
             out = {"rank": rank[at], "candidate": c["id"], "motor": c["motor"], "gear": c["gear"], "ratio": c["ratio"]}
             for (column, source), by_row in parts.items():   # per motor or gear-option row, then per candidate
                 out[column] = by_row[cand.motor_ix[at] if source == "motor" else cand.option_ix[at]]
