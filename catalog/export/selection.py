@@ -140,7 +140,7 @@ def selection_tables(selection, preset: str = "metric", catalog=None) -> list:
     short = selection.shortlist
     dims = selection_dimensions()
     tables = [table_from_frame(short, "shortlist", preset, dimensions=dims, freeze_columns=2)]
-    tables.append(table_from_frame(selection.rejected, "rejected", preset, dimensions=dims,
+    tables.append(table_from_frame(selection.rejected_columns(), "rejected", preset, dimensions=dims,
                                    freeze_columns=1))
     counts = selection.reason_counts()
     from ..select import CHECKS

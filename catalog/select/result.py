@@ -136,7 +136,7 @@ class Selection:
         n = len(table["passed"])
         # rows in display order (passing by rank, then the rest); None: the columns' own order
         self._order = np.arange(n) if order is None else np.asarray(order)
-        self._passing = self._rejected = self._table = None
+        self._passing = self._rejected = self._table = self._rejected_columns = None
         self._passed = np.asarray(table["passed"], dtype=bool)
         self._n_pass = int(self._passed.sum())
         shown = self._order[self._passed[self._order]]
@@ -145,11 +145,15 @@ class Selection:
     def _rows(self, rows, columns=None) -> pd.DataFrame:
         """The rows at positions ``rows`` as a DataFrame, with the text columns (built only for them);
         ``columns``: only these, in this order."""
+        return pd.DataFrame(self._arrays(rows, columns))
+
+    def _arrays(self, rows, columns=None) -> dict:
+        """:meth:`_rows` as column -> array (texts as object arrays), before any DataFrame is made."""
         rows = np.asarray(rows, dtype=np.intp)
         data = {k: np.asarray(v)[rows] for k, v in self._cols.items()}
         if self._lazy is not None:
             data.update(self._lazy(rows, columns))
-        return pd.DataFrame(data if columns is None else {k: data[k] for k in columns})
+        return data if columns is None else {k: data[k] for k in columns}
 
     @property
     def table(self) -> pd.DataFrame:
@@ -174,10 +178,18 @@ class Selection:
     def rejected(self) -> pd.DataFrame:
         """Every failing candidate with its failed checks and their numbers (texts built on first access)."""
         if self._rejected is None:
-            failing = self._order[~self._passed[self._order]]
-            self._rejected = self._rows(failing, ["candidate", "motor", "gear", *PART_COLUMNS, "ratio", "failed",
-                                                  "reasons"])
+            self._rejected = pd.DataFrame(self.rejected_columns())
         return self._rejected
+
+    def rejected_columns(self) -> dict:
+        """The columns of :attr:`rejected` as numpy arrays (the texts as object arrays of str, NaN where a
+        maker or part number is missing), built once: an export that only reads the values spares
+        the DataFrame (and the conversion of every text to and from pandas' string type)."""
+        if self._rejected_columns is None:
+            failing = self._order[~self._passed[self._order]]
+            self._rejected_columns = self._arrays(failing, ["candidate", "motor", "gear", *PART_COLUMNS, "ratio",
+                                                            "failed", "reasons"])
+        return dict(self._rejected_columns)
 
     @property
     def counts(self) -> tuple[int, int]:
