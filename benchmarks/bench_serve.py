@@ -99,7 +99,33 @@ def _pct(values, q):
     return values[min(len(values) - 1, int(round(q * (len(values) - 1))))]
 
 
-def bench_select(port, demo: Path) -> None:
+def _cpu_seconds(pid) -> float | None:
+    """User + system CPU time [s] of the process ``pid`` so far (Linux /proc), None where unknown."""
+    try:
+        fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
+        return (int(fields[11]) + int(fields[12])) / os.sysconf("SC_CLK_TCK")
+    except (OSError, ValueError, IndexError):
+        return None
+
+
+def _reference_loop() -> float:
+    """Seconds of a fixed pure-Python loop (3 million additions), median of 3: how fast this shared
+    machine runs at the moment, to read the figures of one run against another's."""
+    def loop():
+        total = 0
+        for i in range(3_000_000):
+            total += i
+        return total
+
+    times = []
+    for _ in range(3):
+        t = time.perf_counter()
+        loop()
+        times.append(time.perf_counter() - t)
+    return statistics.median(times)
+
+
+def bench_select(port, demo: Path, server_pid=None) -> None:
     paths = sorted((ROOT / "queries").glob("*.toml"))
     envelopes = [p.read_bytes() for p in paths]
     headers = {"Content-Type": "application/toml"}
@@ -108,6 +134,7 @@ def bench_select(port, demo: Path) -> None:
         status, _ = request(port, "POST", "/api/select", body, headers, conn)
         assert status == 200, status
     times = {p.stem: [] for p in paths}
+    cpu_before = _cpu_seconds(server_pid)
     for _ in range(ROUNDS):
         for p, body in zip(paths, envelopes):
             t = time.perf_counter()
@@ -115,11 +142,13 @@ def bench_select(port, demo: Path) -> None:
             times[p.stem].append(time.perf_counter() - t)
             assert status == 200 and data.startswith(b"{"), status
     conn.close()
-    local = _in_process(demo, paths)
     every = [t for ts in times.values() for t in ts]
+    cpu = (_cpu_seconds(server_pid) - cpu_before) / len(every) if cpu_before is not None else float("nan")
+    local = _in_process(demo, paths)
     med, p95 = statistics.median(every), _pct(every, 0.95)
     note = (f"{len(envelopes)} demo envelopes x {ROUNDS} rounds, warm server, answer = the select --out JSON; "
-            f"load average {os.getloadavg()[0]:.1f} on {os.cpu_count()} cores")
+            f"server CPU {cpu * 1e3:.0f} ms per request; load average {os.getloadavg()[0]:.1f} on "
+            f"{os.cpu_count()} cores; reference loop {_reference_loop() * 1e3:.0f} ms (the machine's speed now)")
     report("serve_select_median", med, "s", statistics.median([t for ts in local.values() for t in ts]),
            "<= 0.1 s", med <= 0.1, note + "; baseline: the same selections in one process")
     report("serve_select_p95", p95, "s", None, "<= 0.2 s", p95 <= 0.2, note)
@@ -258,7 +287,7 @@ def main(parts=("select", "soak", "page")) -> int:
         build(demo, out=lambda *a, **k: None)
         if "select" in parts:
             with Server(demo) as srv:
-                bench_select(srv.port, demo)
+                bench_select(srv.port, demo, srv.proc.pid)
         if "soak" in parts:
             bench_soak(demo)
         if "page" in parts:
