@@ -24,7 +24,7 @@ from starlette.routing import Route
 
 from .. import __version__
 from ..errors import InputError, Problem
-from .common import catalog_of, in_thread, person_of
+from .common import catalog_of, in_thread, missing, person_of
 
 #: verb of the URL → Catalog method (the shelf's movements; ``history`` etc. are reads).
 STOCK_VERBS = {"receive": "stock_receive", "take": "stock_take", "return": "stock_return",
@@ -148,7 +148,9 @@ async def record(request):
 
     cat = catalog_of(request)
     rid = request.path_params["record_id"]
-    rtype, maker, part, values = await in_thread(cat.record, rid)
+    view = await in_thread(cat.show, rid, "si")
+    rtype, maker, part = view.record_type, view.manufacturer, view.part_number
+    values = view.values[view.values["origin"].notna()]     # the fields with a stored value
     flags = await in_thread(cat.check, None, rid)
     stock = await in_thread(cat.stock_list, None, rid)
     fields = fields_for(rtype)
@@ -160,9 +162,8 @@ async def record(request):
                     "text": _clean(row.value_text), "raw_text": _clean(row.raw_text), "raw_unit": _clean(row.raw_unit),
                     "origin": row.origin, "relation": _clean(row.relation), "inputs": _clean(row.inputs),
                     "source_file": _clean(row.source_file),
-                    "source_row": None if row.source_row is None or row.source_row != row.source_row
-                    else int(row.source_row),
-                    "batch_id": _clean(row.batch_id)})
+                    "source_row": None if missing(row.source_row) else int(row.source_row),
+                    "batch_id": None if missing(row.batch_id) else int(row.batch_id)})
     order = {name: i for i, name in enumerate(fields)}
     out.sort(key=lambda v: order.get(v["field"], len(order)))
     return json_response({"id": rid, "record_type": rtype, "manufacturer": maker, "part_number": part, "values": out,
