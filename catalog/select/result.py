@@ -184,7 +184,8 @@ class Selection:
     def rejected_columns(self) -> dict:
         """The columns of :attr:`rejected` as numpy arrays (the texts as object arrays of str, NaN where a
         maker or part number is missing), built once: an export that only reads the values spares
-        the DataFrame (and the conversion of every text to and from pandas' string type)."""
+        the DataFrame (and the conversion of every text to and from pandas' string type).  The arrays
+        are the selection's own: read them, do not change them."""
         if self._rejected_columns is None:
             failing = self._order[~self._passed[self._order]]
             self._rejected_columns = self._arrays(failing, ["candidate", "motor", "gear", *PART_COLUMNS, "ratio",
