@@ -13,7 +13,7 @@ The command line mirrors this class: ``motorshelf CMD`` calls ``Catalog.CMD``
 """
 from __future__ import annotations
 
-__all__ = ["Catalog", "RecordView", "open_catalog"]
+__all__ = ["Catalog", "RecordView", "Provenance", "PROVENANCE_COLUMNS", "open_catalog"]
 
 import warnings
 from pathlib import Path
@@ -25,6 +25,18 @@ from .store import Store, default_path, is_damage, one
 
 #: ``list``/``export`` kind → (view, record type); the view name never comes from a caller's text.
 _KINDS = {"motors": ("motors", "motor"), "gearheads": ("gearheads", "gearhead")}
+
+
+#: The columns of :attr:`Provenance.values`, in order.
+PROVENANCE_COLUMNS = ("record_id", "field", "value_num", "value_text", "raw_text", "raw_unit", "origin", "relation",
+                      "inputs", "source_file", "source_row")
+
+
+class Provenance(NamedTuple):
+    """The stored values of some records and where they came from, as :meth:`Catalog.provenance` returns them."""
+
+    values: object         #: DataFrame of :data:`PROVENANCE_COLUMNS`, by record and field
+    record_types: dict     #: record id -> ``motor`` or ``gearhead``
 
 
 class RecordView(NamedTuple):
@@ -192,6 +204,19 @@ class Catalog(StockMethods):
             flags = _flags(con, DEFAULT_TOLERANCE, record_id)
         return RecordView(rtype, manufacturer, part_number, _shown_values(stored, rtype, units), flags)
 
+    def provenance(self, record_ids) -> Provenance:
+        """The stored values of the records ``record_ids`` with where each came from.
+
+        Returns a :class:`Provenance`: ``values``, the ``record_values`` rows of
+        those records (:data:`PROVENANCE_COLUMNS`: the SI value, the text and unit
+        as written, given or derived, the relation and its inputs, the source file
+        and row) by record and field, and ``record_types`` (record id → ``motor``
+        or ``gearhead``).  Ids that are not in the catalogue are left out.
+        """
+        ids = sorted({str(i) for i in record_ids})
+        with self.store.read() as con:
+            return _provenance(con, ids)
+
     def check(self, tolerance: float | None = None, record_id: str | None = None) -> list:
         """Consistency flags: over-determined relations whose relative residual exceeds ``tolerance``.
 
@@ -318,6 +343,8 @@ class Catalog(StockMethods):
         envelope = load_envelope(envelope)   # envelope mistakes first, before reading the file
         kw.setdefault("motor_notes", self._flag_notes())
         kw["catalog"] = self  # exports read the provenance of the values used from here
+        if out is not None:
+            kw.setdefault("every_row", True)   # the export reads every candidate (the rejected ones too)
         if stock_mode(envelope, stock) != "ignore":
             sel = select_with_stock(self.motors(), self.gearheads(), envelope, self.stock_available(),
                                     stock, top=top, **kw)
@@ -433,6 +460,14 @@ def _stored_values(con, record_id: str):
     """The ``record_values`` rows of one record, every column but ``record_id``."""
     return con.sql("SELECT * EXCLUDE (record_id) FROM record_values WHERE record_id = $id",
                    params={"id": record_id}).to_arrow_table().to_pandas()
+
+
+def _provenance(con, ids: list) -> Provenance:
+    """The ``record_values`` rows and record types of the records ``ids``, read on ``con``."""
+    values = con.sql(f"SELECT {', '.join(PROVENANCE_COLUMNS)} FROM record_values WHERE list_contains($ids, record_id) "
+                     "ORDER BY record_id, field", params={"ids": ids}).to_arrow_table().to_pandas()
+    types = con.execute("SELECT record_id, record_type FROM records WHERE list_contains(?, record_id)", [ids]).fetchall()
+    return Provenance(values, dict(types))
 
 
 def _shown_values(stored, record_type: str, units: str):

@@ -1,4 +1,4 @@
-"""Presenting SI frames in display units (the way out of the program).
+"""Presenting SI frames in display units (the way out of the program), for every face alike.
 
 Values are stored in SI; users see them in a preset: ``si``, ``metric``
 (mN·m, rpm, g·cm², °C, ...; also read under its older name ``datasheet``) or ``imperial`` (oz·in, oz·in², lb, in, °F, ...).
@@ -6,7 +6,7 @@ Headers carry the unit: ``stall_torque [mN·m]``.
 """
 from __future__ import annotations
 
-__all__ = ["display_frame", "display_value", "LIST_COLUMNS", "FIELD_UNITS", "field_unit"]
+__all__ = ["display_frame", "display_value", "display_shortlist", "LIST_COLUMNS", "FIELD_UNITS", "field_unit"]
 
 from .fields import fields_for
 
@@ -82,3 +82,47 @@ def display_frame(df, record_type: str, preset: str = "metric", columns=None):
     import pandas as pd
 
     return pd.DataFrame(out)
+
+
+def display_shortlist(shortlist):
+    """The shortlist in display units: margins in % (temperature margin in K), temperature in °C, mass in g.
+
+    The margin columns come from the check registry (:mod:`catalog.select.registry`); a margin no
+    shortlisted candidate has (NaN throughout, e.g. gearhead margins of direct drives) is left out.
+    """
+    import numpy as np
+    import pandas as pd
+
+    from .select.registry import checks
+
+    out = pd.DataFrame({
+        "rank": shortlist["rank"].astype(int),
+        "candidate": shortlist["candidate"],
+        "worst segment": shortlist["worst_segment"],
+    })
+    for check in checks():
+        margin = check.margin
+        if margin is not None and np.isfinite(shortlist[margin.column].to_numpy(dtype=float)).any():
+            values = shortlist[margin.column] * (100 if margin.is_fraction else 1)
+            out[margin.label or margin.column] = values.round(1)
+        for name in check.columns:   # a check's values are shown even where it sets no limit
+            if np.isfinite(shortlist[name].to_numpy(dtype=float)).any():
+                out[name] = shortlist[name].round(3)
+    out["Tw °C"] = (shortlist["winding_temperature"] - 273.15).round(1)
+    out["Irms A"] = shortlist["rms_current"].round(3)
+    out["mass g"] = (shortlist["mass"] * 1e3).round(0)
+    out["price"] = shortlist["price"]
+    if "currency" in shortlist:
+        currencies = sorted({c for c in shortlist["currency"] if c})
+        if len(currencies) == 1:
+            out = out.rename(columns={"price": f"price {currencies[0]}"})
+        elif currencies:
+            out["cur"] = shortlist["currency"]
+    if "estimates" in shortlist and (shortlist["estimates"].fillna("") != "").any():
+        out["estimated"] = shortlist["estimates"].fillna("")   # totals holding gearing.assumed estimates
+    if shortlist["pareto"].any():
+        out["pareto"] = shortlist["pareto"].map({True: "yes", False: ""})
+    if "available" in shortlist:  # the shelf (catalog.inventory.selection): complete sets on hand, where
+        out["in stock"] = shortlist["available"]
+        out["location"] = shortlist["location"]
+    return out

@@ -1,7 +1,7 @@
 """The ``select`` command: evaluate the catalogue against a load envelope (parsing and printing only)."""
 from __future__ import annotations
 
-__all__ = ["select_cmd", "display_shortlist", "display_misses"]
+__all__ = ["select_cmd", "display_misses"]
 
 import sys
 
@@ -11,50 +11,6 @@ from . import Context, cli, handle_errors
 from ..export.formats import extension_list
 from .options import FORMAT_OPTION, OUT_UNITS_OPTION, TOP_OPTION
 from .output import echo, print_frame
-
-
-def display_shortlist(shortlist):
-    """The shortlist in display units: margins in % (temperature margin in K), temperature in °C, mass in g.
-
-    The margin columns come from the check registry (:mod:`catalog.select.registry`); a margin no
-    shortlisted candidate has (NaN throughout, e.g. gearhead margins of direct drives) is left out.
-    """
-    import numpy as np
-    import pandas as pd
-
-    from ..select.registry import checks
-
-    out = pd.DataFrame({
-        "rank": shortlist["rank"].astype(int),
-        "candidate": shortlist["candidate"],
-        "worst segment": shortlist["worst_segment"],
-    })
-    for check in checks():
-        margin = check.margin
-        if margin is not None and np.isfinite(shortlist[margin.column].to_numpy(dtype=float)).any():
-            values = shortlist[margin.column] * (100 if margin.is_fraction else 1)
-            out[margin.label or margin.column] = values.round(1)
-        for name in check.columns:   # a check's values are shown even where it sets no limit
-            if np.isfinite(shortlist[name].to_numpy(dtype=float)).any():
-                out[name] = shortlist[name].round(3)
-    out["Tw °C"] = (shortlist["winding_temperature"] - 273.15).round(1)
-    out["Irms A"] = shortlist["rms_current"].round(3)
-    out["mass g"] = (shortlist["mass"] * 1e3).round(0)
-    out["price"] = shortlist["price"]
-    if "currency" in shortlist:
-        currencies = sorted({c for c in shortlist["currency"] if c})
-        if len(currencies) == 1:
-            out = out.rename(columns={"price": f"price {currencies[0]}"})
-        elif currencies:
-            out["cur"] = shortlist["currency"]
-    if "estimates" in shortlist and (shortlist["estimates"].fillna("") != "").any():
-        out["estimated"] = shortlist["estimates"].fillna("")   # totals holding gearing.assumed estimates
-    if shortlist["pareto"].any():
-        out["pareto"] = shortlist["pareto"].map({True: "yes", False: ""})
-    if "available" in shortlist:  # the shelf (catalog.inventory.selection): complete sets on hand, where
-        out["in stock"] = shortlist["available"]
-        out["location"] = shortlist["location"]
-    return out
 
 
 def display_misses(misses):
@@ -108,6 +64,8 @@ def select_cmd(obj: Context, envelope, top, fmt, explain, stock, out, units, mis
     echo(f"envelope {env.name} ({env.source}): {n_pass + n_rej} candidate(s), "
                f"{n_pass} pass, {n_rej} rejected")
     if n_pass:
+        from ..present import display_shortlist
+
         print_frame(display_shortlist(sel.shortlist), "table",
                     title=f"best {len(sel.shortlist)} by {', '.join(env.rank_keys)}"
                     + {"only": ", stocked parts only", "prefer": ", stocked first"}.get(sel.stock_mode, ""))

@@ -100,13 +100,29 @@ def provenance_table(values, record_types: dict, preset: str = "metric", name: s
     shown, unit, si_unit = [None] * n, [None] * n, [None] * n
     si_vals = [None] * n
     fields = {t: fields_for(t) for t in ("motor", "gearhead")}
-    keyed = values.assign(_rt=values["record_id"].map(record_types).fillna("motor"))
-    cur = values[values["field"] == "currency"]
-    currency_of = dict(zip(cur["record_id"], cur["value_text"]))
-    for (rt, fname), grp in keyed.groupby(["_rt", "field"], sort=False):
+    # each column once as plain objects (iterating an arrow-backed column boxes every cell)
+    col = {c: values[c].to_numpy(dtype=object) for c in ("record_id", "field", "value_text", "raw_text", "raw_unit",
+                                                          "origin", "relation", "inputs", "source_file",
+                                                          "source_row")}
+    record_ids = col["record_id"]
+    field_names = col["field"]
+    rtypes = np.array([record_types.get(r) or "motor" for r in record_ids], dtype=object)
+    all_nums = values["value_num"].to_numpy(dtype=float, na_value=np.nan)
+    is_currency = field_names == "currency"
+    currency_of = dict(zip(record_ids[is_currency], col["value_text"][is_currency]))
+    # one conversion per (record type, field): the rows of each group, found without pandas' groupby
+    keys = np.array([f"{t}\x00{f}" for t, f in zip(rtypes, field_names)], dtype=object)
+    if n:
+        uniq, first, group_of = np.unique(keys.astype(str), return_index=True, return_inverse=True)
+        order = np.argsort(group_of, kind="stable")
+        cuts = np.searchsorted(group_of[order], np.arange(len(uniq) + 1))
+    else:
+        first, order, cuts = np.zeros(0, dtype=int), np.zeros(0, dtype=int), np.zeros(1, dtype=int)
+    for g, at in enumerate(first):
+        rt, fname = rtypes[at], field_names[at]
         f = fields[rt].get(fname)
-        nums = grp["value_num"].to_numpy(dtype=float, na_value=np.nan)
-        pos = grp.index.to_numpy()
+        pos = order[cuts[g]:cuts[g + 1]]
+        nums = all_nums[pos]
         if f is None or not f.is_numeric or np.all(np.isnan(nums)):
             continue
         if f.dimension is None:
@@ -117,20 +133,19 @@ def provenance_table(values, record_types: dict, preset: str = "metric", name: s
             disp = convert(nums)
             si_label = si_unit_label(f.dimension, fname)
             label = label or UNITLESS
-        ids = grp["record_id"].tolist()
         for k, p in enumerate(pos):
             i = int(p)
             shown[i] = clean_number(disp[k], f.kind == "integer")
             si_vals[i] = clean_number(nums[k])
             unit[i] = label
             if fname == "price":
-                unit[i] = currency_of.get(ids[k]) or NO_CURRENCY
+                unit[i] = currency_of.get(record_ids[i]) or NO_CURRENCY
             si_unit[i] = si_label or unit[i]
     src = [f"{a}:{int(b)}" if isinstance(a, str) and a and b == b and b is not None else (a or None)
-           for a, b in zip(values["source_file"], values["source_row"])]
+           for a, b in zip(col["source_file"], col["source_row"])]
     origin_text = []
-    for o, rel, inp, raw, ru, s in zip(values["origin"], values["relation"], values["inputs"],
-                                       values["raw_text"], values["raw_unit"], src):
+    for o, rel, inp, raw, ru, s in zip(col["origin"], col["relation"], col["inputs"], col["raw_text"],
+                                       col["raw_unit"], src):
         if o == "derived":
             origin_text.append(f"derived: {rel}" + (f" from {inp}" if isinstance(inp, str) and inp else ""))
         else:
@@ -138,20 +153,20 @@ def provenance_table(values, record_types: dict, preset: str = "metric", name: s
             if isinstance(ru, str) and ru and (not isinstance(raw, str) or ru not in raw):
                 written += f" [{ru}]"
             origin_text.append(f"given: {written}" + (f" ({s})" if s else ""))
-    digits = [given_digits(t) if o == "given" else None for t, o in zip(values["raw_text"], values["origin"])]
+    digits = [given_digits(t) if o == "given" else None for t, o in zip(col["raw_text"], col["origin"])]
     cols = [
-        text_column("record_id", values["record_id"].tolist()),
-        text_column("field", values["field"].tolist()),
+        text_column("record_id", col["record_id"]),
+        text_column("field", col["field"]),
         Column("value", "number", shown, si_vals, "see unit", "see si_unit", digits=digits),
         text_column("unit", unit),
         Column("value_si", "number", si_vals, si_vals, "see si_unit", "see si_unit", digits=list(digits)),
         text_column("si_unit", si_unit),
-        text_column("text", values["value_text"].tolist()),
-        text_column("origin", values["origin"].tolist()),
-        text_column("relation", values["relation"].tolist()),
-        text_column("inputs", values["inputs"].tolist()),
-        text_column("raw_text", values["raw_text"].tolist()),
-        text_column("raw_unit", values["raw_unit"].tolist()),
+        text_column("text", col["value_text"]),
+        text_column("origin", col["origin"]),
+        text_column("relation", col["relation"]),
+        text_column("inputs", col["inputs"]),
+        text_column("raw_text", col["raw_text"]),
+        text_column("raw_unit", col["raw_unit"]),
         text_column("source", src),
         text_column("how", origin_text),
     ]

@@ -333,20 +333,16 @@ def apply_given_digits(table, values, id_column: str = "id") -> None:
 
 def text_column(name: str, values, kind: str = "text") -> Column:
     """A text (or ``bool``) column; missing values stay None."""
-    out = []
-    for v in values:
-        if _missing(v):
-            out.append(None)
-        elif kind == "bool":
-            out.append(bool(v))
-        else:
-            out.append(str(v))
+    if kind == "bool":
+        out = [None if _missing(v) else bool(v) for v in values]
+    else:   # a plain str is its own text (the common case, without the missing-value test)
+        out = [v if type(v) is str else (None if _missing(v) else str(v)) for v in values]
     return Column(name, kind, out, list(out))
 
 
 def table_from_frame(df, name: str, preset: str = "metric", record_type: str | None = None,
                      dimensions: dict | None = None, columns=None, freeze_columns: int = 0) -> Table:
-    """A :class:`Table` of an SI DataFrame.
+    """A :class:`Table` of an SI DataFrame (or of a mapping column → numpy array, texts as object arrays).
 
     Column dimensions come from ``dimensions`` (name → dimension), then from the
     field descriptions of ``record_type`` (the schema files); numeric columns of
@@ -357,7 +353,8 @@ def table_from_frame(df, name: str, preset: str = "metric", record_type: str | N
 
     fields = fields_for(record_type) if record_type else {}
     dims = dict(dimensions or {})
-    cols = [c for c in (columns or df.columns) if c in df.columns]
+    present = list(df.columns) if hasattr(df, "columns") else list(df)
+    cols = [c for c in (columns or present) if c in present]
     out = []
     for c in cols:
         series = df[c]
@@ -367,7 +364,7 @@ def table_from_frame(df, name: str, preset: str = "metric", record_type: str | N
             out.append(text_column(c, series.tolist(), "bool"))
             continue
         if c == "price" and dims.get(c, "price") == "price" and (f is not None or c in dims):
-            if "currency" in df.columns:
+            if "currency" in present:
                 out.extend(price_columns(c, series.tolist(), df["currency"].tolist()))
             else:
                 out.append(quantity_column(c, series.tolist(), "price"))
@@ -391,6 +388,7 @@ def table_from_frame(df, name: str, preset: str = "metric", record_type: str | N
 def _all_whole(series) -> bool:
     import numpy as np
 
-    v = series.to_numpy(dtype=float, na_value=np.nan)
+    v = series.to_numpy(dtype=float, na_value=np.nan) if hasattr(series, "to_numpy") else \
+        np.asarray(series, dtype=float)
     v = v[np.isfinite(v)]
     return bool(v.size) and bool(np.all(v == np.round(v)))

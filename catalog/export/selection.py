@@ -140,7 +140,7 @@ def selection_tables(selection, preset: str = "metric", catalog=None) -> list:
     short = selection.shortlist
     dims = selection_dimensions()
     tables = [table_from_frame(short, "shortlist", preset, dimensions=dims, freeze_columns=2)]
-    tables.append(table_from_frame(selection.rejected, "rejected", preset, dimensions=dims,
+    tables.append(table_from_frame(selection.rejected_columns(), "rejected", preset, dimensions=dims,
                                    freeze_columns=1))
     counts = selection.reason_counts()
     from ..select import CHECKS
@@ -156,17 +156,11 @@ def selection_tables(selection, preset: str = "metric", catalog=None) -> list:
                                        dimensions={**dims, **MISS_DIMENSIONS}, freeze_columns=2))
     tables.append(envelope_table(selection.envelope, preset))
     if cat is not None and len(short):
-        ids = sorted(set(short["motor"]) | {g for g in short["gear"] if isinstance(g, str)})
-        vals = cat.sql("SELECT record_id, field, value_num, value_text, raw_text, raw_unit, origin, relation, "
-                       "inputs, source_file, source_row FROM record_values WHERE list_contains($ids, record_id) "
-                       "ORDER BY record_id, field", params={"ids": ids})
-        types = cat.sql("SELECT record_id, record_type FROM records WHERE list_contains($ids, record_id)",
-                        params={"ids": ids})
-        rtypes = dict(zip(types["record_id"], types["record_type"]))
+        vals, rtypes = cat.provenance(set(short["motor"]) | {g for g in short["gear"] if isinstance(g, str)})
     else:
-        vals = pd.DataFrame(columns=["record_id", "field", "value_num", "value_text", "raw_text", "raw_unit",
-                                     "origin", "relation", "inputs", "source_file", "source_row"])
-        rtypes = {}
+        from ..api import PROVENANCE_COLUMNS
+
+        vals, rtypes = pd.DataFrame(columns=list(PROVENANCE_COLUMNS)), {}
     tables.append(provenance_table(vals, rtypes, preset))
     rows = caution_lines(selection, cat)
     tables.append(Table("cautions", [text_column("topic", [r[0] for r in rows]),

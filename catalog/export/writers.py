@@ -117,8 +117,15 @@ def _json_value(v):
 
 
 def _json_table(table) -> dict:
-    return {"units": table.units,
-            "records": [{k: _json_value(v) for k, v in r.items()} for r in table.records()]}
+    """``units`` and ``records`` (one dict per row, as :meth:`Table.records`, NaN and infinities None)."""
+    names = [c.name for c in table.columns]
+    columns = [[None if isinstance(v, float) and (v != v or v in _INFINITIES) else v for v in c.values]
+               for c in table.columns]
+    return {"units": table.units, "records": [dict(zip(names, row)) for row in zip(*columns)]
+            if names else [{} for _ in range(len(table))]}
+
+
+_INFINITIES = (math.inf, -math.inf)
 
 
 def json_document(tables, about: dict) -> dict:

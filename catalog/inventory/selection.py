@@ -69,10 +69,11 @@ def stock_columns(motor, gear, gear_ids, stock):
 
 
 def select_with_stock(motors, gearheads, envelope, stock, mode: str | None = None, top: int | None = None,
-                      motor_notes: dict | None = None, catalog=None):
+                      motor_notes: dict | None = None, catalog=None, every_row: bool = False):
     """:func:`catalog.select.select` with the shelf taken into account; returns a Selection.
 
-    ``gear_available`` is -1 for candidates without a catalogue gearhead.
+    ``gear_available`` is -1 for candidates without a catalogue gearhead.  ``every_row`` as for
+    :func:`~catalog.select.select` (taking the shelf into account reads every row anyway).
     """
     import numpy as np
     import pandas as pd
@@ -82,7 +83,7 @@ def select_with_stock(motors, gearheads, envelope, stock, mode: str | None = Non
     env = load_envelope(envelope)
     mode = stock_mode(env, mode)
     if mode == "ignore":
-        return select(motors, gearheads, env, top=top, motor_notes=motor_notes, catalog=catalog)
+        return select(motors, gearheads, env, top=top, motor_notes=motor_notes, catalog=catalog, every_row=every_row)
     if mode == "only":
         stocked = set(stock["record_id"])
         motors = motors[motors["id"].isin(stocked)]
@@ -91,7 +92,7 @@ def select_with_stock(motors, gearheads, envelope, stock, mode: str | None = Non
             raise InputError("stock = 'only', but no motor of the catalogue is in stock (usable and not "
                              "reserved); `motorshelf stock list` shows the shelf")
         env = dataclasses.replace(env, ratios=[])  # an assumed gear is never on the shelf
-    sel = select(motors, gearheads, env, top=top, motor_notes=motor_notes)
+    sel = select(motors, gearheads, env, top=top, motor_notes=motor_notes, every_row=True)   # the whole table is read
     table = sel.table.reset_index(drop=True)
     cols = stock_columns(table["motor"], table["gear"], gearheads["id"], stock)
     table = pd.concat([table.drop(columns=[c for c in STOCK_COLUMNS if c in table]), cols], axis=1)

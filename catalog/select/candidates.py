@@ -76,7 +76,7 @@ def _prices(frame, env):
     and a price in a currency without a rate becomes NaN with a note.
     """
     price = _col(frame, "price")
-    cur = _col(frame, "currency", object).fillna("").astype(str).to_numpy(dtype=object)
+    cur = _text(frame, "currency")
     note = np.full(len(frame), "", dtype=object)
     if env.currency is None:
         return price, cur, note
@@ -94,16 +94,31 @@ def _col(frame, name, dtype=float):
     return np.full(len(frame), np.nan) if dtype is float else pd.Series([None] * len(frame), dtype=object)
 
 
-def _magnet_coefficients(materials: pd.Series) -> np.ndarray:
+def _magnet_coefficients(materials) -> np.ndarray:
     """β per motor [1/K]: looked up once per distinct material; unknown → conservative."""
-    keys = materials.fillna("unknown").astype(str).str.strip().str.lower()
-    table = {}
-    for key in keys.unique():   # a handful of materials, not one per motor
+    codes, keys = pd.factorize(_normal(materials, missing="unknown"))
+    table = []
+    for key in keys:   # a handful of materials, not one per motor
         try:
-            table[key] = magnet_coefficient(key, missing=CONSERVATIVE_MAGNET_COEFFICIENT)
+            table.append(magnet_coefficient(key, missing=CONSERVATIVE_MAGNET_COEFFICIENT))
         except ValueError:
-            table[key] = CONSERVATIVE_MAGNET_COEFFICIENT
-    return keys.map(table).to_numpy(dtype=float)
+            table.append(CONSERVATIVE_MAGNET_COEFFICIENT)
+    return np.asarray(table, dtype=float)[codes] if len(codes) else np.zeros(0)
+
+
+def _normal(values, missing: str = "") -> np.ndarray:
+    """Texts stripped of surrounding white space and lower-cased, an object array of str (``missing`` for
+    missing values, any other value as ``str``), by the Unicode rules of pandas' string methods (pyarrow's
+    ``utf8_trim_whitespace`` and ``utf8_lower``) without a Series for each step."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    v = np.array(values, dtype=object).reshape(-1)
+    v[pd.isna(v)] = missing
+    odd = np.fromiter((type(x) is not str for x in v), dtype=bool, count=len(v))
+    if odd.any():
+        v[odd] = [str(x) for x in v[odd]]
+    return pc.utf8_lower(pc.utf8_trim_whitespace(pa.array(v, type=pa.string()))).to_numpy(zero_copy_only=False)
 
 
 #: stated basis -> (factor from the stated Ke to the DC-equivalent Ke, factor from the stated Kt to the
@@ -160,8 +175,8 @@ def dc_equivalent_constants(commutation, constant_basis, torque_constant, back_e
     brushless permanent-magnet machines (power balance of a three-phase
     machine, six-step and sinusoidal commutation).
     """
-    com = pd.Series(commutation, dtype=object).fillna("").astype(str).str.strip().str.lower().to_numpy()
-    basis = pd.Series(constant_basis, dtype=object).fillna("").astype(str).str.strip().str.lower().to_numpy()
+    com = _normal(commutation)
+    basis = _normal(constant_basis)
     kt = np.asarray(torque_constant, dtype=float).copy()
     ke = np.asarray(back_emf_constant, dtype=float).copy()
     n = len(kt)
@@ -214,8 +229,7 @@ def no_load_at_winding(commutation) -> np.ndarray:
     friction) and on brushless permanent-magnet machines (core loss in the
     stator).
     """
-    com = pd.Series(commutation, dtype=object).fillna("").astype(str).str.strip().str.lower().to_numpy()
-    return com != "brushless"
+    return _normal(commutation) != "brushless"
 
 
 def _stages(ratio: np.ndarray) -> np.ndarray:
@@ -223,17 +237,37 @@ def _stages(ratio: np.ndarray) -> np.ndarray:
     return np.maximum(1, np.ceil(np.log(ratio) / np.log(7.0) - 1e-9))
 
 
-def _each_mount(gears):
-    """One row per mount a gearhead lists (``'F22; F28'`` fits motors of F22 and of F28)."""
+def _mount_table(motor_mounts, gear_mounts) -> tuple:
+    """(fits, code per motor): ``fits[code, j]`` where gearhead ``j`` lists the mount code (``'F22; F28'``
+    fits motors of F22 and of F28); an empty text on either side matches nothing.  The motors that fit
+    gearhead ``j`` are those whose row of ``fits[code]`` is set there."""
     from ..fields import split_list
 
-    codes = gears["mount"].map(split_list)
-    out = gears.assign(mount=codes).explode("mount").dropna(subset=["mount"])
-    return out.drop_duplicates(["o", "mount"]).astype({"o": np.intp})
+    codes, motor_code = np.unique(np.asarray(motor_mounts, dtype=object).astype(str), return_inverse=True)
+    index = {c: i for i, c in enumerate(codes) if c}
+    fits = np.zeros((len(codes), len(gear_mounts)), dtype=bool)    # mount codes x gearheads (a few of each)
+    for j, text in enumerate(gear_mounts):
+        for code in split_list(text):
+            if code in index:
+                fits[index[code], j] = True
+    return fits, motor_code.reshape(-1)
 
 
 def _text(frame, name) -> np.ndarray:
-    return _col(frame, name, object).fillna("").astype(str).to_numpy(dtype=object)
+    """The column ``name`` of ``frame`` as an object array of str, empty where missing (or absent)."""
+    if name not in frame.columns:
+        return np.full(len(frame), "", dtype=object)
+    return _texts(frame[name].to_numpy(dtype=object))
+
+
+def _texts(values) -> np.ndarray:
+    """An object array of str: missing values (None, NaN, NA) empty, any other value as ``str``."""
+    out = np.asarray(values, dtype=object).copy()
+    out[pd.isna(out)] = ""
+    odd = np.fromiter((type(v) is not str for v in out), dtype=bool, count=len(out))
+    if odd.any():
+        out[odd] = [str(v) for v in out[odd]]
+    return out
 
 
 class Candidates(Mapping):
@@ -289,8 +323,7 @@ class Candidates(Mapping):
         if key in ("mass", "length", "price"):   # an assumed gear adds its estimates (0 without them)
             geared = self.options["kind"][oix] != GEAR_DIRECT
         if key == "id":
-            return (pd.Series(self.motors["id"][mix], dtype=object)
-                    + pd.Series(self.options["suffix"][oix], dtype=object)).to_numpy(dtype=object)
+            return np.asarray(self.motors["id"], dtype=object)[mix] + np.asarray(self.options["suffix"], dtype=object)[oix]
         if key in ("mass", "length", "price"):
             total = self.motors[key][mix] + np.where(geared, self.options[key][oix], 0.0)
             if key == "price":
@@ -347,17 +380,14 @@ class Candidates(Mapping):
         self._cache.pop("motor_note", None)
 
 
-def _refuse_too_many(env, motor_mounts, options: dict, n_motor: int) -> None:
-    """Count the candidates before making any (a catalogue gearhead pairs with the motors of its
-    mount) and refuse more than :data:`MAX_CANDIDATES` with what to change."""
+def _refuse_too_many(env, n_catalogue: int, options: dict, n_motor: int) -> None:
+    """Count the candidates before making any (``n_catalogue`` motor-gearhead pairs of one mount) and
+    refuse more than :data:`MAX_CANDIDATES` with what to change."""
     from ..errors import InputError, Problem
 
     kind = options["kind"]
     direct = n_motor if env.direct else 0
-    cat_mounts = pd.Series(options["mount"][kind == GEAR_CATALOGUE])
-    per_mount = cat_mounts[cat_mounts != ""].value_counts()
-    motor_counts = pd.Series(motor_mounts).value_counts()
-    catalogue = int((per_mount * motor_counts.reindex(per_mount.index).fillna(0)).sum())
+    catalogue = int(n_catalogue)
     assumed = n_motor * int(np.count_nonzero(kind == GEAR_ASSUMED))
     total = direct + catalogue + assumed
     if total > MAX_CANDIDATES:
@@ -391,7 +421,7 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
         _text(m, "commutation"), mv["constant_basis"], mv["torque_constant"], mv["back_emf_constant"])
     mv["back_emf_constant"] = np.where(np.isnan(mv["back_emf_constant"]), mv["torque_constant"],
                                        mv["back_emf_constant"])
-    commutation = pd.Series(_text(m, "commutation")).str.strip().str.lower().to_numpy()
+    commutation = _normal(_text(m, "commutation"))
     mv["no_load_at_winding"] = no_load_at_winding(commutation)
     # the phase current a motor's own peak limit is stated in, per DC-equivalent ampere (line-to-line
     # records: a sinusoidal drive's phase peak is 2/√3 of the DC-equivalent current, a six-step one's
@@ -423,49 +453,54 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
     mv["note"] = np.full(len(m), "", dtype=object)
     n_motor = len(m)
 
-    # the gear-option table: direct, the catalogue gearheads, the assumed ratios
-    opts, pairs = [], []
+    # the gear-option table: direct, the catalogue gearheads, the assumed ratios (columns of arrays)
+    parts = []
     if env.direct:
-        opts.append(pd.DataFrame({"ratio": [1.0], "efficiency": [1.0], "inertia": [0.0], "label": ["direct"],
-                                  "suffix": [""], "kind": [GEAR_DIRECT], "mount": [""]}))
+        parts.append({"ratio": [1.0], "efficiency": [1.0], "inertia": [0.0], "label": ["direct"], "suffix": [""],
+                      "kind": [GEAR_DIRECT], "mount": [""]})
     if env.catalogue_gears and len(gearheads):
         gh = gearheads.reset_index(drop=True)
-        g = pd.DataFrame({c: _col(gh, c) for c in _GEAR})
-        g["inertia"] = g["inertia"].fillna(0.0)
+        g = {c: _col(gh, c) for c in _GEAR}
+        g["inertia"] = np.where(np.isnan(g["inertia"]), 0.0, g["inertia"])
         g["label"] = gh["id"].astype(str).to_numpy(dtype=object)
-        g["suffix"] = ("+" + g["label"]).to_numpy(dtype=object)
-        g["kind"] = GEAR_CATALOGUE
+        g["suffix"] = np.array(["+" + x for x in g["label"]], dtype=object)
+        g["kind"] = np.full(len(gh), GEAR_CATALOGUE)
         g["price"], g["currency"], g["price_note"] = _prices(gh, env)
         g["mount"] = _text(gh, "mount")
-        opts.append(g)
+        parts.append(g)
     if env.ratios:
         ratios = np.asarray(env.ratios, dtype=float)
         stages = np.full(len(ratios), env.stages) if env.stages else _stages(ratios)
         labels = [f"ratio-{r:g}" if r != int(r) else f"ratio-{r:.1f}" for r in ratios]
         est = env.assumed_gear    # estimates (gearing.assumed), else an assumed gear adds nothing
-        opts.append(pd.DataFrame({"ratio": ratios, "efficiency": env.stage_efficiency ** stages,
-                                  "inertia": env.gear_inertia, "label": labels,
-                                  "suffix": ["@" + x for x in labels], "kind": GEAR_ASSUMED, "mount": "",
-                                  "mass": est.get("mass_per_stage", 0.0) * stages,
-                                  "length": est.get("length_per_stage", 0.0) * stages,
-                                  "price": est.get("price", 0.0), "currency": env.currency or ""}))
-    table = pd.concat(opts, ignore_index=True) if opts else pd.DataFrame(columns=["kind"])
-    options = {c: _col(table, c) for c in _GEAR}
+        k = len(ratios)
+        parts.append({"ratio": ratios, "efficiency": env.stage_efficiency ** stages,
+                      "inertia": np.full(k, env.gear_inertia, dtype=float), "label": labels,
+                      "suffix": ["@" + x for x in labels], "kind": np.full(k, GEAR_ASSUMED), "mount": [""] * k,
+                      "mass": est.get("mass_per_stage", 0.0) * stages,
+                      "length": est.get("length_per_stage", 0.0) * stages,
+                      "price": np.full(k, est.get("price", 0.0), dtype=float), "currency": [env.currency or ""] * k})
+    sizes = [len(p["kind"]) for p in parts]
+    options = {c: np.concatenate([np.asarray(p[c], dtype=float) if c in p else np.full(size, np.nan)
+                                  for p, size in zip(parts, sizes)] or [np.zeros(0)]) for c in _GEAR}
     for c in ("label", "suffix", "currency", "price_note", "mount"):
-        options[c] = _text(table, c)
-    options["kind"] = table["kind"].to_numpy(dtype=int) if len(table) else np.zeros(0, dtype=int)
+        options[c] = _texts(np.concatenate([np.asarray(p[c], dtype=object) if c in p else np.full(size, None)
+                                            for p, size in zip(parts, sizes)] or [np.zeros(0, dtype=object)]))
+    options["kind"] = np.concatenate([np.asarray(p["kind"], dtype=int) for p in parts] or [np.zeros(0, dtype=int)])
     kind = options["kind"]
-    _refuse_too_many(env, mv["mount"], options, n_motor)
     motor_rows = np.arange(n_motor)
+    cat_rows = np.flatnonzero(kind == GEAR_CATALOGUE)
+    n_catalogue = 0
+    if len(cat_rows) and n_motor:
+        fits, motor_code = _mount_table(mv["mount"], options["mount"][cat_rows])
+        n_catalogue = int(np.bincount(motor_code, minlength=len(fits)) @ fits.sum(axis=1))
+    _refuse_too_many(env, n_catalogue, options, n_motor)
+    pairs = []
     if env.direct:
         pairs.append((motor_rows, np.zeros(n_motor, dtype=np.intp)))
-    cat_rows = np.flatnonzero(kind == GEAR_CATALOGUE)
-    if len(cat_rows) and n_motor:
-        left = pd.DataFrame({"m": motor_rows, "mount": mv["mount"]})
-        right = _each_mount(pd.DataFrame({"o": cat_rows, "mount": options["mount"][cat_rows]}))
-        both = left[left["mount"] != ""].merge(right[right["mount"] != ""], on="mount").sort_values(
-            ["m", "o"], kind="stable")
-        pairs.append((both["m"].to_numpy(dtype=np.intp), both["o"].to_numpy(dtype=np.intp)))
+    if n_catalogue:   # by motor row, then gearhead row
+        m_at, g_at = np.nonzero(fits[motor_code])
+        pairs.append((m_at.astype(np.intp), cat_rows[g_at].astype(np.intp)))
     ratio_rows = np.flatnonzero(kind == GEAR_ASSUMED)
     if len(ratio_rows) and n_motor:
         pairs.append((np.repeat(motor_rows, len(ratio_rows)), np.tile(ratio_rows, n_motor)))

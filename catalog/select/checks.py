@@ -2,11 +2,17 @@
 
 Every registered check gives a margin per candidate (``*_margin`` columns)
 and a failure mask; a candidate passes when no check fails.  Reason texts are
-built column-wise with pandas string operations, only for the rows asked for.
+built only for the rows asked for, and each check's text only for the rows it
+fails: the check's ``reason`` runs once on those rows (a view of the candidate
+and result columns at them), as whole-column operations on numpy object
+arrays (no loop per candidate; a pandas operation per column would cost more
+than the text itself on a few hundred rows).
 """
 from __future__ import annotations
 
 __all__ = ["CHECKS", "run_checks", "reason_texts", "check_keys", "assumed_gear_note", "estimate_flags"]
+
+from collections.abc import Mapping
 
 import numpy as np
 import pandas as pd
@@ -25,12 +31,12 @@ def run_checks(env, c, r: dict, with_texts: bool = True):
         temperature in K), plus ``smallest_margin``.
     failed : dict
         check key → boolean array (N,), in registry order.
-    texts : DataFrame or None
-        One text column per check key (empty where the check passed); None
+    texts : dict or None
+        check key → (N,) object array of reason texts (empty where the check passed); None
         without ``with_texts`` (the verdicts never depend on the texts, so
         :func:`reason_texts` builds them later for the rows asked for).
-    notes : Series or None
-        The notes of every candidate (with ``with_texts``).
+    notes : ndarray or None
+        The notes of every candidate, (N,) object array (with ``with_texts``).
     """
     n = _size(c)
     x = CheckInputs(env, c, r, n)
@@ -41,7 +47,7 @@ def run_checks(env, c, r: dict, with_texts: bool = True):
         if not check.applies(env):
             fails[check.key] = np.zeros(n, bool)
             if with_texts:
-                texts[check.key] = pd.Series([""] * n, dtype=object)
+                texts[check.key] = np.full(n, "", dtype=object)
             continue
         m = np.asarray(check.compute(x), dtype=float) if check.compute is not None else None
         if check.margin is not None:
@@ -53,15 +59,63 @@ def run_checks(env, c, r: dict, with_texts: bool = True):
             margins[name] = np.asarray(fn(x))
         fail = np.asarray((check.fails or below_required)(x, m), dtype=bool)
         fails[check.key] = np.broadcast_to(fail, (n,)).copy() if fail.shape != (n,) else fail
-        if with_texts:   # built only if a row failed
-            if not fail.any():
-                texts[check.key] = pd.Series([""] * n, dtype=object)
-                continue
-            text = check.reason(x, m)
-            texts[check.key] = pd.Series(text if isinstance(text, pd.Series) else [text] * n).where(
-                pd.Series(fails[check.key]), "")
+        if with_texts:   # built for the failing rows only
+            texts[check.key] = _reason_column(env, c, r, n, check, m, fails[check.key])
     margins["smallest_margin"] = smallest
-    return margins, fails, (pd.DataFrame(texts) if with_texts else None), (_notes(c, env) if with_texts else None)
+    return margins, fails, (texts if with_texts else None), (_notes(c, env) if with_texts else None)
+
+
+class _RowView(Mapping):
+    """The columns of ``base`` (candidate or result columns of ``n`` rows) at the positions ``rows``,
+    each cut on first use; values that are not per-row arrays (scalars, settings) pass unchanged."""
+
+    def __init__(self, base, rows: np.ndarray, n: int):
+        self._base, self._rows, self._n = base, rows, n
+        self._cut: dict = {}
+
+    def __getitem__(self, key):
+        if key not in self._cut:
+            v = self._base[key]
+            if isinstance(v, pd.Series):
+                v = v.iloc[self._rows].reset_index(drop=True)
+            elif isinstance(v, np.ndarray) and v.ndim and len(v) == self._n:
+                v = v[self._rows]
+            self._cut[key] = v
+        return self._cut[key]
+
+    def __iter__(self):
+        return iter(self._base)
+
+    def __len__(self) -> int:
+        return len(self._base)
+
+
+def _reason_column(env, c, r: dict, n: int, check, margin, failed: np.ndarray) -> np.ndarray:
+    """The reason texts of ``check`` (N,) object array: its ``reason`` run on the failing rows only
+    (texts are row-wise, so the same as on the whole table), empty elsewhere."""
+    out = np.full(n, "", dtype=object)
+    rows = np.flatnonzero(failed)
+    if not rows.size:
+        return out
+    x = CheckInputs(env, _RowView(c, rows, n), _RowView(r, rows, n), rows.size)
+    x.check = check
+    m = margin if margin is None or np.ndim(margin) == 0 else np.asarray(margin)[rows]
+    out[rows] = _text_array(check.reason(x, m), rows.size)
+    return out
+
+
+def _text_array(text, n: int) -> np.ndarray:
+    """A reason's result (one text, a Series, an array or a list) as an (n,) object array of str;
+    None and NaN become empty texts."""
+    if isinstance(text, str):
+        return np.full(n, text, dtype=object)
+    values = text.to_numpy(dtype=object) if isinstance(text, pd.Series) else np.asarray(text, dtype=object)
+    values = np.broadcast_to(values, (n,)).copy() if values.shape != (n,) else values
+    odd = np.fromiter((type(v) is not str for v in values), dtype=bool, count=n)
+    if odd.any():
+        values = values.copy()
+        values[odd] = ["" if v is None or (isinstance(v, float) and v != v) else str(v) for v in values[odd]]
+    return values
 
 
 def check_keys(env) -> tuple:
@@ -73,12 +127,16 @@ def check_keys(env) -> tuple:
     return tuple(keys)
 
 
-def reason_texts(env, c: dict, r: dict, rows=None) -> tuple:
+def reason_texts(env, c: dict, r: dict, rows=None, texts: bool = True, notes: bool = True) -> tuple:
     """(failed keys, reasons, notes) as object arrays, for the candidate positions ``rows`` of ``c``
-    and ``r`` (or for all of them when ``c`` and ``r`` already hold just the rows wanted).
+    and ``r`` (or for all of them when ``c`` and ``r`` already hold just the rows wanted); None for
+    the parts not asked for (``texts``: the failed keys and reasons, ``notes``).
 
     The checks are row-wise, so running them on the rows asked for gives the
-    same texts as on the whole table, at the cost of those rows only.
+    same texts as on the whole table, at the cost of those rows only.  Where
+    ``r`` holds the verdicts and margins of :func:`catalog.select.evaluate.checked`
+    (``fails_<check>``, the margin columns), they are taken as they are
+    instead of being computed again.
     """
     if rows is None:
         sub, res = c, r
@@ -88,24 +146,36 @@ def reason_texts(env, c: dict, r: dict, rows=None) -> tuple:
         take = (lambda d: {k: (v[rows] if isinstance(v, np.ndarray) and v.ndim and len(v) == n else v)
                            for k, v in d.items()})
         sub, res = (c.take(rows) if hasattr(c, "take") else take(c)), take(r)
-    _, failed, texts, notes = run_checks(env, sub, res)
-    keys = _join({k: np.where(failed[k], k, "") for k in failed}, ", ")
-    reasons = _join({k: texts[k].to_numpy(dtype=object) for k in texts}, "; ")
-    return keys, reasons, notes.to_numpy(dtype=object)
+    n = _size(sub)
+    keys = reasons = None
+    if texts:
+        if all("fails_" + ch.key in res and (ch.margin is None or ch.margin.column in res) for ch in REGISTRY):
+            failed, text = {}, {}
+            x = CheckInputs(env, sub, res, n)
+            for check in REGISTRY:
+                failed[check.key] = np.asarray(res["fails_" + check.key], dtype=bool)
+                if not failed[check.key].any():
+                    continue
+                x.check = check
+                m = (np.asarray(res[check.margin.column], dtype=float) if check.margin is not None else
+                     np.asarray(check.compute(x), dtype=float) if check.compute is not None else None)
+                text[check.key] = _reason_column(env, sub, res, n, check, m, failed[check.key])
+        else:
+            _, failed, text, _ = run_checks(env, sub, res)
+        keys = _join({k: np.where(failed[k], k, "").astype(object) for k in failed if failed[k].any()}, ", ", n)
+        reasons = _join(text, "; ", n)
+    return keys, reasons, (_notes(sub, env) if notes else None)
 
 
-def _join(columns: dict, sep: str) -> np.ndarray:
-    """Row-wise join of the non-empty strings of several columns, column by column (no row loop)."""
-    out = None
-    for values in columns.values():
-        v = pd.Series(values, dtype=object).fillna("").astype(str)
-        if out is None:
-            out = v
+def _join(columns: dict, sep: str, n: int) -> np.ndarray:
+    """Row-wise join of the non-empty texts of several (n,) object columns of str, column by column (no row loop)."""
+    out = np.full(n, "", dtype=object)
+    for v in columns.values():
+        has = v != ""
+        if not has.any():
             continue
-        both = (out != "") & (v != "")
-        out = out + np.where(both, sep, "") + v
-    n = len(next(iter(columns.values()))) if columns else 0
-    return (out if out is not None else pd.Series([""] * n)).to_numpy(dtype=object)
+        out = np.where(has, out + np.where((out != "") & has, sep, "") + v, out)
+    return out
 
 
 def _size(c) -> int:
@@ -124,22 +194,21 @@ def assumed_gear_note(env) -> str:
             f"{', '.join(est)} include estimates (gearing.assumed)")
 
 
-def _notes(c, env=None):
+def _notes(c, env=None) -> np.ndarray:
+    """The notes of every candidate, "; "-joined (N,) object array."""
     n = _size(c)
-    notes = pd.Series([""] * n)
-    notes = notes.where(~c["speed_from_no_load"], "motor speed limit taken from the no-load speed")
-    assumed = c["kind"] == GEAR_ASSUMED
-    text = assumed_gear_note(env) if env is not None else "assumed gear: ratings, mass, size and price not included"
-    gear_note = pd.Series(np.where(assumed, text, ""))
-    out = notes + np.where((notes != "") & (gear_note != ""), "; ", "") + gear_note
-    extra = pd.Series(c.get("price_note", np.full(n, "", dtype=object)))
-    extra_motor = pd.Series(c.get("motor_note", np.full(n, "", dtype=object)))
-    basis = pd.Series(c.get("basis_note", np.full(n, "", dtype=object)), dtype=object).where(
-        ~pd.Series(c.get("basis_refused", np.zeros(n, bool)), dtype=bool), "")   # refused: the reason says it
-    brush = pd.Series(c.get("brush_note", np.full(n, "", dtype=object)), dtype=object)
-    for more in (basis, brush, extra, extra_motor):
-        out = out + np.where((out != "") & (more != ""), "; ", "") + more
-    return out
+    gear_text = assumed_gear_note(env) if env is not None else \
+        "assumed gear: ratings, mass, size and price not included"
+    basis = _text_array(c.get("basis_note", ""), n)
+    basis = np.where(np.asarray(c.get("basis_refused", np.zeros(n, bool)), dtype=bool), "", basis)  # refused: the reason says it
+    parts = {"speed": np.where(np.asarray(c["speed_from_no_load"], dtype=bool),
+                               "motor speed limit taken from the no-load speed", "").astype(object),
+             "gear": np.where(np.asarray(c["kind"]) == GEAR_ASSUMED, gear_text, "").astype(object),
+             "basis": basis.astype(object),
+             "brush": _text_array(c.get("brush_note", ""), n),
+             "price": _text_array(c.get("price_note", ""), n),
+             "motor": _text_array(c.get("motor_note", ""), n)}
+    return _join(parts, "; ", n)
 
 
 def estimate_flags(env, kind) -> np.ndarray:

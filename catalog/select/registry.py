@@ -136,7 +136,8 @@ class Check:
         ``fails(x, margin) -> bool array (N,)``; default: margin below the
         required margin (NaN never fails).
     reason : callable
-        ``reason(x, margin) -> text Series or str`` for the failed rows.
+        ``reason(x, margin) -> texts (an array or Series) or one str``, run on
+        the failed rows only (``x`` holds just them).
     active : callable, optional
         ``active(env) -> bool``: an inactive check never fails (limits and
         allowed lists the envelope does not set).
@@ -182,23 +183,33 @@ class CheckInputs:
         margin = self.check.margin
         return float(self.env.margins.get(margin.required, 0.0)) if margin and margin.required else 0.0
 
-    def names(self, ix) -> pd.Series:
-        """Segment names at segment indices ``ix``."""
-        return pd.Series(np.asarray(self.env.names, dtype=object)[np.asarray(ix, dtype=int)])
+    def names(self, ix) -> np.ndarray:
+        """Segment names at segment indices ``ix``, an object array of texts."""
+        return np.asarray(self.env.names, dtype=object)[np.asarray(ix, dtype=int)]
 
     @staticmethod
-    def fmt(values, spec: str = "{:.3g}") -> pd.Series:
-        return pd.Series([spec.format(v) for v in np.asarray(values, dtype=float)])
+    def fmt(values, spec: str = "{:.3g}") -> np.ndarray:
+        """``values`` as texts in the format ``spec``, an object array (joins with ``+``); each distinct
+        value (bit pattern: −0 and 0 apart) is formatted once (limits repeat over a motor's gear options)."""
+        v = np.ascontiguousarray(values, dtype=float)
+        if v.size <= 32:
+            return np.array([spec.format(x) for x in v], dtype=object)
+        bits, at = np.unique(v.view(np.int64), return_inverse=True)
+        return np.array([spec.format(x) for x in bits.view(np.float64)], dtype=object)[at.reshape(v.shape)]
 
-    def note(self, margin_value) -> pd.Series:
+    def note(self, margin_value) -> np.ndarray:
         """``, margin 3.2 % < 10 %`` where a required margin was missed while the limit itself was kept."""
         required = self.required()
-        need = required > 0
+        m = np.asarray(margin_value, dtype=float)
+        out = np.full(m.shape, "", dtype=object)
+        shown = np.zeros(m.shape, dtype=bool) if not required > 0 else m >= 0
+        if not shown.any():
+            return out
         if self.check.margin.is_fraction:
-            text = ", margin " + self.fmt(margin_value * 100, "{:.1f}") + " % < " + f"{required * 100:.3g} %"
+            out[shown] = ", margin " + self.fmt(m[shown] * 100, "{:.1f}") + " % < " + f"{required * 100:.3g} %"
         else:
-            text = ", margin " + self.fmt(margin_value, "{:.1f}") + " K < " + f"{required:.3g} K"
-        return text.where(pd.Series(need & (np.asarray(margin_value) >= 0), dtype=bool), "")
+            out[shown] = ", margin " + self.fmt(m[shown], "{:.1f}") + " K < " + f"{required:.3g} K"
+        return out
 
 
 def below_required(x: CheckInputs, margin) -> np.ndarray:
@@ -225,13 +236,13 @@ def _gear_margin(limit_key: str, value: Callable) -> Callable:
     return compute
 
 
-def _missing(x: CheckInputs, names) -> pd.Series:
+def _missing(x: CheckInputs, names) -> np.ndarray:
     """Per row, the words of the candidate columns ``names`` ((key, words) pairs) that are NaN, joined."""
-    out = pd.Series([""] * x.n, dtype=object)
+    out = np.full(x.n, "", dtype=object)
     for key, words in names:
         gap = np.isnan(np.asarray(x.c[key], dtype=float))
         out = out + np.where(gap & (out != ""), ", ", "") + np.where(gap, words, "")
-    return out.replace("", "a constant")
+    return np.where(out == "", "a constant", out).astype(object)
 
 
 def _duty(x: CheckInputs, cycle: str, points: str) -> str:
@@ -243,7 +254,7 @@ REGISTRY: list[Check] = [
     Check("constant_basis", "brushless constants on a basis that cannot be converted to the DC-equivalent model",
           needs=("basis_refused", "basis_note"),
           fails=lambda x, m: np.asarray(x.c["basis_refused"], dtype=bool),
-          reason=lambda x, m: pd.Series(x.c["basis_note"], dtype=object)),
+          reason=lambda x, m: np.asarray(x.c["basis_note"], dtype=object)),
     Check("motor_data", "no motor constants: cannot check voltage",
           needs=("basis_refused", "terminal_resistance", "torque_constant", "rotor_inertia", "friction_torque"),
           fails=lambda x, m: np.isnan(x.r["voltage_margin"]) & ~np.asarray(x.c["basis_refused"], dtype=bool),
@@ -259,7 +270,7 @@ REGISTRY: list[Check] = [
           reason=lambda x, m: (
               "segment " + x.names(x.r["voltage_seg"]) + ": needs " + x.fmt(x.r["voltage_need"], "{:.1f}")
               + " V at " + x.fmt(x.r["voltage_speed"] * RPM, "{:.0f}") + " rpm"
-              + pd.Series(np.where(x.r["voltage_hot"], " (hot)", " (cold)"))
+              + np.where(x.r["voltage_hot"], " (hot)", " (cold)").astype(object)
               + f", has {x.env.available_voltage:.1f} V after the drive drop"
               + x.note(m))),
     Check("peak_current", "a segment needs more current than the drive's peak limit",
@@ -300,11 +311,11 @@ REGISTRY: list[Check] = [
           # a runaway (margin −inf) is the hottest case of all; no thermal data is a check of its own
           fails=lambda x, m: ~x.r["thermal_missing"] & (x.r["runaway"] | (m < x.required())),
           normalise=lambda x, m: m / (x.c["max_winding_temperature"] - x.env.ambient_temperature),
-          reason=lambda x, m: pd.Series(np.where(
+          reason=lambda x, m: np.where(
               x.r["runaway"],
               "thermal runaway: no steady winding temperature at " + x.fmt(x.r["rms_current"]) + " A RMS",
               "winding reaches " + x.fmt(x.r["winding_temperature"] - 273.15, "{:.0f}") + " °C, limit "
-              + x.fmt(x.c["max_winding_temperature"] - 273.15, "{:.0f}") + " °C" + x.note(m)), dtype=object)),
+              + x.fmt(x.c["max_winding_temperature"] - 273.15, "{:.0f}") + " °C" + x.note(m)).astype(object)),
     Check("speed_data", "no motor speed limit: cannot check speed", needs=("max_speed",),
           fails=lambda x, m: np.isnan(x.c["max_speed"]),
           reason=lambda x, m: "no motor speed limit: cannot check speed"),
@@ -372,7 +383,7 @@ def _limit_gaps(x: CheckInputs) -> dict:
 
 def _size_data_text(x: CheckInputs, m):
     gaps = _limit_gaps(x)
-    text = pd.Series([""] * x.n, dtype=object)
+    text = np.full(x.n, "", dtype=object)
     for k, gap in gaps.items():
         text = text + np.where(gap, " " + k, "")
     return "no data for a limit:" + text
@@ -382,8 +393,13 @@ def _allowed(key: str) -> Check:
     """A list of allowed values of the envelope (``constraints.<key>``)."""
     return Check(key, f"{key} not allowed", needs=(key,), active=lambda env: getattr(env, key) is not None,
                  fails=lambda x, m: ~pd.Series(x.c[key]).isin(getattr(x.env, key)).to_numpy(),
-                 reason=lambda x, m: key + " " + pd.Series(x.c[key]).replace("", "unknown")
-                 + f" not in {', '.join(getattr(x.env, key))}")
+                 reason=lambda x, m: key + " " + _or_unknown(x.c[key]) + f" not in {', '.join(getattr(x.env, key))}")
+
+
+def _or_unknown(values) -> np.ndarray:
+    """Texts with ``unknown`` for the empty ones, an object array."""
+    v = np.asarray(values, dtype=object)
+    return np.where(v == "", "unknown", v).astype(object)
 
 
 REGISTRY += [_limit(*spec) for spec in LIMITS]

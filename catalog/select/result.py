@@ -136,19 +136,24 @@ class Selection:
         n = len(table["passed"])
         # rows in display order (passing by rank, then the rest); None: the columns' own order
         self._order = np.arange(n) if order is None else np.asarray(order)
-        self._passing = self._rejected = self._table = None
+        self._passing = self._rejected = self._table = self._rejected_columns = None
         self._passed = np.asarray(table["passed"], dtype=bool)
         self._n_pass = int(self._passed.sum())
         shown = self._order[self._passed[self._order]]
-        self.shortlist = self._rows(shown[:top])[shortlist_columns() + list(extra_columns)].reset_index(drop=True)
+        self.shortlist = self._rows(shown[:top], shortlist_columns() + list(extra_columns))
 
-    def _rows(self, rows) -> pd.DataFrame:
-        """The rows at positions ``rows`` as a DataFrame, with the text columns (built only for them)."""
+    def _rows(self, rows, columns=None) -> pd.DataFrame:
+        """The rows at positions ``rows`` as a DataFrame, with the text columns (built only for them);
+        ``columns``: only these, in this order."""
+        return pd.DataFrame(self._arrays(rows, columns))
+
+    def _arrays(self, rows, columns=None) -> dict:
+        """:meth:`_rows` as column -> array (texts as object arrays), before any DataFrame is made."""
         rows = np.asarray(rows, dtype=np.intp)
         data = {k: np.asarray(v)[rows] for k, v in self._cols.items()}
         if self._lazy is not None:
-            data.update(self._lazy(rows))
-        return pd.DataFrame(data)
+            data.update(self._lazy(rows, columns))
+        return data if columns is None else {k: data[k] for k in columns}
 
     @property
     def table(self) -> pd.DataFrame:
@@ -173,10 +178,19 @@ class Selection:
     def rejected(self) -> pd.DataFrame:
         """Every failing candidate with its failed checks and their numbers (texts built on first access)."""
         if self._rejected is None:
-            failing = self._order[~self._passed[self._order]]
-            self._rejected = self._rows(failing)[
-                ["candidate", "motor", "gear", *PART_COLUMNS, "ratio", "failed", "reasons"]].reset_index(drop=True)
+            self._rejected = pd.DataFrame(self.rejected_columns())
         return self._rejected
+
+    def rejected_columns(self) -> dict:
+        """The columns of :attr:`rejected` as numpy arrays (the texts as object arrays of str, NaN where a
+        maker or part number is missing), built once: an export that only reads the values spares
+        the DataFrame (and the conversion of every text to and from pandas' string type).  The arrays
+        are the selection's own: read them, do not change them."""
+        if self._rejected_columns is None:
+            failing = self._order[~self._passed[self._order]]
+            self._rejected_columns = self._arrays(failing, ["candidate", "motor", "gear", *PART_COLUMNS, "ratio",
+                                                            "failed", "reasons"])
+        return dict(self._rejected_columns)
 
     @property
     def counts(self) -> tuple[int, int]:
@@ -216,10 +230,12 @@ class Selection:
     def reason_counts(self) -> pd.Series:
         """Number of rejected candidates failing each check, most frequent first."""
         rej = ~self._passed
-        counts = pd.Series([int(np.count_nonzero(np.asarray(self._cols["fails_" + k], dtype=bool) & rej))
-                            for k in CHECKS], dtype=int)
-        counts.index = list(CHECKS)
-        return counts[counts > 0].sort_values(ascending=False, kind="stable")
+        keys = list(CHECKS)
+        counts = np.array([np.count_nonzero(np.asarray(self._cols["fails_" + k], dtype=bool) & rej) for k in keys],
+                          dtype=int)
+        kept = np.flatnonzero(counts > 0)
+        kept = kept[np.argsort(-counts[kept], kind="stable")]     # most frequent first, ties in registry order
+        return pd.Series(counts[kept], index=[keys[i] for i in kept], dtype=int)
 
     def explain(self, candidate_id: str) -> str:
         """The whole story of one candidate: every segment and every margin, as text."""
@@ -317,8 +333,15 @@ def _corner_lines(env, d: dict) -> list:
     return [f"  tolerance corner {label}: {', '.join(keys)}" for label, keys in groups.items()]
 
 
+#: A selection asked to read every row (``select(..., every_row=True)``) evaluates them all at once up to
+#: this many candidates (about 60 numbers each, 25 MB, are kept with it); beyond, it decides the verdicts
+#: first as always.
+EVERY_ROW_MAX = 50_000
+
+
 def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | None = None,
-           motor_notes: dict | None = None, catalog=None, misses: int | None = None) -> Selection:
+           motor_notes: dict | None = None, catalog=None, misses: int | None = None,
+           every_row: bool = False) -> Selection:
     """Evaluate every motor × gear option against a load envelope.
 
     Parameters
@@ -337,6 +360,13 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     misses : int, optional
         Also list this many closest misses (``Selection.misses()``); without it
         they are listed only when nothing passes.
+    every_row : bool
+        The caller will read every candidate (an export with the rejected
+        candidates, the whole ``table``): with at most :data:`EVERY_ROW_MAX`
+        candidates, every row is evaluated in full once, now, and the rows
+        read later are taken from it, instead of deciding the verdicts first
+        (the temperature brackets) and evaluating the rows read again.  The
+        same function gives the same numbers and verdicts either way.
 
     Returns
     -------
@@ -355,7 +385,12 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     n = cand.size
     rank_cols = [k.lstrip("-") for k in list(env.rank_keys) + list(env.pareto or [])]
     from_cand = {"mass", "price", "length", "diameter", "ratio"}
-    res = evaluate_all(env, cand, energy=with_energy, keep=[k for k in rank_cols if k not in from_cand]) if n else {}
+    eval_keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
+    whole = bool(every_row) and 0 < n <= EVERY_ROW_MAX   # every row evaluated once, in full
+    if whole:
+        res = checked_in_chunks(env, cand.take(slice(None), eval_keys))
+    else:
+        res = evaluate_all(env, cand, energy=with_energy, keep=[k for k in rank_cols if k not in from_cand]) if n else {}
     table = {"passed": res["passed"] if n else np.zeros(0, bool)}
     for k in CHECKS:
         table["fails_" + k] = res["fails_" + k] if n else np.zeros(0, bool)
@@ -367,19 +402,21 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     order, rank, pareto = _rank(table["passed"], env, fetch)
     lazy = None
     if n:
-        parts = _part_names(motors, gearheads)
-        keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
+        parts = _part_names(motors, gearheads, cand)
 
-        def lazy(at):
+        def lazy(at, columns=None):
             """Every column of the candidates at positions ``at``: the evaluation and checks run again on
-            these rows (the same arithmetic as for the verdicts), then their texts."""
+            these rows (the same arithmetic as for the verdicts; taken from the whole evaluation when
+            there is one), then their texts (those of ``columns`` only, when given)."""
             c = cand.take(at)
-            r = checked_in_chunks(env, {k: c[k] for k in keys})
+            r = {k: v[at] for k, v in res.items()} if whole else checked_in_chunks(env, {k: c[k] for k in eval_keys})
+            want = (lambda k: True) if columns is None else set(columns).__contains__
             with np.errstate(all="ignore"):   # extreme values overflow to inf in the texts' numbers
-                failed, reasons, notes = reason_texts(env, c, r)
+                failed, reasons, notes = reason_texts(env, c, r, texts=want("failed") or want("reasons"),
+                                                      notes=want("notes"))
             out = {"rank": rank[at], "candidate": c["id"], "motor": c["motor"], "gear": c["gear"], "ratio": c["ratio"]}
-            for column, source in parts:
-                out[column] = pd.Series(c[source], dtype=object).map(parts[(column, source)]).to_numpy(dtype=object)
+            for (column, source), by_row in parts.items():   # per motor or gear-option row, then per candidate
+                out[column] = by_row[cand.motor_ix[at] if source == "motor" else cand.option_ix[at]]
             out["worst_segment"] = np.asarray(env.names, dtype=object)[r["worst_seg"]] if len(at) else []
             for k in margin_columns() + list(value_columns()) + METRIC_COLUMNS:
                 out[k] = r[k]
@@ -397,16 +434,33 @@ def select(motors: pd.DataFrame, gearheads: pd.DataFrame, envelope, top: int | N
     return sel
 
 
-def _part_names(motors, gearheads) -> dict:
-    """(column, candidate key) -> {record id: text}: makers and part numbers to order by."""
+def _part_names(motors, gearheads, cand) -> dict:
+    """(column, candidate key) -> object array of makers or part numbers to order by, one per motor row
+    (key ``motor``) or gear-option row (key ``gear``) of ``cand``; NaN where the option is no gearhead."""
     out = {}
-    for frame, key, prefix in ((motors, "motor", ""), (gearheads, "gear", "gear_")):
+    for frame, key, prefix, ids in ((motors, "motor", "", cand.motors["id"]),
+                                    (gearheads, "gear", "gear_", cand.options["label"])):
         if frame is None or not len(frame) or "id" not in frame:
             frame = pd.DataFrame(columns=["id"])
-        ids = frame["id"].astype(str)
+        at = _positions(frame["id"].astype(str).to_numpy(dtype=object), np.asarray(ids, dtype=object))
         for field in ("manufacturer", "part_number"):
-            out[(prefix + field, key)] = dict(zip(ids, frame[field])) if field in frame else {}
+            values = frame[field].to_numpy(dtype=object) if field in frame else np.zeros(0, dtype=object)
+            found = (at >= 0) & (at < len(values))
+            by_row = np.full(len(at), np.nan, dtype=object)
+            by_row[found] = values[at[found]]
+            out[(prefix + field, key)] = by_row
     return out
+
+
+def _positions(frame_ids: np.ndarray, ids: np.ndarray) -> np.ndarray:
+    """Row of ``frame_ids`` holding each of ``ids`` (−1: none; an id given twice: its last row, as a dict
+    would); the candidates' motors are the frame's rows in order, found without an index."""
+    if len(frame_ids) == len(ids) and np.array_equal(frame_ids, ids) and pd.Index(frame_ids).is_unique:
+        return np.arange(len(ids))
+    index = pd.Index(frame_ids)
+    last = ~index.duplicated(keep="last")
+    at = index[last].get_indexer(pd.Index(ids))
+    return np.where(at >= 0, np.flatnonzero(last)[np.maximum(at, 0)] if last.any() else -1, -1)
 
 
 def _rank(passed: np.ndarray, env, fetch) -> tuple:

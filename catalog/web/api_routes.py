@@ -24,7 +24,7 @@ from starlette.routing import Route
 
 from .. import __version__
 from ..errors import InputError, Problem
-from .common import catalog_of, in_thread, person_of
+from .common import catalog_of, in_thread, missing, person_of
 
 #: verb of the URL → Catalog method (the shelf's movements; ``history`` etc. are reads).
 STOCK_VERBS = {"receive": "stock_receive", "take": "stock_take", "return": "stock_return",
@@ -148,7 +148,9 @@ async def record(request):
 
     cat = catalog_of(request)
     rid = request.path_params["record_id"]
-    rtype, maker, part, values = await in_thread(cat.record, rid)
+    view = await in_thread(cat.show, rid, "si")
+    rtype, maker, part = view.record_type, view.manufacturer, view.part_number
+    values = view.values[view.values["origin"].notna()]     # the fields with a stored value
     flags = await in_thread(cat.check, None, rid)
     stock = await in_thread(cat.stock_list, None, rid)
     fields = fields_for(rtype)
@@ -160,9 +162,8 @@ async def record(request):
                     "text": _clean(row.value_text), "raw_text": _clean(row.raw_text), "raw_unit": _clean(row.raw_unit),
                     "origin": row.origin, "relation": _clean(row.relation), "inputs": _clean(row.inputs),
                     "source_file": _clean(row.source_file),
-                    "source_row": None if row.source_row is None or row.source_row != row.source_row
-                    else int(row.source_row),
-                    "batch_id": _clean(row.batch_id)})
+                    "source_row": None if missing(row.source_row) else int(row.source_row),
+                    "batch_id": None if missing(row.batch_id) else int(row.batch_id)})
     order = {name: i for i, name in enumerate(fields)}
     out.sort(key=lambda v: order.get(v["field"], len(order)))
     return json_response({"id": rid, "record_type": rtype, "manufacturer": maker, "part_number": part, "values": out,
@@ -189,8 +190,9 @@ def selection_document(cat, sel) -> bytes:
     return json.dumps(document(sel, "si", cat), ensure_ascii=False).encode("utf-8")
 
 
-def run_envelope(cat, data: bytes, source: str, top=None, stock=None):
-    """Validate the envelope text ``data`` (named ``source`` in messages) and select."""
+def run_envelope(cat, data: bytes, source: str, top=None, stock=None, every_row: bool = False):
+    """Validate the envelope text ``data`` (named ``source`` in messages) and select (``every_row``: the
+    caller reads every candidate, see :func:`catalog.select.select`)."""
     import tempfile
     from pathlib import Path
 
@@ -200,7 +202,7 @@ def run_envelope(cat, data: bytes, source: str, top=None, stock=None):
         path = Path(d) / "envelope.toml"
         path.write_bytes(data)
         env = load_envelope(path, source=source)   # the CLI's checks and lines, named after the upload
-    return cat.select(env, top=top, stock=stock)
+    return cat.select(env, top=top, stock=stock, every_row=every_row)
 
 
 async def select(request):
@@ -247,7 +249,7 @@ async def select(request):
     cat = catalog_of(request)
 
     def work():
-        sel = run_envelope(cat, data, "envelope.toml", top, stock)
+        sel = run_envelope(cat, data, "envelope.toml", top, stock, every_row=True)   # the document holds every candidate
         return selection_document(cat, sel)
 
     body = await in_thread(work)

@@ -2,7 +2,7 @@
 from __future__ import annotations
 
 __all__ = ["templates", "render", "catalog_of", "problem_lines", "error_payload", "read_form", "person_of",
-           "fmt", "PRESETS", "preset_of", "in_thread", "MAX_FORM_FILES"]
+           "fmt", "missing", "PRESETS", "preset_of", "in_thread", "MAX_FORM_FILES"]
 
 import math
 from pathlib import Path
@@ -34,6 +34,16 @@ def fmt(value, digits: int = 4) -> str:
     if 10 ** (digits - 1) <= a < 1e9:
         return f"{v:.0f}"
     return f"{v:.{digits}g}"
+
+
+def missing(value) -> bool:
+    """None, NaN, NaT or pandas' NA: a cell without a value."""
+    if value is None:
+        return True
+    try:
+        return bool(value != value)
+    except (TypeError, ValueError):   # pandas' NA answers a comparison with NA
+        return True
 
 
 def txt(value) -> str:

@@ -17,7 +17,7 @@ from starlette.responses import RedirectResponse, Response
 from starlette.routing import Route
 
 from ..errors import InputError
-from .common import catalog_of, in_thread, preset_of, problem_lines, read_form, render
+from .common import catalog_of, in_thread, missing, preset_of, problem_lines, read_form, render
 from .security import AUTH_COOKIE, PERSON_COOKIE, session_value
 
 #: Query parameters of the catalogue page that are not filters.
@@ -169,8 +169,7 @@ def _origin_text(row) -> str:
     unit = row.raw_unit if isinstance(row.raw_unit, str) and row.raw_unit and row.raw_unit not in raw else ""
     where = ""
     if isinstance(row.source_file, str) and row.source_file:
-        where = f"{row.source_file}:{int(row.source_row)}" if row.source_row == row.source_row and \
-            row.source_row is not None else row.source_file
+        where = row.source_file if missing(row.source_row) else f"{row.source_file}:{int(row.source_row)}"
     return f"given: {raw!r}" + (f" [{unit}]" if unit else "") + (f" ({where})" if where else "")
 
 
@@ -181,7 +180,9 @@ async def record_page(request):
     cat = catalog_of(request)
     rid = request.path_params["record_id"]
     preset = preset_of(request)
-    rtype, maker, part, values = await in_thread(cat.record, rid)
+    view = await in_thread(cat.show, rid, "si")
+    rtype, maker, part = view.record_type, view.manufacturer, view.part_number
+    values = view.values[view.values["origin"].notna()]     # the fields with a stored value
     flags = await in_thread(cat.check, None, rid)
     stock = await in_thread(cat.stock_list, None, rid, True)
     movements = await in_thread(cat.stock_history, rid)

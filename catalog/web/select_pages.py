@@ -101,7 +101,7 @@ def _run(request):
 
 
 async def result_page(request):
-    from ..cli.select_cmd import display_shortlist
+    from ..present import display_shortlist
     from ..export.selection import CAUTION, caution_lines
     from ..select.registry import CHECKS
 

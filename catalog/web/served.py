@@ -41,6 +41,10 @@ from ..store import Store
 #: A queue of writes keeps the file open for at most this many writes, or this long [s].
 LINGER_WRITES = 16
 LINGER_SECONDS = 1.0
+#: The provenance (stored values) of at most this many records is kept between requests.
+KEEP_RECORDS = 5000
+#: ... and the answers for at most this many sets of records.
+KEEP_SETS = 64
 
 
 def _faults() -> tuple:
@@ -268,6 +272,12 @@ class ServedStore(Store):
         return (st.st_ino, st.st_size, st.st_mtime_ns, head, wal_sig)
 
 
+def _handed_out(kept):
+    """A kept :class:`~catalog.api.Provenance` as handed to a caller: its own shallow copy of the frame
+    (copy-on-write: a column the caller adds stays in its copy) and of the types."""
+    return type(kept)(kept.values.copy(deep=False), dict(kept.record_types))
+
+
 class ServedCatalog(Catalog):
     """A :class:`Catalog` for the server: :class:`ServedStore`, and the whole-catalogue frames
     kept while the file is unchanged.
@@ -302,6 +312,59 @@ class ServedCatalog(Catalog):
             with self._kept_lock:
                 self._kept[key] = (sig, value)
         return value
+
+    def provenance(self, record_ids):
+        """:meth:`Catalog.provenance`, kept while the file is unchanged: each record's rows (at most
+        :data:`KEEP_RECORDS` records; a selection's shortlist mostly names records read before) and the
+        answers of the latest :data:`KEEP_SETS` sets of records asked for (the same shortlist again)."""
+        import numpy as np
+        import pandas as pd
+
+        from ..api import PROVENANCE_COLUMNS, Provenance
+
+        ids = tuple(sorted({str(i) for i in record_ids}))
+        sig = self.store.signature()
+        with self._kept_lock:
+            kept = self._kept.get("provenance")
+            if kept is None or sig is None or kept[0] != sig:
+                kept = (sig, {}, {})
+            _, known, sets = kept
+            if ids in sets:
+                return _handed_out(sets[ids])
+            missing = [i for i in ids if i not in known]
+        fresh = {}
+        if missing:
+            read = super().provenance(missing)
+            values = read.values
+            rid = values["record_id"].to_numpy(dtype=object)
+            starts = np.flatnonzero(np.r_[True, rid[1:] != rid[:-1]]) if len(values) else np.zeros(0, dtype=int)
+            bounds = dict(zip(rid[starts], zip(starts, np.r_[starts[1:], len(values)])))
+            for r in missing:   # the records asked for (a few dozen), not the catalogue's rows
+                lo, hi = bounds.get(r, (0, 0))
+                fresh[r] = (values.iloc[lo:hi], read.record_types.get(r))
+        rows = {**known, **fresh}
+        parts = [rows[i] for i in ids if rows[i][1] is not None]
+        if not parts:
+            answer = Provenance(pd.DataFrame(columns=list(PROVENANCE_COLUMNS)), {})
+        else:
+            values = pd.concat([p[0] for p in parts], ignore_index=True) if len(parts) > 1 else \
+                parts[0][0].reset_index(drop=True)
+            answer = Provenance(values, {i: rows[i][1] for i in ids if rows[i][1] is not None})
+        if sig is not None and self.store.signature() == sig:
+            with self._kept_lock:
+                current = self._kept.get("provenance")
+                if current is not None and current[0] == sig:
+                    known, sets = current[1], current[2]
+                else:
+                    known, sets = {}, {}
+                if len(known) + len(fresh) > KEEP_RECORDS:
+                    known = {}
+                known.update(fresh)
+                if len(sets) >= KEEP_SETS:
+                    sets.pop(next(iter(sets)))      # the oldest set first
+                sets[ids] = answer
+                self._kept["provenance"] = (sig, known, sets)
+        return _handed_out(answer)
 
     def motors(self):
         return self._keep("motors", super().motors).copy(deep=False)

@@ -98,6 +98,30 @@ def test_runaway_is_found_and_rows_do_not_depend_on_each_other():
         assert alone.peak[0] == together.peak[i]
 
 
+def test_a_large_batch_of_mixed_rows_gives_each_row_what_it_gets_alone():
+    # Rows needing one step per segment and rows needing many, of several patterns (the solver groups
+    # them onto shared grids of steps; a row's padding steps have zero duration), each equal to its
+    # own solution to the last bit: batching is work, never a change of the result.
+    rng = np.random.default_rng(23)
+    durations = np.array([2.0, 40.0, 0.5, 300.0, 12.0])
+    n = 120
+    losses = rng.uniform(0.0, 4.0, (5, n)) * rng.choice([1.0, 2.0, 5.0], size=n)
+    losses[rng.integers(0, 5, n), np.arange(n)] *= rng.choice([1.0, 5.0, 20.0], size=n)   # one hot segment
+    friction = rng.uniform(0.0, 3.0, n)
+    kwargs = dict(no_load_loss_start=np.outer(np.linspace(0, 1, 5), friction),
+                  no_load_loss_end=np.outer(np.linspace(1, 0, 5), friction),
+                  no_load_at_winding=rng.random(n) < 0.5)
+    rth1, rth2, cw, ch = (rng.uniform(lo, hi, n) for lo, hi in ((0.5, 4.0), (2.0, 9.0), (1.0, 40.0), (20.0, 900.0)))
+    together = ph.hot_network_rise(durations, losses, COPPER, -0.0012, rth1, rth2, cw, ch, True, **kwargs)
+    assert np.any(together.runaway) and not np.all(together.runaway)
+    for i in range(n):
+        alone = ph.hot_network_rise(durations, losses[:, i:i + 1], COPPER, -0.0012, rth1[i], rth2[i], cw[i], ch[i],
+                                    True, kwargs["no_load_loss_start"][:, i:i + 1], kwargs["no_load_loss_end"][:, i:i + 1],
+                                    kwargs["no_load_at_winding"][i])
+        assert alone.peak[0] == together.peak[i] or (np.isnan(alone.peak[0]) and np.isnan(together.peak[i]))
+        assert np.array_equal(alone.segment_mean[:, 0], together.segment_mean[:, i], equal_nan=True)
+
+
 @pytest.mark.parametrize("periodic", [True, False])
 def test_without_a_magnet_coefficient_it_is_the_fixed_current_network(periodic):
     # Source: catalog/physics/transient.py, an independent closed form of the network with R(θ) at a

@@ -153,3 +153,76 @@ def test_a_queue_of_writes_shares_one_opening(demo_db):
                           capture_output=True, text=True, timeout=300)
     assert done.returncode == 0, done.stderr
     assert movement_total(catalog.open(demo_db).path) == before - 9
+
+
+# -- what a selection answers follows every change the server makes ---------------------------------------
+def _select(client, name="lift_axis", **params):
+    from webhelp import QUERIES
+
+    r = client.post("/api/select", params=params, content=(QUERIES / f"{name}.toml").read_bytes(),
+                    headers={"Content-Type": "application/toml"})
+    assert r.status_code == 200, r.text[:500]
+    return r.json()
+
+
+def _provenance(doc, record_id, field):
+    return [row for row in doc["tables"]["provenance"]["records"]
+            if row["record_id"] == record_id and row["field"] == field]
+
+
+def test_a_selection_follows_an_import_through_the_server(client, demo_db, tmp_path):
+    """A shortlisted motor re-imported through the import page at a lower price: the next selection
+    ranks it first by that price and its provenance shows the new value and file (the server's kept
+    frames and provenance, both read for the first selection, are dropped after its own write)."""
+    import csv
+    import io
+
+    import catalog
+    from test_pages import _upload, _wait
+
+    before = _select(client)
+    top = before["records"][0]["motor"]
+    other = next(rec["motor"] for rec in before["records"] if rec["motor"] != top)
+    old = _provenance(before, other, "price")[0]
+    assert old["value_si"] > 1 and "repriced.csv" not in (old["source"] or "")
+    exported = tmp_path / "other.csv"
+    catalog.open(demo_db).export("motors", exported, where="id = $id", params={"id": other}, units="si")
+    rows = list(csv.DictReader(io.StringIO(exported.read_text(encoding="utf-8"))))
+    # the export heads plain numbers "[1]" and the price by its currency; the import takes them bare
+    rows = [{k.split(" [")[0] if k.startswith("price") or k.endswith(" [1]") else k: v for k, v in row.items()}
+            for row in rows]
+    rows[0]["price"] = "1"
+    out = io.StringIO()
+    writer = csv.DictWriter(out, fieldnames=list(rows[0]))
+    writer.writeheader()
+    writer.writerows(rows)
+    r = _upload(client, [("repriced.csv", out.getvalue())], action="import")
+    assert r.status_code == 303
+    page = _wait(client, r.headers["location"])
+    assert "done" in page and "0 record(s) created, 1 updated" in page, page[-3000:]
+    after = _select(client)
+    assert after["records"][0]["motor"] == other and after["records"][0]["price"] == 1
+    new = _provenance(after, other, "price")[0]
+    assert new["value_si"] == 1 and new["source"].endswith("repriced.csv:2")   # the upload as the server kept it
+    assert after["about"]["candidates"] == before["about"]["candidates"]
+
+
+def test_a_selection_from_the_shelf_follows_a_movement_through_the_api(client):
+    """stock = only: a motor received through the API becomes a candidate of the next selection (the
+    water pump is driven directly), and is gone again once every piece is taken."""
+    before = _select(client, "water_pump", stock="only")
+    ids = {rec["candidate"] for rec in before["records"]} | {
+        rec["candidate"] for rec in before["tables"]["rejected"]["records"]}
+    new = "vaskeline-vk-c3250-24"
+    assert new not in ids
+    item = {"record_id": new, "location": "Bench / new", "condition": "new", "person": "Test"}
+    r = client.post("/api/stock/receive", json={**item, "quantity": 2})
+    assert r.status_code == 200, r.text
+    received = _select(client, "water_pump", stock="only")
+    ids = {rec["candidate"] for rec in received["records"]} | {
+        rec["candidate"] for rec in received["tables"]["rejected"]["records"]}
+    assert new in ids
+    assert received["about"]["candidates"] > before["about"]["candidates"]
+    r = client.post("/api/stock/take", json={**item, "quantity": 2, "project": "test"})
+    assert r.status_code == 200, r.text
+    assert _select(client, "water_pump", stock="only")["about"]["candidates"] == before["about"]["candidates"]
