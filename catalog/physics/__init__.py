@@ -19,6 +19,7 @@ thermal          two-node thermal network: steady state, closed forms
 transient        two-node network: exact transient and periodic duty
 network          two-node network under a loss profile; the hot fixed point
 hot_network      two-node network with the losses following the winding temperature, exact
+step_groups      batches of rows for hot_network's shared grids of steps
 gearing          speed, torque and inertia through a gearhead
 mechanism        screws, belts, racks, drums, wheels, rotary loads; move profiles
 cycle            RMS, mean and energy over duty-cycle segments

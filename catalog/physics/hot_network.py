@@ -46,6 +46,8 @@ from typing import NamedTuple
 
 import numpy as np
 
+from .step_groups import step_groups
+
 __all__ = ["HotNetworkSolution", "hot_network_rise"]
 
 _MAX_ITERATIONS = 40
@@ -53,9 +55,6 @@ _STEP_ERROR = 2e-3          # [K] allowed tangent error per result (the tangent 
 _MAX_STEPS = 64             # steps per segment at most
 _LARGEST_RISE = 5000.0      # [K] beyond this (or where Kt vanishes) the winding runs away
 _EXPONENT_CAP = 700.0
-_GROUP = 512                # rows solved on one grid of steps at most
-_GROUP_SINGLE = 4096        # rows of one step per segment solved together at most
-_GROUP_COST = 2000          # [row-steps] what one more group costs beside its rows' steps (a few ms)
 
 
 class HotNetworkSolution(NamedTuple):
@@ -289,44 +288,6 @@ def _step_counts(d, out_w, seg_end, a, b, peak):
     return np.nan_to_num(np.array(counts), nan=1.0).astype(int)
 
 
-def _groups(steps) -> list:
-    """The rows (columns of ``steps``, steps per segment (S, n)) in groups solved on one grid of steps each.
-
-    A group's grid has, per segment, the most steps of its rows: the others step by zero durations
-    there (exact identities), so a row's result never depends on its group, only the work does.  Rows
-    of one step per segment go together (no padding, so in larger groups); the others are gathered by their pattern of steps (per
-    segment, rounded up to a power of two) and patterns are merged, fewest steps first, while the
-    padded work of the merged group stays within twice its rows' own steps plus the cost of a group.
-    """
-    fine = np.any(steps > 1, axis=0)
-    single = np.flatnonzero(~fine)
-    out = [g for g in np.array_split(single, max(1, -(-single.size // _GROUP_SINGLE))) if g.size]
-    idx = np.flatnonzero(fine)
-    if not idx.size:
-        return out
-    level = np.ceil(np.log2(steps[:, idx])).astype(int)             # (S, k): 1, 2, 3-4, 5-8, ... steps
-    patterns, which = np.unique(level.T, axis=0, return_inverse=True)
-    which = which.reshape(-1)
-    order = np.argsort(which, kind="stable")
-    cuts = np.searchsorted(which[order], np.arange(len(patterns) + 1))
-    members = [idx[order[cuts[p]:cuts[p + 1]]] for p in range(len(patterns))]
-    own = [int(steps[:, m].sum()) for m in members]
-    top = [steps[:, m].max(axis=1) for m in members]
-    fine_groups, current, cur_top, cur_own = [], [], None, 0
-    for p in np.argsort([t.sum() for t in top], kind="stable"):    # a loop over patterns, not rows
-        if current:
-            merged = np.maximum(cur_top, top[p])
-            rows = sum(len(m) for m in current) + len(members[p])
-            if rows <= _GROUP and rows * merged.sum() <= 2 * (cur_own + own[p]) + _GROUP_COST:
-                current.append(members[p])
-                cur_top, cur_own = merged, cur_own + own[p]
-                continue
-            fine_groups.append(np.concatenate(current))
-        current, cur_top, cur_own = [members[p]], top[p], own[p]
-    fine_groups.append(np.concatenate(current))
-    return out + [g for big in fine_groups for g in np.array_split(big, max(1, -(-big.size // _GROUP)))]
-
-
 def _finish(rows, steps, coarse_w, wild, run, d, c, a, b, p0, p1, at_w, r1, r2, cw, ch, periodic, cap,
             peak, runaway, mean):
     """Newton on the finer steps of ``rows`` (from their coarse trajectory), then the peak (with the
@@ -490,7 +451,7 @@ def _hot_network_rise(durations, copper_loss, resistance_rise_coefficient, torqu
     steps = _step_counts(d, coarse_w, np.arange(1, n_seg + 1), a[rows], b[rows], coarse_w.max(axis=0))
     steps[:, wild] = 1
     # rows of alike step counts together (every row of a group takes the group's most steps per segment)
-    for group in _groups(steps):
+    for group in step_groups(steps):
         _finish(rows[group], steps[:, group], coarse_w[:, group], wild[group], run, d, c, a, b, p0, p1, at_w,
                 r1, r2, cw, ch, periodic, cap, peak, runaway, mean)
     return HotNetworkSolution(peak.reshape(batch), runaway.reshape(batch), mean.reshape((n_seg,) + batch),
