@@ -211,6 +211,7 @@ async def record_page(request):
         "rid": rid, "rtype": rtype, "maker": maker, "part": part, "values": out, "flags": [str(f) for f in flags],
         "stock": stock.to_dict("records"), "movements": movements.to_dict("records"),
         "history": changed.to_dict("records"), "record_info": history.attrs.get("record", {}),
+        "basis_note": view.basis_note,
     })
 
 

@@ -83,6 +83,14 @@ def test_record_diagram_and_its_errors(client):
     assert client.get("/records/no-such/diagram.svg").status_code == 404
 
 
+def test_record_page_says_how_the_selection_reads_brushless_constants(client):
+    # the same line as `motorshelf show` (RecordView.basis_note); a brushed record has none
+    r = client.get("/records/vaskeline-vk-bi4260-36")
+    assert r.status_code == 200
+    assert "Selection reads the constants: brushless constants stated DC-equivalent" in r.text
+    assert "Selection reads the constants" not in client.get("/records/vaskeline-vk-c2232-24").text
+
+
 def test_record_unknown(client):
     r = client.get("/records/sorvanto-00341-07")
     assert r.status_code == 404 and "no record with id" in r.text and 'href="/records/sorvanto-00341-06"' in r.text
