@@ -27,6 +27,8 @@ OTHER_QUANTITIES = (
     ("P0(t0)", "no_load_loss_start", "W",
      "no-load loss (friction and iron, Kt·I0·ω) at each segment's start; independent of the winding temperature"),
     ("P0(t1)", "no_load_loss_end", "W", "the same at each segment's end (it ramps linearly between)"),
+    ("P(t0)", "loss_start", "W", "loss at each segment's start, independent of the temperatures"),
+    ("P(t1)", "loss_end", "W", "the same at each segment's end (it ramps linearly between)"),
     ("θ0", "start_rise", "K", "winding rise at which an iteration starts (a guess of the solution)"),
     ("P", "power", "W", "power of each segment (energy per cycle)"),
     ("Tw", "winding_temperature", "K", "mean winding temperature"),

@@ -19,6 +19,8 @@ thermal          two-node thermal network: steady state, closed forms
 transient        two-node network: exact transient and periodic duty
 network          two-node network under a loss profile; the hot fixed point
 hot_network      two-node network with the losses following the winding temperature, exact
+ramp_network     two-node network under losses ramping within each segment (friction, iron), exact
+affine_steps     exact affine maps of the network over steps, stationary maxima inside them
 step_groups      batches of rows for hot_network's shared grids of steps
 gearing          speed, torque and inertia through a gearhead
 mechanism        screws, belts, racks, drums, wheels, rotary loads; move profiles
@@ -27,7 +29,7 @@ broadcast        the @vectorised wrapper every function wears (scalars, arrays, 
 """
 
 from . import (cycle, gearing, hot_network, inverse_constants, inverse_line, inverse_ratings, mechanism, motor,
-               network, operating_point, temperature, thermal, transient)
+               network, operating_point, ramp_network, temperature, thermal, transient)
 from .cycle import *  # noqa: F401,F403
 from .gearing import *  # noqa: F401,F403
 from .inverse_constants import *  # noqa: F401,F403
@@ -37,6 +39,7 @@ from .inverse_ratings import *  # noqa: F401,F403
 from .motor import *  # noqa: F401,F403
 from .network import *  # noqa: F401,F403
 from .hot_network import *  # noqa: F401,F403
+from .ramp_network import *  # noqa: F401,F403
 from .operating_point import *  # noqa: F401,F403
 from .temperature import *  # noqa: F401,F403
 from .thermal import *  # noqa: F401,F403
@@ -53,6 +56,7 @@ __all__ = [
     *transient.__all__,
     *network.__all__,
     *hot_network.__all__,
+    *ramp_network.__all__,
     *gearing.__all__,
     *mechanism.__all__,
     *cycle.__all__,

@@ -46,6 +46,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from .affine_steps import Steps, interior_peaks
 from .step_groups import step_groups
 
 __all__ = ["HotNetworkSolution", "hot_network_rise"]
@@ -54,7 +55,6 @@ _MAX_ITERATIONS = 40
 _STEP_ERROR = 2e-3          # [K] allowed tangent error per result (the tangent lies below: results read low by up to this)
 _MAX_STEPS = 64             # steps per segment at most
 _LARGEST_RISE = 5000.0      # [K] beyond this (or where Kt vanishes) the winding runs away
-_EXPONENT_CAP = 700.0
 
 
 class HotNetworkSolution(NamedTuple):
@@ -71,81 +71,6 @@ class HotNetworkSolution(NamedTuple):
     iterations: np.ndarray
 
 
-_SERIES = (None, (1.0, 1 / 2, 1 / 6, 1 / 24, 1 / 120, 1 / 720),
-           (1 / 2, 1 / 6, 1 / 24, 1 / 120, 1 / 720, 1 / 5040),
-           (1 / 6, 1 / 24, 1 / 120, 1 / 720, 1 / 5040, 1 / 40320))
-
-
-def _phi(z, em1, order):
-    """φ_k(z) = (e^z − Σ_{j<k} z^j/j!)/z^k for k = 1, 2, 3 from em1 = expm1(z), its series near 0."""
-    with np.errstate(divide="ignore", invalid="ignore"):
-        if order == 1:
-            out = em1 / z
-        elif order == 2:
-            out = (em1 - z) / (z * z)
-        else:
-            out = (em1 - z - 0.5 * z * z) / (z * z * z)
-    small = np.abs(z) < 0.05
-    if small.any():
-        zs = z[small]
-        series = np.zeros_like(zs)
-        for coefficient in reversed(_SERIES[order]):
-            series = series * zs + coefficient
-        out[small] = series
-    return out
-
-
-class _Steps:
-    """Exact affine maps of a batch of steps of durations ``h`` (arrays broadcast together)."""
-
-    def __init__(self, m11, m12, m21, m22, h):
-        m11, m12, m21, m22, h = np.broadcast_arrays(m11, m12, m21, m22, h)
-        half = (m11 - m22) * 0.5
-        root = np.sqrt(half * half + m12 * m21)
-        lam2 = (m11 + m22) * 0.5 - root
-        lam1 = (m11 * m22 - m12 * m21) / lam2                 # det/λ2: accurate for the slow mode
-        self.m = (m11, m12, m21, m22)
-        self.k11, self.k22 = m11 - lam2, m22 - lam2          # K = M − λ2·I
-        self.lam1, self.lam2, self.delta, self.h = lam1, lam2, 2.0 * root, h
-        self._cache = {}
-
-    def _exp(self, t):
-        key = id(t)
-        if key not in self._cache:
-            z1 = np.minimum(self.lam1 * t, _EXPONENT_CAP)
-            z2 = np.minimum(self.lam2 * t, _EXPONENT_CAP)
-            self._cache[key] = (t, z1, z2, np.expm1(z1), np.expm1(z2))
-        return self._cache[key][1:]
-
-    def _pair(self, order, t):
-        """(λ2-part, (λ1-part − λ2-part)/Δ) of the order-th integral of E over [0, t]."""
-        z1, z2, em1, em2 = self._exp(t)
-        if order == 0:
-            e2 = em2 + 1.0
-            dt = self.delta * t
-            with np.errstate(divide="ignore", invalid="ignore"):
-                p = (em1 - em2) / self.delta
-            near = dt < 1e-3        # (e^{λ1 t} − e^{λ2 t})/Δ = e^{λ2 t}·t·(1 + Δt/2 + ...) without cancellation
-            if near.any():
-                p = np.where(near, e2 * t * (1.0 + dt * (0.5 + dt / 6.0)), p)
-            return e2, p
-        scale = t ** order
-        a1, a2 = scale * _phi(z1, em1, order), scale * _phi(z2, em2, order)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            return a2, np.where(self.delta > 0.0, (a1 - a2) / self.delta, 0.0)
-
-    def matrices(self, order, t=None):
-        """The order-th integral of E over [0, t] as (x11, x12, x21, x22)."""
-        t = self.h if t is None else t
-        d, p = self._pair(order, t)
-        return d + p * self.k11, p * self.m[1], p * self.m[2], d + p * self.k22
-
-    def apply(self, x, v, order, t=None):
-        """(order-th integral matrix) @ (x, v)."""
-        a11, a12, a21, a22 = self.matrices(order, t)
-        return a11 * x + a12 * v, a21 * x + a22 * v
-
-
 def _loss_shape(a, b, theta):
     """s(θ) = (1 + a·θ)/(1 + b·θ)², s'(θ), s''(θ) [1, 1/K, 1/K²]."""
     k = 1.0 + b * theta
@@ -156,7 +81,7 @@ def _loss_shape(a, b, theta):
     return s, ds, dds
 
 
-def _grid(durations, steps):
+def step_grid(durations, steps):
     """Per step: (segment index, step duration (J, N), start time within its segment (J, N))."""
     seg = np.repeat(np.arange(len(durations)), steps.max(axis=1))
     q = np.concatenate([np.arange(m) for m in steps.max(axis=1)])[:, None]      # index within its segment
@@ -165,7 +90,7 @@ def _grid(durations, steps):
     return seg, h, np.where(live, q * h, durations[seg][:, None])
 
 
-def _solve(d, c, a, b, p0, p1, at_winding, r1, r2, cw, ch, periodic, seg, h, t0, ref_start, ref_end):
+def solve_linearised(d, c, a, b, p0, p1, at_winding, r1, r2, cw, ch, periodic, seg, h, t0, ref_start, ref_end):
     """One Newton step: the trajectory of the network linearised at the midpoints of (ref_start, ref_end).
 
     Returns (winding and housing rise at the J + 1 step boundaries, runaway flag, steps).
@@ -176,7 +101,7 @@ def _solve(d, c, a, b, p0, p1, at_winding, r1, r2, cw, ch, periodic, seg, h, t0,
     slope = (p1 - p0)[seg] / np.where(d[seg][:, None] > 0, d[seg][:, None], 1.0)
     nl0 = p0[seg] + slope * t0
     m11 = (cj * ds - 1.0 / r1) / cw
-    steps = _Steps(m11, 1.0 / (r1 * cw), 1.0 / (r1 * ch), -(1.0 / r1 + 1.0 / r2) / ch, h)
+    steps = Steps(m11, 1.0 / (r1 * cw), 1.0 / (r1 * ch), -(1.0 / r1 + 1.0 / r2) / ch, h)
     u0w = (cj * (s - ds * mid) + np.where(at_winding, nl0, 0.0)) / cw
     u0h = np.where(at_winding, 0.0, nl0) / ch
     u1w, u1h = np.where(at_winding, slope, 0.0) / cw, np.where(at_winding, 0.0, slope) / ch
@@ -210,66 +135,6 @@ def _solve(d, c, a, b, p0, p1, at_winding, r1, r2, cw, ch, periodic, seg, h, t0,
     return out_w, out_h, runaway, (steps, u0w, u0h, u1w, u1h)
 
 
-def _interior_peak(out_w, out_h, lin):
-    """Largest θw at a stationary point inside a step, −inf where there is none.
-
-    With θ' = v at a step's start and θ'' = M·v + u1 = w there, θw''(t) =
-    e^{λ2 t}·(w1 + (e^{Δt} − 1)/Δ·(K·w)_1) vanishes at most once, at t_c =
-    log1p(−Δ·w1/(K·w)_1)/Δ; so θw' is monotone on [0, t_c] and [t_c, h], a
-    maximum lies where θw' turns from positive to negative on one of them,
-    and bisection on θw' finds it.
-    """
-    steps, u0w, u0h, u1w, u1h = lin
-    shape = out_w[1:].shape
-    m11, m12, m21, m22 = steps.m
-    k11 = steps.k11
-    u0w, u0h, u1w, u1h = (np.broadcast_to(x, shape) for x in (u0w, u0h, u1w, u1h))
-    h = steps.h
-    best = np.full(shape[1:], -np.inf)
-    vw = m11 * out_w[:-1] + m12 * out_h[:-1] + u0w            # θ'(0)
-    vh = m21 * out_w[:-1] + m22 * out_h[:-1] + u0h
-    rate_end = m11 * out_w[1:] + m12 * out_h[1:] + u0w + u1w * h
-    ww = m11 * vw + m12 * vh + u1w                             # θ''(0)
-    wh = m21 * vw + m22 * vh + u1h
-    kw = k11 * ww + m12 * wh                                   # (K·θ''(0))_1
-    with np.errstate(divide="ignore", invalid="ignore"):
-        arg = -steps.delta * ww / kw
-        t_c = np.log1p(np.where(arg > -1.0, arg, np.nan)) / steps.delta
-    inside = (t_c > 0.0) & (t_c < h)
-    t_c = np.where(inside, t_c, h)
-
-    def rate(j, i, t):
-        """θw'(t) = (E(t)·v + F(t)·u1)_1 of the steps (j, i)."""
-        pick = _Steps(m11[j, i], m12[j, i] if m12.ndim else m12, m21[j, i] if m21.ndim else m21,
-                      m22[j, i] if m22.ndim else m22, h[j, i])
-        e11, e12, _, _ = pick.matrices(0, t)
-        f11, f12, _, _ = pick.matrices(1, t)
-        return e11 * vw[j, i] + e12 * vh[j, i] + f11 * u1w[j, i] + f12 * u1h[j, i], pick
-
-    j, i = np.nonzero(inside & (h > 0.0))
-    rate_c = rate_end.copy()
-    if j.size:
-        rate_c[j, i] = rate(j, i, t_c[j, i])[0]
-    first = (vw > 0.0) & (rate_c < 0.0) & (h > 0.0)            # on [0, t_c] (or the whole step)
-    second = inside & (rate_c > 0.0) & (rate_end < 0.0)        # on [t_c, h]
-    j, i = np.nonzero(first | second)
-    if not j.size:
-        return best
-    low = np.where(first[j, i], 0.0, t_c[j, i])
-    high = np.where(first[j, i], t_c[j, i], h[j, i])
-    for _ in range(40):
-        t = 0.5 * (low + high)
-        rising = rate(j, i, t)[0] > 0.0
-        low, high = np.where(rising, t, low), np.where(rising, high, t)
-    t = 0.5 * (low + high)
-    _, pick = rate(j, i, t)
-    sw, sh = pick.apply(out_w[:-1][j, i], out_h[:-1][j, i], 0, t)
-    bw, _ = pick.apply(u0w[j, i], u0h[j, i], 1, t)
-    gw, _ = pick.apply(u1w[j, i], u1h[j, i], 2, t)
-    np.maximum.at(best, i, sw + bw + gw)
-    return best
-
-
 def _step_counts(d, out_w, seg_end, a, b, peak):
 
     """Steps per segment for each row: the winding's range in the segment over the range the tangent's
@@ -292,7 +157,7 @@ def _finish(rows, steps, coarse_w, wild, run, d, c, a, b, p0, p1, at_w, r1, r2, 
             peak, runaway, mean):
     """Newton on the finer steps of ``rows`` (from their coarse trajectory), then the peak (with the
     maxima inside steps), runaway and the segment means, written into ``peak``/``runaway``/``mean``."""
-    seg, h, t0 = _grid(d, steps)
+    seg, h, t0 = step_grid(d, steps)
     w = np.empty((len(seg) + 1, rows.size))          # the coarse trajectory, linearly in time, on the steps
     w[0] = coarse_w[0]
     for j, k in enumerate(seg):
@@ -302,9 +167,10 @@ def _finish(rows, steps, coarse_w, wild, run, d, c, a, b, p0, p1, at_w, r1, r2, 
         w, more_wild = run(rows, (seg, h, t0), w)
         wild = wild | more_wild
     # the converged linearisation once more, for the interior maxima and the segment means
-    out_w, out_h, lost, lin = _solve(d, c[:, rows], a[rows], b[rows], p0[:, rows], p1[:, rows], at_w[rows],
-                                     r1[rows], r2[rows], cw[rows], ch[rows], periodic, seg, h, t0, w[:-1], w[1:])
-    top = np.maximum(out_w.max(axis=0), _interior_peak(out_w, out_h, lin))
+    out_w, out_h, lost, lin = solve_linearised(d, c[:, rows], a[rows], b[rows], p0[:, rows], p1[:, rows],
+                                               at_w[rows], r1[rows], r2[rows], cw[rows], ch[rows], periodic, seg,
+                                               h, t0, w[:-1], w[1:])
+    top = np.maximum(out_w.max(axis=0), interior_peaks(out_w, out_h, lin).max(axis=0))
     bad = wild | (lost & periodic) | ~np.isfinite(top) | (top >= cap[rows])
     peak[rows] = np.where(bad, np.inf, top)
     runaway[rows] = bad
@@ -424,9 +290,9 @@ def _hot_network_rise(durations, copper_loss, resistance_rise_coefficient, torqu
         wild = np.zeros(len(rows), dtype=bool)
         for _ in range(_MAX_ITERATIONS):
             sub = rows[todo]
-            out_w, _, lost, _ = _solve(d, c[:, sub], a[sub], b[sub], p0[:, sub], p1[:, sub], at_w[sub],
-                                       r1[sub], r2[sub], cw[sub], ch[sub], periodic, seg, h[:, todo],
-                                       t0[:, todo], prev[:-1, todo], prev[1:, todo])
+            out_w, _, lost, _ = solve_linearised(d, c[:, sub], a[sub], b[sub], p0[:, sub], p1[:, sub],
+                                                 at_w[sub], r1[sub], r2[sub], cw[sub], ch[sub], periodic, seg,
+                                                 h[:, todo], t0[:, todo], prev[:-1, todo], prev[1:, todo])
             too_hot = lost | ~np.all(out_w < cap[sub], axis=0) | ~np.all(np.isfinite(out_w), axis=0)
             change = np.max(np.abs(out_w - prev[:, todo]), axis=0)
             finished = too_hot | (change <= tolerance)
@@ -446,7 +312,7 @@ def _hot_network_rise(durations, copper_loss, resistance_rise_coefficient, torqu
                                   iterations.reshape(batch))
     # one step per segment first; then segments whose winding moves far are cut into steps (per row, so
     # that a row's result never depends on the others: a step of zero duration is an exact identity)
-    coarse = _grid(d, np.ones((n_seg, rows.size), dtype=int))
+    coarse = step_grid(d, np.ones((n_seg, rows.size), dtype=int))
     coarse_w, wild = run(rows, coarse, ref[:, rows])
     steps = _step_counts(d, coarse_w, np.arange(1, n_seg + 1), a[rows], b[rows], coarse_w.max(axis=0))
     steps[:, wild] = 1

@@ -40,12 +40,17 @@ form; periodic state of a repeated cycle, one pass from cold otherwise; within
 a thousandth of a kelvin or so of a direct integration), but only where it
 matters, because it costs a matrix exponential per candidate and segment.
 Brackets of the peak rise come first: the network is linear, so the rise with
-every loss at ambient is one product with the motor's response matrix per
-ratio (:func:`catalog.physics.network_response`); since s grows with θ, every
-loss held at the s of the peak gives an upper bracket (a scalar fixed point,
+every copper loss at ambient is one product with the motor's response matrix
+per ratio (:func:`catalog.physics.network_response`), and the no-load loss's
+rise is exact and the same per motor for all its ratios but for the factor
+T_f·n (:func:`catalog.physics.network_ramp_rise`, once per motor of the
+catalogue); since s grows with θ, every copper loss held at the s of the peak
+gives an upper bracket (a scalar fixed point,
 :func:`catalog.physics.hot_winding_rise`; none is thermal runaway, the
-conservative screen) and every loss held at the s of the cycle's coolest
-winding temperature a lower one.  Every verdict moves monotonically with the
+conservative screen) and every copper loss held at the s of the cycle's
+coolest winding temperature (itself bounded from below with the no-load
+loss's lowest rise) a lower one, taken at every segment end with the no-load
+rise there.  Every verdict moves monotonically with the
 peak temperature, so a candidate whose verdicts agree at both brackets is
 decided; the others, and every candidate whose numbers are shown (shortlist,
 ``--explain``, exports, diagrams), get the exact solution.  Operating points:
@@ -55,7 +60,7 @@ per motor.
 """
 from __future__ import annotations
 
-__all__ = ["evaluate", "at_corners", "checked", "evaluate_all", "checked_in_chunks", "chunk_rows", "CHUNK",
+__all__ = ["evaluate", "at_corners", "checked", "rise_brackets", "evaluate_all", "checked_in_chunks", "chunk_rows", "CHUNK",
            "CHUNK_BYTES", "EXACT_CHUNK", "WORKERS", "FALLBACK_TEMPERATURE"]
 
 import math
@@ -65,7 +70,8 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 
-from ..physics import energy_per_cycle, hot_network_rise, network_capacity_maps, network_response, network_rise_path
+from ..physics import (energy_per_cycle, hot_network_rise, network_capacity_maps, network_ramp_rise, network_response,
+                       network_rise_path)
 from ..physics import hot_winding_rise as _hot_winding_rise
 from ..physics import resistance_at_temperature as _resistance_at_temperature
 from ..physics import torque_constant_at_temperature as _torque_constant_at_temperature
@@ -89,6 +95,7 @@ RESPONSE_BYTES = 64 * 2**20
 #: fit in this [bytes]; else each chunk builds those of its own motors.
 MAPS_BYTES = 256 * 2**20
 _SEGMENT_ARRAYS = 16
+_RAMP_ARRAYS = 64        #: (S,) arrays per motor held at once by the no-load loss's exact response, about [-]
 EXACT_CHUNK = 4096       #: candidates per chunk of the exact winding temperature [-]
 WORKERS = max(1, min(4, os.cpu_count() or 1))  #: chunks evaluated at once (threads) [-]
 FALLBACK_TEMPERATURE = 428.15  #: winding temperature assumed where thermal data is missing [K]
@@ -165,38 +172,34 @@ def _motor_runs(motor_ix):
     return starts, np.diff(np.r_[starts, len(motor_ix)])
 
 
-def _substeps(n_segments: int) -> int:
-    """Sub-steps per segment of the no-load loss's bounds: 8, fewer for cycles of many segments (the
-    response matrices grow with the square of the sub-steps), at least 1."""
-    return int(max(1, min(8, 160 // max(1, n_segments))))
-
-
-def _sub_speeds(env, k: int):
-    """(fastest, slowest) speed magnitude of each of the ``k`` equal sub-steps of every segment, (S·k,)
-    each [rad/s]: the speed is linear in time, so its magnitude over a sub-step lies between those at
-    the sub-step's ends, or falls to zero where the speed changes sign inside it."""
-    frac = np.arange(k + 1) / k
-    w = env.speed_start[:, None] + (env.speed_end - env.speed_start)[:, None] * frac        # (S, k + 1)
-    w0, w1 = w[:, :-1].reshape(-1), w[:, 1:].reshape(-1)
-    fast = np.fmax(np.abs(w0), np.abs(w1))
-    slow = np.where(np.sign(w0) * np.sign(w1) < 0, 0.0, np.fmin(np.abs(w0), np.abs(w1)))
-    return fast, slow
-
-
-def _no_load_bounds(env, net) -> dict:
+def _no_load_response(env, net, at_winding) -> dict:
     """The no-load loss's winding rise per W·s/rad of loss per load speed, per motor (its speed profile
-    is the same for all the motor's gear ratios): ``up`` (M,) the highest over the cycle (entering the
-    winding, at each sub-step's fastest speed), ``low_w``/``low_h`` (S + 1, M) at the cycle start and
-    every segment end, entering the winding or the housing (each sub-step's slowest speed), and
-    their minima ``min_w``/``min_h`` (M,).  ``net`` holds the motors' :data:`THERMAL_NETWORK_FIELDS`."""
-    k_sub = _substeps(len(env.duration))
-    sub_durations = np.repeat(env.duration / k_sub, k_sub)
-    fast_sub, slow_sub = _sub_speeds(env, k_sub)
-    maps = [network_capacity_maps(sub_durations, *net, periodic=bool(env.repeat), node=node)
-            for node in ("winding", "housing")]
-    low_w, low_h = (network_rise_path(slow_sub, m) for m in maps)             # (S·K + 1, M)
-    return {"up": network_rise_path(fast_sub, maps[0]).max(axis=0), "low_w": low_w[::k_sub],
-            "low_h": low_h[::k_sub], "min_w": low_w.min(axis=0), "min_h": low_h.min(axis=0)}
+    is the same for all the motor's gear ratios, and the network is linear: a ratio n multiplies it by
+    T_f·n), exact (:func:`catalog.physics.network_ramp_rise`: the loss ramps with |ω|, linear within a
+    segment since segments are split where the speed changes sign): entering the winding (``_w``) or
+    the housing (``_h``), ``ends_*`` (S + 1, M) at the cycle start and every segment end, ``up_*`` and
+    ``low_*`` (M,) the highest and the lowest over the cycle, inside segments included.  ``net`` holds the motors'
+    :data:`THERMAL_NETWORK_FIELDS`, ``at_winding`` (M,) where each motor's no-load loss arises (only the
+    nodes in use are solved; the other keys repeat them)."""
+    out = {}
+    at_winding = np.asarray(at_winding, dtype=bool)
+    used = [node for node, any_ in (("winding", at_winding.any()), ("housing", not at_winding.all())) if any_]
+    n_motors, n_seg = len(at_winding), len(env.duration)
+    batch = max(1, RESPONSE_BYTES // (8 * _RAMP_ARRAYS * n_seg))     # motors solved at once
+    for node in used:
+        k = node[0]
+        out["ends_" + k], out["up_" + k], out["low_" + k] = (np.empty((n_seg + 1, n_motors)), np.empty(n_motors),
+                                                             np.empty(n_motors))
+        for lo in range(0, n_motors, batch):
+            part = slice(lo, lo + batch)
+            ramp = network_ramp_rise(env.duration, np.abs(env.speed_start), np.abs(env.speed_end),
+                                     *(x[part] for x in net), periodic=bool(env.repeat), node=node)
+            out["ends_" + k][:, part], out["up_" + k][part] = ramp.ends, ramp.segment_top.max(axis=0)
+            out["low_" + k][part] = ramp.segment_low.min(axis=0)
+    for key in ("ends", "up", "low"):
+        for mine, other in (("w", "h"), ("h", "w")):
+            out.setdefault(f"{key}_{mine}", out.get(f"{key}_{other}"))
+    return out
 
 
 def _first_top(block, top, axis):
@@ -214,18 +217,14 @@ def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False, motor_n
     (the copper loss then is this times R(Ta)/Kt(Ta)²); both are at a segment end or the cycle start
     (a constant winding loss per segment: see :mod:`catalog.physics.network`) and come from one
     product with each motor's response matrix.  The no-load loss T_f·n·|ω| (friction and iron,
-    independent of the winding temperature): ``no_load_up`` bounds its winding rise from above at
-    every instant (entering the winding, which heats the winding at least as much as the housing
-    does: e11 ≥ e21 of the network; at each sub-step's fastest speed), ``no_load_low`` from below at
-    every segment end (at its own node, each sub-step's slowest speed) and ``no_load_at_peak`` from
-    below at the segment end where the copper rise peaks.  The loss ramps with the speed within a
-    segment; each segment is cut into :func:`_substeps` equal sub-steps for these bounds (the speed
-    is linear in time, so its magnitude over a sub-step lies between the sub-step's ends, or reaches
-    zero where it changes sign): the bounds close on the ramp as the sub-steps shrink, at the cost
-    of one product per motor (the speed profile is the same for all its gear ratios).  With ``trajectory`` also
-    ``path`` (copper, per (N·m)²) and ``no_load_path`` (its own node, each segment's mean speed), the
-    rises at the cycle start and every segment end, (S + 1, N).  Operating points: the steady
-    states of the continuous points, ``points`` (P, N) copper and ``no_load_points`` (P, N).
+    independent of the winding temperature, ramping with the speed, at its own node): its winding
+    rise exactly (:func:`_no_load_response`, one per motor, times T_f·n), ``no_load_up``/
+    ``no_load_low`` the highest and the lowest at any instant and ``no_load_at_peak`` at the segment
+    end where the copper rise peaks.  ``paths(rows)`` gives both rises at the cycle start and every
+    segment end, (S + 1, len(rows)) each, for the candidates at ``rows`` (computed on demand: a few
+    candidates need them); with ``trajectory`` they are computed for all, ``path`` and
+    ``no_load_path``.  Operating points: the steady states of the continuous points, ``points``
+    (P, N) copper and ``no_load_points`` (P, N).
     """
     n = t_sq.shape[1]
     out = {k: np.full(n, np.nan) for k in ("peak", "low", "no_load_up", "no_load_low", "no_load_at_peak")}
@@ -240,9 +239,9 @@ def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False, motor_n
         out["peak"] = out["points"].max(axis=0) if cont.any() else np.where(usable, 0.0, np.nan)
         return out
     n_seg = len(env.duration)
-    if trajectory:
-        out["path"], out["no_load_path"] = np.full((n_seg + 1, n), np.nan), np.full((n_seg + 1, n), np.nan)
     if not usable.any():
+        if trajectory:
+            out["path"], out["no_load_path"] = np.full((n_seg + 1, n), np.nan), np.full((n_seg + 1, n), np.nan)
         return out
     whole = bool(usable.all())
     ix = slice(None) if whole else np.flatnonzero(usable)
@@ -260,24 +259,23 @@ def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False, motor_n
     group = max(1, RESPONSE_BYTES // per_motor)     # motors (or rows) whose response matrices fit at once
     offsets = np.r_[0, np.cumsum(runs)]             # each motor's first candidate column in ``sub``
     regular = bool(np.all(runs == runs[0]))
-    mean = np.abs(np.stack([env.speed_start, env.speed_end])).mean(axis=0)
     f_sub, at_w_sub = f[ix], at_w[ix]
     no_load = bool(np.any(f_sub > 0))
     ends = np.empty((n_seg + 1, n_cand)) if trajectory or not regular else None
     nl_up, nl_low, nl_at_peak = np.zeros(n_cand), np.zeros(n_cand), np.zeros(n_cand)
     peak, low, top = np.empty(n_cand), np.empty(n_cand), np.empty(n_cand, dtype=np.intp)
+    response_nl = None
     if no_load:    # per motor of the chunk: from the catalogue's once, else built here
-        bounds = (_no_load_bounds(env, net) if motor_no_load is None else
-                  {k: v[..., mix[starts]] for k, v in motor_no_load.items()})
-    nl_path = np.zeros((n_seg + 1, n_cand)) if trajectory else None
+        response_nl = (_no_load_response(env, net, at_w_sub[starts]) if motor_no_load is None else
+                       {k: v[..., mix[starts]] for k, v in motor_no_load.items()})
     # one pass over all the chunk's motors but for cycles of hundreds of segments, whose response
     # matrices are built a group of motors at a time
     for g0 in range(0, len(starts), group):
         g1 = min(len(starts), g0 + group)
         lo, hi, r = offsets[g0], offsets[g1], runs[g0:g1]
-        response = (network_response(NetworkMaps(*(a[g0:g1] if a.ndim > 1 else a for a in maps)))  # (m, S + 1, S)
-                    if regular or (trajectory and no_load) else None)
+        owner = np.arange(g0, g1).repeat(r)
         if regular:       # a regular block (motor × ratios): one matrix product per motor
+            response = network_response(NetworkMaps(*(a[g0:g1] if a.ndim > 1 else a for a in maps)))  # (m, S+1, S)
             block = np.matmul(response, np.moveaxis(sub[:, lo:hi].reshape(n_seg, g1 - g0, int(runs[0])), 0, 1))
             block_top = block.max(axis=1)                                           # (motors, ratios)
             peak[lo:hi], low[lo:hi] = block_top.reshape(-1), block.min(axis=1).reshape(-1)
@@ -285,28 +283,37 @@ def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False, motor_n
             if trajectory:
                 ends[:, lo:hi] = np.moveaxis(block, 1, 0).reshape(n_seg + 1, -1)
         else:             # each row swept through its own motor's network (O(S) per row)
-            owner = np.arange(g0, g1).repeat(r)
             ends[:, lo:hi] = network_rise_path(sub[:, lo:hi], NetworkMaps(*(a[owner] if a.ndim > 1 else a
                                                                               for a in maps)))
             peak[lo:hi], low[lo:hi] = ends[:, lo:hi].max(axis=0), ends[:, lo:hi].min(axis=0)
             top[lo:hi] = _first_top(ends[:, lo:hi], peak[lo:hi], axis=0)
         if no_load:
-            spread = (lambda per_motor: np.repeat(per_motor, r, axis=-1))   # motors -> candidates
-            group_net = [x[g0:g1] for x in net]
             fg, own = f_sub[lo:hi], at_w_sub[lo:hi]
-            owner = np.arange(g0, g1).repeat(r)
-            nl_up[lo:hi] = fg * bounds["up"][owner]
-            nl_low[lo:hi] = fg * np.where(own, bounds["min_w"][owner], bounds["min_h"][owner])
+            nl_up[lo:hi] = fg * np.where(own, response_nl["up_w"][owner], response_nl["up_h"][owner])
+            nl_low[lo:hi] = fg * np.where(own, response_nl["low_w"][owner], response_nl["low_h"][owner])
             at = top[lo:hi]                                              # the end where the copper peaks
-            nl_at_peak[lo:hi] = fg * np.where(own, bounds["low_w"][at, owner], bounds["low_h"][at, owner])
-            if trajectory:
-                housing = network_response(network_capacity_maps(env.duration, *group_net,
-                                                                  periodic=bool(env.repeat), node="housing"))
-                nl_path[:, lo:hi] = fg * np.where(own, spread((response @ mean).T), spread((housing @ mean).T))
+            nl_at_peak[lo:hi] = fg * np.where(own, response_nl["ends_w"][at, owner], response_nl["ends_h"][at, owner])
     out["peak"][ix], out["low"][ix] = peak, low
     out["no_load_up"][ix], out["no_load_low"][ix], out["no_load_at_peak"][ix] = nl_up, nl_low, nl_at_peak
+    motor_of = np.full(n, -1)
+    motor_of[ix] = np.repeat(np.arange(len(starts)), runs)           # each candidate's motor in the chunk
+
+    def paths(rows):
+        """(copper per (N·m)², no-load) winding rises at the cycle start and every segment end of the
+        candidates at ``rows`` (usable ones), (S + 1, len(rows)) each."""
+        owner = motor_of[rows]
+        copper = network_rise_path(t_sq[:, rows], NetworkMaps(*(a[owner] if a.ndim > 1 else a for a in maps)))
+        if response_nl is None:
+            return copper, np.zeros_like(copper)
+        own = at_w[rows]
+        return copper, f[rows] * np.where(own, response_nl["ends_w"][:, owner], response_nl["ends_h"][:, owner])
+
+    out["paths"] = paths
     if trajectory:
-        out["path"][:, ix], out["no_load_path"][:, ix] = ends, nl_path
+        out["path"], out["no_load_path"] = np.full((n_seg + 1, n), np.nan), np.full((n_seg + 1, n), np.nan)
+        out["path"][:, ix] = ends
+        rows = np.arange(n)[ix]
+        out["no_load_path"][:, ix] = paths(rows)[1]
     return out
 
 
@@ -409,6 +416,7 @@ def _loads(env, c, seg, trajectory=False) -> dict:
             "ke_amb": ke_amb, "a": a, "b": b, "scale": scale, "missing": missing, "usable": usable,
             "upper": upper, "cold": cold, "brush_sign": brush_sign, "peak": net["peak"], "low": net["low"],
             "no_load_low": net["no_load_low"], "no_load_at_peak": net.get("no_load_at_peak"), "path": net.get("path"),
+            "paths": net.get("paths"),
             "no_load_path": net.get("no_load_path")}
 
 
@@ -416,21 +424,23 @@ def _lower(env, base, rows) -> np.ndarray:
     """The lower bracket of the peak rise of the candidates at ``rows`` [K] (inf: runaway for sure).
 
     Every copper loss held at the s of the cycle's coolest winding temperature m: a repeated cycle's m
-    is at least the smallest root of m = s(m)·(coolest cold copper rise) (none: no periodic state at
-    all), and the peak at least s(m)·(cold copper peak) plus the no-load loss's bound from below; one
-    pass from ambient starts cold, so the cold peak itself.
+    is at least the smallest root of m = s(m)·(coolest cold copper rise) + (the no-load loss's lowest
+    rise) (none: no periodic state at all); one pass from ambient starts cold (s ≥ 1).  At every segment end the rise is then at least
+    s(m)·(cold copper rise there) plus the no-load loss's rise there (exact: it does not depend on the
+    winding temperature), and the peak at least the highest of these.
     Operating points: the exact steady state (the upper bracket).
     """
     if env.mode == "points":
         return base["upper"][rows]
-    peak = base["peak"][rows] * base["scale"][rows]
-    no_load = base["no_load_at_peak"][rows]        # at the end where the copper rise peaks
+    copper, no_load = base["paths"](rows)                          # (S + 1, rows) each
+    copper = copper * base["scale"][rows]
     if not env.repeat:
-        return peak + no_load
+        return np.max(copper + no_load, axis=0)
     a, b = base["a"][rows], base["b"][rows]
-    floor = hot_winding_rise(base["low"][rows] * base["scale"][rows], a, b)
+    floor = _offset_rise(base["low"][rows] * base["scale"][rows], base["no_load_low"][rows], a, b)
     with np.errstate(invalid="ignore"):
-        return np.where(np.isfinite(floor), peak * (1 + a * floor) / (1 + b * floor) ** 2 + no_load, np.inf)
+        grown = (1 + a * floor) / (1 + b * floor) ** 2
+        return np.where(np.isfinite(floor), np.max(copper * grown + no_load, axis=0), np.inf)
 
 
 def _quick_lower(env, base, rows) -> np.ndarray:
@@ -451,7 +461,7 @@ def _subset(base: dict, c: dict, rows):
     n = base["n"]
     cut = (lambda v: v[..., rows] if isinstance(v, np.ndarray) and v.shape[-1:] == (n,) else v)
     sub = {k: cut(v) for k, v in base.items()}
-    sub["n"] = len(rows)
+    sub["n"], sub["paths"] = len(rows), None          # the paths are indexed by the whole chunk's rows
     return sub, {k: (v[rows] if isinstance(v, np.ndarray) and v.shape[:1] == (n,) else v) for k, v in c.items()}
 
 
@@ -685,19 +695,35 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         seg_rise[:, rows] = mean
     return _at_temperature(env, c, seg, base, rise, seg_rise, **full)
 
+@_quiet
+def rise_brackets(env, c: dict) -> tuple:
+    """(lower, upper) brackets of the peak winding rise [K] of candidate rows ``c`` (NaN where thermal
+    data is missing, inf: runaway), as the verdict pass uses them: the exact rise lies between."""
+    seg = _segments(env)
+    base = _loads(env, c, seg)
+    lower = np.full(base["n"], np.nan)
+    rows = np.flatnonzero(base["usable"])
+    if rows.size:
+        lower[rows] = _lower(env, base, rows)
+    return lower, base["upper"]
+
+
 def _chunk_starts(motor_ix, total: int, size: int = CHUNK) -> list:
-    """Chunk boundaries near every ``size`` rows, moved to the start of a motor's run (so a
-    regular block of motor × ratios stays whole and its thermal maps broadcast); a motor with
-    more than ``size`` candidates is split, so no chunk holds more than ``size``."""
+    """Chunk boundaries: whole runs of one motor packed greedily up to ``size`` rows (so a regular
+    block of motor × ratios stays whole and its thermal maps broadcast); a motor with more than
+    ``size`` candidates is split, so no chunk holds more than ``size``."""
     if total <= size:
         return [0]
     run_starts = np.flatnonzero(np.r_[True, motor_ix[1:] != motor_ix[:-1]])
-    cuts = np.searchsorted(run_starts, np.arange(0, total, size))
-    starts = np.unique(run_starts[np.minimum(cuts, len(run_starts) - 1)])
-    bounds = np.r_[starts, total]
-    if np.all(np.diff(bounds) <= size):
-        return [int(s) for s in starts]
-    return [int(s) for lo, hi in zip(bounds[:-1], bounds[1:]) for s in range(lo, hi, size)]
+    bounds = np.r_[run_starts, total]
+    starts, at = [], 0
+    while at < total:
+        starts.append(at)
+        # the last run start that keeps this chunk within ``size`` rows (at least one run)
+        k = int(np.searchsorted(bounds, at + size, side="right")) - 1
+        nxt = int(bounds[k]) if k >= 0 else total
+        at = nxt if nxt > at else min(total, at + size)     # one run longer than ``size``: split it
+    return starts
 
 
 def checked_in_chunks(env, c: dict, **kw) -> dict:
@@ -828,7 +854,8 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
         with np.errstate(all="ignore"):
             seg["motor_maps"] = network_capacity_maps(env.duration, *(mt[k] for k in THERMAL_NETWORK_FIELDS),
                                                       periodic=bool(env.repeat))
-            seg["motor_no_load"] = _no_load_bounds(env, [mt[k] for k in THERMAL_NETWORK_FIELDS])
+            seg["motor_no_load"] = _no_load_response(env, [mt[k] for k in THERMAL_NETWORK_FIELDS],
+                                                     mt["no_load_at_winding"])
     starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total, chunk_rows(n_seg))
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))

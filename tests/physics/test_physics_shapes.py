@@ -49,7 +49,7 @@ SPECIAL = {  # checked in dedicated tests below
     "rms", "time_average", "energy_per_cycle",
     "periodic_winding_temperature", "transient_winding_temperature",
     "network_segment_maps", "network_capacity_maps", "network_peak_rise", "network_response", "hot_network_rise",
-    "network_rise_path",
+    "network_rise_path", "network_ramp_rise",
     "network_peak_rise_grid",
 }
 

@@ -231,13 +231,13 @@ speed_start = "0 rpm"
 ])
 def test_every_verdict_the_brackets_decide_is_the_exact_verdict(demo_catalog, envelope_file, case):
     # The verdict pass decides a candidate from brackets of its peak winding temperature (the no-load
-    # loss bounded on sub-steps of speed ramps that reverse) and solves exactly only where they leave a
-    # verdict open.  Reference: the exact solution of every candidate (evaluate.checked(exact="all"),
+    # loss of speed ramps that reverse solved exactly per motor) and solves exactly only where they leave
+    # a verdict open.  Reference: the exact solution of every candidate (evaluate.checked(exact="all"),
     # itself within 0.1 K of solve_ivp above): every verdict decided by the brackets must be its verdict.
     from catalog.select import load_envelope
     from catalog.select.candidates import build_candidates
     from catalog.select.checks import check_keys
-    from catalog.select.evaluate import EVAL_KEYS, checked
+    from catalog.select.evaluate import EVAL_KEYS, checked, rise_brackets
     from catalog.select.registry import CHECKS
 
     env = load_envelope(envelope_file(REVERSING.format(**case)))
@@ -256,10 +256,16 @@ def test_every_verdict_the_brackets_decide_is_the_exact_verdict(demo_catalog, en
         for key in CHECKS:
             np.testing.assert_array_equal(band["fails_" + key][decided], exact["fails_" + key][decided],
                                           err_msg=key)
-        # the upper bracket (every loss at the peak's s, the no-load loss at each sub-step's fastest speed)
-        # lies above the exact peak of every candidate, and close to it
+        # the upper bracket (every copper loss at the peak's s, the no-load loss at its highest) lies
+        # above the exact peak of every candidate, the lower one (the copper loss at the s of the
+        # coolest winding, the no-load loss exact at every segment end) below it
         screen = checked(env, c, exact="screen", where=False, energy=False)["winding_temperature"]
         both = np.isfinite(screen) & np.isfinite(exact["winding_temperature"])
         assert np.all(exact["winding_temperature"][both] <= screen[both] + 1e-6)
+        lower, upper = rise_brackets(env, c)
+        rise = exact["winding_temperature"] - env.ambient_temperature
+        known = np.isfinite(rise) & np.isfinite(lower)
+        assert known.any()
+        assert np.all(lower[known] <= rise[known] + 1e-6) and np.all(rise[known] <= upper[known] + 1e-6)
         # something depends on the temperature in each case: candidates pass and fail the temperature check
         assert exact["fails_temperature"].any() and (~exact["fails_temperature"]).any()
