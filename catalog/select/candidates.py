@@ -504,7 +504,9 @@ def build_candidates(motors: pd.DataFrame, gearheads: pd.DataFrame, env) -> Cand
     ratio_rows = np.flatnonzero(kind == GEAR_ASSUMED)
     if len(ratio_rows) and n_motor:
         pairs.append((np.repeat(motor_rows, len(ratio_rows)), np.tile(ratio_rows, n_motor)))
-    if pairs:
+    if len(pairs) == 1:                  # one kind of option (a copy of millions of rows is not free)
+        mix, oix = pairs[0]
+    elif pairs:
         mix = np.concatenate([p[0] for p in pairs])
         oix = np.concatenate([p[1] for p in pairs])
     else:

@@ -83,11 +83,11 @@ hot_winding_rise = _hot_winding_rise.__wrapped__
 resistance_at_temperature = _resistance_at_temperature.__wrapped__
 torque_constant_at_temperature = _torque_constant_at_temperature.__wrapped__
 
-CHUNK = 16384            #: candidates per chunk at most [-]
+CHUNK = 32768            #: candidates per chunk at most [-]
 #: Scratch memory of one chunk [bytes]: its (S, N) arrays (about :data:`_SEGMENT_ARRAYS` of
 #: them) stay within this whatever the number of segments S, so a chunk holds fewer candidates
 #: the longer the cycle (:func:`chunk_rows`).
-CHUNK_BYTES = 64 * 2**20
+CHUNK_BYTES = 128 * 2**20
 #: The network's response matrices of a chunk's motors ((S + 1) x S each) are used where they fit
 #: in this [bytes]; else the network is swept segment by segment (the same numbers).
 RESPONSE_BYTES = 64 * 2**20
