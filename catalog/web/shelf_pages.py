@@ -63,7 +63,8 @@ async def item_page(request):
     rid, location, condition = qp.get("record", ""), qp.get("location", ""), qp.get("condition", "")
     if not rid:
         raise InputError("record: missing, expected a catalogue id", [Problem("record", None, None, "missing")])
-    rtype, maker, part, _values = await in_thread(cat.record, rid)
+    view = await in_thread(cat.show, rid)
+    rtype, maker, part = view.record_type, view.manufacturer, view.part_number
     items = await in_thread(cat.stock_list, None, rid, True)
     mine = items[(items["location"] == location) & (items["condition"] == condition)] if location else items.iloc[0:0]
     movements = await in_thread(cat.stock_history, rid)

@@ -94,7 +94,7 @@ def basis_catalog(tmp_path_factory):
                   + ROW.format(part="KTRMS", basis="line-to-line-rms", value=0.1)
                   + ROW.format(part="KTPK", basis="line-to-line-peak", value=0.1), encoding="utf-8")
     cat = catalog.open(folder / "c.duckdb")
-    cat.import_files([ke, kt])
+    cat.import_([ke, kt])
     return cat
 
 

@@ -64,7 +64,7 @@ def loss_catalog(tmp_path_factory):
         f"Loss Test,{part},{com},alnico,24,1,25,0.1,{tf},10,3,7,20,600,155,30000,300,{drop},{peak}\n"
         for part, com, tf, drop, peak in ROWS), encoding="utf-8")
     cat = catalog.open(folder / "c.duckdb")
-    cat.import_files([path])
+    cat.import_([path])
     return cat
 
 
