@@ -86,13 +86,22 @@ def simulate_cycle(segments, rth1, rth2, tau_w, tau_m, held_at=None):
         loss = current * current * (1 + ALPHA * (tw - TA))
         return [(loss - (y[0] - y[1]) / rth1) / cw, ((y[0] - y[1]) / rth1 - y[1] / rth2) / ch]
 
-    y = np.zeros(2)
-    for _cycle in range(3000):
-        start, top = y.copy(), y[0]
+    def one_cycle(y):
+        top = y[0]
         for duration, torque in segments:
             sol = solve_ivp(rhs, (0, duration), y, args=(torque,), rtol=1e-10, atol=1e-10, max_step=duration / 50)
             top = max(top, sol.y[0].max())
             y = sol.y[:, -1]
+        return y, top
+
+    y = np.zeros(2)
+    if held_at is not None:     # R and Kt held: the network is linear, its cycle map affine, y -> Φ·y + c,
+        c = one_cycle(y)[0]     # and the periodic start its fixed point (shooting, three cycles)
+        phi = np.column_stack([one_cycle(e)[0] - c for e in np.eye(2)])
+        return TA + one_cycle(np.linalg.solve(np.eye(2) - phi, c))[1]
+    for _cycle in range(3000):
+        start = y.copy()
+        y, top = one_cycle(y)
         if np.max(np.abs(y - start)) < 1e-7:
             break
     return TA + top
@@ -102,7 +111,9 @@ def screen(simulate, *args):
     """The conservative reading: R and Kt held all cycle at the peak temperature they produce."""
     t = TA + 50.0
     for _ in range(80):
-        t = simulate(*args, held_at=t)
+        t, before = simulate(*args, held_at=t), t
+        if abs(t - before) < 1e-6:
+            break
     return t
 
 
