@@ -60,7 +60,8 @@ per motor.
 """
 from __future__ import annotations
 
-__all__ = ["evaluate", "at_corners", "checked", "rise_brackets", "evaluate_all", "checked_in_chunks", "chunk_rows", "CHUNK",
+__all__ = ["evaluate", "at_corners", "checked", "rise_brackets", "evaluate_all", "checked_in_chunks", "chunk_rows",
+           "CHUNK",
            "CHUNK_BYTES", "EXACT_CHUNK", "WORKERS", "FALLBACK_TEMPERATURE"]
 
 import math
@@ -72,16 +73,15 @@ import numpy as np
 
 from ..physics import (energy_per_cycle, hot_network_rise, network_capacity_maps, network_ramp_rise, network_response,
                        network_rise_path)
-from ..physics import hot_winding_rise as _hot_winding_rise
-from ..physics import resistance_at_temperature as _resistance_at_temperature
-from ..physics import torque_constant_at_temperature as _torque_constant_at_temperature
+from ..physics import network as physics_network
+from ..physics import temperature as physics_temperature
 from ..physics.network import NetworkMaps
 
 # The physics functions without their container conversion (arrays in, arrays out here): the
 # wrapper's checks cost more than the arithmetic on a chunk of a few hundred rows.
-hot_winding_rise = _hot_winding_rise.__wrapped__
-resistance_at_temperature = _resistance_at_temperature.__wrapped__
-torque_constant_at_temperature = _torque_constant_at_temperature.__wrapped__
+hot_winding_rise = physics_network.hot_winding_rise.__wrapped__
+resistance_at_temperature = physics_temperature.resistance_at_temperature.__wrapped__
+torque_constant_at_temperature = physics_temperature.torque_constant_at_temperature.__wrapped__
 
 CHUNK = 32768            #: candidates per chunk at most [-]
 #: Scratch memory of one chunk [bytes]: its (S, N) arrays (about :data:`_SEGMENT_ARRAYS` of
@@ -178,9 +178,9 @@ def _no_load_response(env, net, at_winding) -> dict:
     T_f·n), exact (:func:`catalog.physics.network_ramp_rise`: the loss ramps with |ω|, linear within a
     segment since segments are split where the speed changes sign): entering the winding (``_w``) or
     the housing (``_h``), ``ends_*`` (S + 1, M) at the cycle start and every segment end, ``up_*`` and
-    ``low_*`` (M,) the highest and the lowest over the cycle, inside segments included.  ``net`` holds the motors'
-    :data:`THERMAL_NETWORK_FIELDS`, ``at_winding`` (M,) where each motor's no-load loss arises (only the
-    nodes in use are solved; the other keys repeat them)."""
+    ``low_*`` (M,) the highest and the lowest over the cycle, inside segments included.  ``net``
+    holds the motors' :data:`THERMAL_NETWORK_FIELDS`, ``at_winding`` (M,) where each motor's no-load
+    loss arises (only the nodes in use are solved; the other keys repeat them)."""
     out = {}
     at_winding = np.asarray(at_winding, dtype=bool)
     used = [node for node, any_ in (("winding", at_winding.any()), ("housing", not at_winding.all())) if any_]
@@ -298,22 +298,26 @@ def _cold_range(env, c, t_sq, usable, motor_maps=None, trajectory=False, motor_n
     motor_of = np.full(n, -1)
     motor_of[ix] = np.repeat(np.arange(len(starts)), runs)           # each candidate's motor in the chunk
 
+    def no_load_path(rows):
+        """The no-load loss's winding rise at the cycle start and every segment end of the candidates at
+        ``rows`` (usable ones), (S + 1, len(rows))."""
+        owner = motor_of[rows]
+        if response_nl is None:
+            return np.zeros((n_seg + 1, len(owner)))
+        return f[rows] * np.where(at_w[rows], response_nl["ends_w"][:, owner], response_nl["ends_h"][:, owner])
+
     def paths(rows):
         """(copper per (N·m)², no-load) winding rises at the cycle start and every segment end of the
         candidates at ``rows`` (usable ones), (S + 1, len(rows)) each."""
         owner = motor_of[rows]
         copper = network_rise_path(t_sq[:, rows], NetworkMaps(*(a[owner] if a.ndim > 1 else a for a in maps)))
-        if response_nl is None:
-            return copper, np.zeros_like(copper)
-        own = at_w[rows]
-        return copper, f[rows] * np.where(own, response_nl["ends_w"][:, owner], response_nl["ends_h"][:, owner])
+        return copper, no_load_path(rows)
 
     out["paths"] = paths
     if trajectory:
         out["path"], out["no_load_path"] = np.full((n_seg + 1, n), np.nan), np.full((n_seg + 1, n), np.nan)
         out["path"][:, ix] = ends
-        rows = np.arange(n)[ix]
-        out["no_load_path"][:, ix] = paths(rows)[1]
+        out["no_load_path"][:, ix] = no_load_path(np.arange(n)[ix])
     return out
 
 
@@ -425,9 +429,10 @@ def _lower(env, base, rows) -> np.ndarray:
 
     Every copper loss held at the s of the cycle's coolest winding temperature m: a repeated cycle's m
     is at least the smallest root of m = s(m)·(coolest cold copper rise) + (the no-load loss's lowest
-    rise) (none: no periodic state at all); one pass from ambient starts cold (s ≥ 1).  At every segment end the rise is then at least
-    s(m)·(cold copper rise there) plus the no-load loss's rise there (exact: it does not depend on the
-    winding temperature), and the peak at least the highest of these.
+    rise) (none: no periodic state at all); one pass from ambient starts cold (s ≥ 1).  At every
+    segment end the rise is then at least s(m)·(cold copper rise there) plus the no-load loss's rise
+    there (exact: it does not depend on the winding temperature), and the peak at least the highest
+    of these.
     Operating points: the exact steady state (the upper bracket).
     """
     if env.mode == "points":
