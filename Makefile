@@ -27,7 +27,6 @@ test: $(TSTAMP)
 	$(PY) -m pytest
 
 bench: $(TSTAMP)
-	$(PY) -m pip install --quiet -e '.[test,bench]'
 	$(PY) -m benchmarks
 
 # Regenerate every generated document of docs/ (the list: catalog/docs.py:GENERATED) and the

@@ -16,8 +16,9 @@ What it leaves out, all in its own favour: the project also solves the winding t
 leave open, builds the candidates from the catalogue, checks data, sizes and prices, counts every
 rejection and ranks; this kernel reads prepared arrays and returns pass/fail.
 
-numba is in the ``bench`` extra (``pip install -e '.[bench]'``; ``make bench`` installs it).
-The compiled code is cached next to this file, and the first call (compilation) is never timed.
+numba is a dependency of the project (its own verdict pass of large selections is compiled too,
+:mod:`catalog.select.kernel`).  The compiled code is cached next to this file, and the first call
+(compilation) is never timed.
 """
 from __future__ import annotations
 

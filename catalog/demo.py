@@ -133,6 +133,8 @@ def main(argv=None) -> int:
             wal.unlink()
     print(f"motorshelf demo: building {db} from {args.sample.name}/")
     s = build(db, args.sample)
+    from .select import kernel      # the compiled verdict pass of large selections, compiled once here
+    kernel.warm()                   # and kept in numba's on-disk cache
     print(f"\nsummary: {s['suppliers']} suppliers, {s['motors']} motors, {s['gearheads']} gearheads; "
           f"{s['given_values']} values stored ({s['converted']} converted to SI), "
           f"{s['derived_values']} derived")

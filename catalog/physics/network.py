@@ -49,8 +49,8 @@ __all__ = ["NetworkMaps", "network_segment_maps", "network_capacity_maps", "netw
            "network_response", "network_peak_rise_grid",
            "hot_winding_rise"]
 
-_NEWTON_STEPS = 60       # enough for the linear convergence at a double root
-_NEWTON_TOLERANCE = 1e-6  # [K]
+NEWTON_STEPS = 60       # enough for the linear convergence at a double root
+NEWTON_TOLERANCE = 1e-6  # [K]
 
 
 class NetworkMaps(NamedTuple):
@@ -435,13 +435,13 @@ def hot_winding_rise(cold_rise, resistance_rise_coefficient, torque_constant_ris
     ph, aa, bb = ph[idx], aa[idx], bb[idx]
     k = 1.0 + bb * ph
     y = np.where(k > 0.0, ph * (1.0 + aa * ph) / (k * k), 0.0)   # one plain step: still ≤ the root
-    for _ in range(_NEWTON_STEPS):
+    for _ in range(NEWTON_STEPS):
         if not idx.size:
             break
         k = 1.0 + bb * y
         g = ph * (1.0 + aa * y) / (k * k) - y
         slope = ph * (aa / (k * k) - 2.0 * bb * (1.0 + aa * y) / (k * k * k)) - 1.0
-        done = np.abs(g) <= _NEWTON_TOLERANCE
+        done = np.abs(g) <= NEWTON_TOLERANCE
         hopeless = ~done & ((k <= 0.0) | (slope >= 0.0) | ~np.isfinite(g))
         flat[idx[done]] = y[done]
         flat[idx[hopeless]] = np.inf

@@ -62,7 +62,7 @@ from __future__ import annotations
 
 __all__ = ["evaluate", "at_corners", "checked", "rise_brackets", "evaluate_all", "checked_in_chunks", "chunk_rows",
            "CHUNK",
-           "CHUNK_BYTES", "EXACT_CHUNK", "WORKERS", "FALLBACK_TEMPERATURE"]
+           "CHUNK_BYTES", "EXACT_CHUNK", "KERNEL_MIN", "WORKERS", "FALLBACK_TEMPERATURE"]
 
 import math
 import os
@@ -96,6 +96,9 @@ RESPONSE_BYTES = 64 * 2**20
 MAPS_BYTES = 256 * 2**20
 _SEGMENT_ARRAYS = 16
 _RAMP_ARRAYS = 64        #: (S,) arrays per motor held at once by the no-load loss's exact response, about [-]
+#: Candidates from which a selection's verdict pass runs compiled (:mod:`catalog.select.kernel`;
+#: the numpy path below it, and always for the numbers shown) [-]
+KERNEL_MIN = 200_000
 EXACT_CHUNK = 4096       #: candidates per chunk of the exact winding temperature [-]
 WORKERS = max(1, min(4, os.cpu_count() or 1))  #: chunks evaluated at once (threads) [-]
 FALLBACK_TEMPERATURE = 428.15  #: winding temperature assumed where thermal data is missing [K]
@@ -135,7 +138,7 @@ def _segments(env) -> dict:
     basis = np.column_stack([alpha, np.where(driving, t_out, 0.0), np.where(driving, 0.0, t_out), fs])
     return {"dur": dur, "w0": w0, "w1": w1, "alpha": alpha, "friction_sign": fs,
             "basis": np.ascontiguousarray(basis),                        # (S, 4): T_em = basis @ coef
-            "voltage_basis": np.ascontiguousarray(np.column_stack([basis, w_mid])),
+            "voltage_basis": np.ascontiguousarray(np.column_stack([basis, w_mid])), "w_mid": w_mid,
             "half_span": np.abs(w1 - w0) / 2.0,
             "t_out_abs": out_abs, "out_rms": out_rms, "speed_seg": int(np.argmax(w_abs)),
             "w_abs_max": float(np.max(w_abs)), "gear_out_seg": int(np.argmax(out_abs))}
@@ -172,7 +175,7 @@ def _motor_runs(motor_ix):
     return starts, np.diff(np.r_[starts, len(motor_ix)])
 
 
-def _no_load_response(env, net, at_winding) -> dict:
+def _no_load_response(env, net, at_winding, workers: int = 1) -> dict:
     """The no-load loss's winding rise per W·s/rad of loss per load speed, per motor (its speed profile
     is the same for all the motor's gear ratios, and the network is linear: a ratio n multiplies it by
     T_f·n), exact (:func:`catalog.physics.network_ramp_rise`: the loss ramps with |ω|, linear within a
@@ -180,22 +183,35 @@ def _no_load_response(env, net, at_winding) -> dict:
     the housing (``_h``), ``ends_*`` (S + 1, M) at the cycle start and every segment end, ``up_*`` and
     ``low_*`` (M,) the highest and the lowest over the cycle, inside segments included.  ``net``
     holds the motors' :data:`THERMAL_NETWORK_FIELDS`, ``at_winding`` (M,) where each motor's no-load
-    loss arises (only the nodes in use are solved; the other keys repeat them)."""
+    loss arises (only the nodes in use are solved; the other keys repeat them).  ``workers``: threads
+    that solve batches of motors side by side (a catalogue's thousands of motors)."""
     out = {}
     at_winding = np.asarray(at_winding, dtype=bool)
     used = [node for node, any_ in (("winding", at_winding.any()), ("housing", not at_winding.all())) if any_]
     n_motors, n_seg = len(at_winding), len(env.duration)
     batch = max(1, RESPONSE_BYTES // (8 * _RAMP_ARRAYS * n_seg))     # motors solved at once
+    if workers > 1 and n_motors >= 1000:
+        batch = min(batch, -(-n_motors // workers))
     for node in used:
         k = node[0]
         out["ends_" + k], out["up_" + k], out["low_" + k] = (np.empty((n_seg + 1, n_motors)), np.empty(n_motors),
                                                              np.empty(n_motors))
-        for lo in range(0, n_motors, batch):
-            part = slice(lo, lo + batch)
-            ramp = network_ramp_rise(env.duration, np.abs(env.speed_start), np.abs(env.speed_end),
-                                     *(x[part] for x in net), periodic=bool(env.repeat), node=node)
-            out["ends_" + k][:, part], out["up_" + k][part] = ramp.ends, ramp.segment_top.max(axis=0)
-            out["low_" + k][part] = ramp.segment_low.min(axis=0)
+
+    def solve(job):
+        node, part = job
+        k = node[0]
+        ramp = network_ramp_rise(env.duration, np.abs(env.speed_start), np.abs(env.speed_end),
+                                 *(x[part] for x in net), periodic=bool(env.repeat), node=node)
+        out["ends_" + k][:, part], out["up_" + k][part] = ramp.ends, ramp.segment_top.max(axis=0)
+        out["low_" + k][part] = ramp.segment_low.min(axis=0)
+
+    jobs = [(node, slice(lo, lo + batch)) for node in used for lo in range(0, n_motors, batch)]
+    if workers > 1 and len(jobs) > 1:
+        with ThreadPoolExecutor(max_workers=min(workers, len(jobs))) as pool:
+            list(pool.map(solve, jobs))
+    else:
+        for job in jobs:
+            solve(job)
     for key in ("ends", "up", "low"):
         for mine, other in (("w", "h"), ("h", "w")):
             out.setdefault(f"{key}_{mine}", out.get(f"{key}_{other}"))
@@ -355,24 +371,23 @@ def _quiet(func):
     return quiet
 
 
-def _loads(env, c, seg, trajectory=False) -> dict:
-    """What does not depend on the winding temperature: torques, cold constants, the cold corner's
-    needed voltage, the cold network's extremes and the temperature brackets."""
+def _constants(env, c) -> dict:
+    """Per candidate, what needs no segment: the coefficients ``coef`` (4, N) of the electromagnetic
+    torque T_em = (J + Jg)·n·α + T_out/(n·η) (driving) or T_out·η/n (back-driven) + Tf·sign(ω)
+    (``seg["basis"] @ coef``), R, Kt and Ke at ambient, a and b (the relative growth of R and Kt per
+    kelvin), ``scale`` = R/Kt² at ambient (copper loss per (N·m)²) and which candidates have the
+    thermal data (``missing``, ``usable``)."""
     n = len(c["terminal_resistance"])
     R, Kt, Ke = c["terminal_resistance"], c["torque_constant"], c["back_emf_constant"]
     t_ref, beta = c["resistance_reference_temperature"], c["magnet_coefficient"]
     ta = env.ambient_temperature
     ratio, eta = c["ratio"], c["efficiency"]
     back = eta if env.back_drive else 1.0 / eta
-    # T_em = (J + Jg)·n·α + T_out/(n·η) (driving) or T_out·η/n (back-driven) + Tf·sign(ω): linear in 4 terms
-    n_seg = len(seg["w0"])
     coef = _buffer("coef", (4, n))
     np.multiply(c["rotor_inertia"] + c["gear_inertia"], ratio, out=coef[0])
     np.divide(1.0, ratio * eta, out=coef[1])
     np.divide(back, ratio, out=coef[2])
     coef[3] = c["friction_torque"]
-    t_em = np.matmul(seg["basis"], coef, out=_buffer("t_em", (n_seg, n)))   # (S, N)
-    t_sq = np.multiply(t_em, t_em, out=_buffer("t_sq", (n_seg, n)))
     r_amb = resistance_at_temperature(R, ta, t_ref)
     kt_amb = torque_constant_at_temperature(Kt, ta, beta, t_ref)
     ke_amb = torque_constant_at_temperature(Ke, ta, beta, t_ref)
@@ -381,11 +396,86 @@ def _loads(env, c, seg, trajectory=False) -> dict:
     for name in fields:
         missing |= np.isnan(c[name])
     usable = ~missing & (r_amb > 0) & (kt_amb > 0)
-    scale = r_amb / (kt_amb * kt_amb)                  # copper loss per (N·m)² at ambient [W/(N·m)²]
-    net = _cold_range(env, c, t_sq, usable, seg.get("motor_maps"), trajectory=trajectory,
-                      motor_no_load=seg.get("motor_no_load"))
     a = (resistance_at_temperature(R, ta + 1.0, t_ref) - r_amb) / r_amb
     b = (torque_constant_at_temperature(Kt, ta + 1.0, beta, t_ref) - kt_amb) / kt_amb
+    return {"n": n, "coef": coef, "r_amb": r_amb, "kt_amb": kt_amb, "ke_amb": ke_amb, "a": a, "b": b,
+            "scale": r_amb / (kt_amb * kt_amb), "missing": missing, "usable": usable}
+
+
+def _hot_constants(env, c, usable, rise) -> tuple:
+    """(winding temperature of the hot corner [K], R, Kt, Ke there) at the peak rise ``rise`` [K]: the
+    winding at its peak, but never above its limit (hotter, the candidate fails the temperature check,
+    and every other check is judged at the hottest the winding may be); at the limit (or the fallback
+    temperature) where the rise is unknown or runaway."""
+    ta = env.ambient_temperature
+    fallback = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE, c["max_winding_temperature"])
+    tw_eval = np.where(usable & ~np.isinf(rise), np.fmin(ta + rise, fallback), fallback)
+    t_ref, beta = c["resistance_reference_temperature"], c["magnet_coefficient"]
+    return (tw_eval, resistance_at_temperature(c["terminal_resistance"], tw_eval, t_ref),
+            torque_constant_at_temperature(c["torque_constant"], tw_eval, beta, t_ref),
+            torque_constant_at_temperature(c["back_emf_constant"], tw_eval, beta, t_ref))
+
+
+def _motor_tables(env, c, seg):
+    """The per-motor tables of the compiled pass: (the 8 network maps (M, S), each candidate's row
+    in them (N,), the no-load loss's exact response (:func:`_no_load_response`)): the catalogue's,
+    built once (``seg``), else those of the chunk's motors."""
+    n_seg = len(env.duration)
+    if seg.get("motor_maps") is not None:
+        maps, owner, nl = seg["motor_maps"], np.asarray(c["motor_ix"], dtype=np.intp), seg["motor_no_load"]
+    else:
+        starts, runs = _motor_runs(c["motor_ix"])
+        net = [c[k][starts] for k in THERMAL_NETWORK_FIELDS]
+        maps = network_capacity_maps(env.duration, *net, periodic=bool(env.repeat))
+        owner = np.repeat(np.arange(len(starts)), runs)
+        nl = _no_load_response(env, net, np.asarray(c["no_load_at_winding"], dtype=bool)[starts])
+    n_motors = int(owner.max()) + 1 if seg.get("motor_maps") is None else np.shape(maps.e11)[0]
+    # C-contiguous, writeable float64 (M, S) each: the one signature the kernel is compiled for
+    tables = [getattr(maps, k) for k in ("e11", "e12", "e21", "e22", "hw", "hh", "qw", "qh")]
+    tables = [np.require(x if np.shape(x) == (n_motors, n_seg) else np.broadcast_to(x, (n_motors, n_seg)), float,
+                         ["C", "W"]) for x in tables]
+    return tables, owner, nl
+
+
+def _kernel_loads(env, c, seg) -> dict:
+    """:func:`_loads` for the verdict pass, compiled (:func:`catalog.select.kernel.verdict_pass`): per
+    candidate only (N,) arrays — the brackets ``upper`` and ``lower`` of the peak rise (the lower one
+    for every candidate) and the needed voltage with the winding at ambient (``need_cold``), at the
+    upper bracket (``need_upper``) and at the lower one (``need_lower``)."""
+    from . import kernel
+
+    base = _constants(env, c)
+    n = base["n"]
+    tables, owner, nl = _motor_tables(env, c, seg)
+    ratio = c["ratio"]
+    limit = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE,
+                     c["max_winding_temperature"]) - env.ambient_temperature
+    keys = ("sq_top", "sq_rms", "upper", "lower", "need_cold", "need_upper", "need_lower")
+    out = {k: np.empty(n) for k in keys}
+    kernel.verdict_pass(owner, base["coef"], seg["basis"], seg["w_mid"], seg["half_span"], env.duration,
+                        float(env.period), base["r_amb"] / base["kt_amb"], base["ke_amb"] * ratio,
+                        np.ascontiguousarray(c["brush_voltage_drop"], dtype=float), base["scale"], base["a"],
+                        base["b"], base["usable"], limit, *tables,
+                        np.ascontiguousarray(c["friction_torque"] * ratio),   # no-load loss per rad/s of load speed
+                        np.ascontiguousarray(np.asarray(c["no_load_at_winding"], dtype=bool)),
+                        nl["ends_w"], nl["ends_h"], nl["up_w"], nl["up_h"], nl["low_w"], nl["low_h"],
+                        bool(env.repeat), *(out[k] for k in keys))
+    base.update(out, brush_sign=None)
+    return base
+
+
+def _loads(env, c, seg, trajectory=False) -> dict:
+    """What does not depend on the winding temperature: torques, cold constants, the cold corner's
+    needed voltage, the cold network's extremes and the temperature brackets."""
+    base = _constants(env, c)
+    n, coef, r_amb, kt_amb, ke_amb = (base[k] for k in ("n", "coef", "r_amb", "kt_amb", "ke_amb"))
+    a, b, scale, missing, usable = (base[k] for k in ("a", "b", "scale", "missing", "usable"))
+    ratio = c["ratio"]
+    n_seg = len(seg["w0"])
+    t_em = np.matmul(seg["basis"], coef, out=_buffer("t_em", (n_seg, n)))   # (S, N)
+    t_sq = np.multiply(t_em, t_em, out=_buffer("t_sq", (n_seg, n)))
+    net = _cold_range(env, c, t_sq, usable, seg.get("motor_maps"), trajectory=trajectory,
+                      motor_no_load=seg.get("motor_no_load"))
     # the upper bracket of the peak rise: every copper loss held at the s(θ) = (1 + a·θ)/(1 + b·θ)² of the
     # peak (s grows with θ), the no-load loss at its bound from above; the lower one (:func:`_lower`) where
     # it is needed.  Operating points: the exact steady state of the hottest continuous point.
@@ -485,34 +575,19 @@ def _exact_rise(env, c, base, rows, start):
     return sol.peak, sol.segment_mean
 
 
-def _at_temperature(env, c, seg, base, rise, seg_rise=None, detail=False, energy=False, where=False,
-                    cold_only=False):
-    """Everything that follows from the peak winding rise ``rise`` (N,) [K] (inf: runaway): the hot
-    corner's voltage, the currents at the hot torque constant, the energy per cycle (R and Kt at each
-    segment's mean rise ``seg_rise`` (S, N) where known, else at the peak).  ``cold_only``: ``rise`` is
-    zero for every usable candidate (the verdicts with the winding at ambient)."""
+def _needed_voltage(seg, base, ratio, r_hot, kt_hot, ke_hot, cold_only, detail):
+    """(needed voltage (N,), per segment (S, N), where the hot corner is the worse (S, N) with
+    ``detail``) of the cold corner ``base["cold"]`` and the hot one (R, Kt and Ke at the peak):
+    |R/Kt·T_em + V_brush·sign(I) + Ke·n·ω| at the mid speed + Ke·n·|Δω|/2 gives the worse segment
+    end."""
     n, n_seg = base["n"], len(seg["w0"])
-    R, Kt, Ke = c["terminal_resistance"], c["torque_constant"], c["back_emf_constant"]
-    t_ref, beta = c["resistance_reference_temperature"], c["magnet_coefficient"]
-    ta = env.ambient_temperature
-    ratio, missing, usable = c["ratio"], base["missing"], base["usable"]
-    runaway = usable & np.isinf(rise)
-    fallback = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE, c["max_winding_temperature"])
-    # the hot corner: the winding at its peak, but never above its limit (hotter, the candidate fails the
-    # temperature check, and every other check is judged at the hottest the winding may be)
-    tw_eval = np.where(usable & ~runaway, np.fmin(ta + rise, fallback), fallback)
-    reported = np.where(missing, np.nan, np.where(runaway, np.inf, ta + rise))
-    r_hot = resistance_at_temperature(R, tw_eval, t_ref)
-    kt_hot = torque_constant_at_temperature(Kt, tw_eval, beta, t_ref)
-    ke_hot = torque_constant_at_temperature(Ke, tw_eval, beta, t_ref)
-    coef, t_em, t_sq, cold = base["coef"], base["t_em"], base["t_sq"], base["cold"]
-    # the hot corner: |R/Kt·T_em + Ke·n·ω| at the mid speed + Ke·n·|Δω|/2 gives the worse segment end
+    cold = base["cold"]
     if cold_only:                        # the winding at ambient: the hot corner is the cold one
         worse, need = np.zeros(cold.shape, bool), cold
     else:
         emf = ke_hot * ratio
         terms = _buffer("terms", (5, n))
-        np.multiply(coef, r_hot / kt_hot, out=terms[:4])
+        np.multiply(base["coef"], r_hot / kt_hot, out=terms[:4])
         terms[4] = emf
         v = np.matmul(seg["voltage_basis"], terms, out=_buffer("v", (n_seg, n)))
         if base["brush_sign"] is not None:
@@ -521,7 +596,32 @@ def _at_temperature(env, c, seg, base, rise, seg_rise=None, detail=False, energy
         v += np.multiply.outer(seg["half_span"], emf, out=_buffer("spread", (n_seg, n)))
         worse = v >= cold if detail else None
         need = np.fmax(cold, v, out=_buffer("need", (n_seg, n)))
-    need_w = np.fmax.reduce(need, axis=0)                              # NaN (no constants) never wins
+    return np.fmax.reduce(need, axis=0), need, worse                 # NaN (no constants) never wins
+
+
+def _at_temperature(env, c, seg, base, rise, seg_rise=None, detail=False, energy=False, where=False,
+                    cold_only=False, need=None):
+    """Everything that follows from the peak winding rise ``rise`` (N,) [K] (inf: runaway): the hot
+    corner's voltage, the currents at the hot torque constant, the energy per cycle (R and Kt at each
+    segment's mean rise ``seg_rise`` (S, N) where known, else at the peak).  ``cold_only``: ``rise`` is
+    zero for every usable candidate (the verdicts with the winding at ambient).  ``need`` (N,): the
+    needed voltage at ``rise``, already known (the compiled pass, :func:`_kernel_loads`: then
+    nothing per segment is computed here)."""
+    n, n_seg = base["n"], len(seg["w0"])
+    R, Kt, Ke = c["terminal_resistance"], c["torque_constant"], c["back_emf_constant"]
+    t_ref, beta = c["resistance_reference_temperature"], c["magnet_coefficient"]
+    ta = env.ambient_temperature
+    ratio, missing, usable = c["ratio"], base["missing"], base["usable"]
+    runaway = usable & np.isinf(rise)
+    tw_eval, r_hot, kt_hot, ke_hot = _hot_constants(env, c, usable, rise)
+    reported = np.where(missing, np.nan, np.where(runaway, np.inf, ta + rise))
+    if need is not None:
+        if detail or energy or where:
+            raise ValueError("a known needed voltage has no per-segment detail")
+        need_w = need
+    else:
+        need_w, need, worse = _needed_voltage(seg, base, ratio, r_hot, kt_hot, ke_hot, cold_only, detail)
+    coef, t_em, t_sq = base["coef"], base.get("t_em"), base.get("t_sq")
     avail = env.available_voltage
     sq_top = base["sq_top"]
     peak_current = np.sqrt(sq_top) / kt_hot
@@ -593,7 +693,7 @@ def _verdicts(env, c, r, n) -> np.ndarray:
 
 @_quiet
 def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict | None = None,
-             where: bool = True, exact: str = "all") -> dict:
+             where: bool = True, exact: str = "all", compiled: bool = False) -> dict:
     """Evaluate one chunk of candidates.
 
     Parameters
@@ -623,6 +723,12 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         the motor constants passes (a ranking by a number that moves with
         the temperature); ``"screen"`` the upper bracket (every loss at the
         peak temperature).
+    compiled : bool
+        Take the brackets and needed voltages of ``"band"`` and
+        ``"passing"`` on a cycle from the compiled pass
+        (:func:`catalog.select.kernel.verdict_pass`, needs numba): the same
+        numbers to rounding, without (S, N) arrays; ignored elsewhere and
+        with ``detail``, ``energy`` or ``where``.
 
     Returns
     -------
@@ -648,7 +754,8 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     brackets is decided without the exact solution.
     """
     seg = _segments(env) if seg is None else seg
-    base = _loads(env, c, seg, trajectory=exact == "all")
+    compiled = compiled and env.mode == "cycle" and exact in ("band", "passing") and not (detail or energy or where)
+    base = _kernel_loads(env, c, seg) if compiled else _loads(env, c, seg, trajectory=exact == "all")
     upper = base["upper"]
     n = base["n"]
     full = dict(detail=detail, energy=energy, where=where)
@@ -656,11 +763,11 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
         return _at_temperature(env, c, seg, base, upper, **full)
     usable = base["usable"]
     if exact != "all":
-        out = _at_temperature(env, c, seg, base, upper, **full)
+        out = _at_temperature(env, c, seg, base, upper, need=base.get("need_upper"), **full)
         fails_hi = _verdicts(env, c, out, n)
         # every verdict is monotone in the peak rise θ on [0, upper]: equal at θ = 0 and at the upper
         # bracket, it is decided; else the lower bracket may still decide it
-        cold = _at_temperature(env, c, seg, base, np.zeros(n), cold_only=True)
+        cold = _at_temperature(env, c, seg, base, np.zeros(n), cold_only=True, need=base.get("need_cold"))
         rows = np.flatnonzero(usable & np.any(fails_hi != _verdicts(env, c, cold, n), axis=0))
         open_ = np.zeros(n, bool)
         if exact == "passing":
@@ -670,15 +777,16 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
             # temperature check fails at both brackets: decided.  A closed-form lower bound first (the
             # tangent 1 + (a − 2b)·θ of s at 0 lies below s), the lower bracket where that is not enough
             limit = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE,
-                             c["max_winding_temperature"])[rows] - env.ambient_temperature
-            rows = rows[_quick_lower(env, base, rows) < limit]
-            limit = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE,
-                             c["max_winding_temperature"])[rows] - env.ambient_temperature
-            lower = _lower(env, base, rows)
-            rows, lower = rows[lower < limit], lower[lower < limit]
+                             c["max_winding_temperature"]) - env.ambient_temperature
+            if compiled:                  # the lower bracket is known for every candidate
+                lower = base["lower"][rows]
+            else:
+                rows = rows[_quick_lower(env, base, rows) < limit[rows]]
+                lower = _lower(env, base, rows)
+            rows, lower = rows[lower < limit[rows]], lower[lower < limit[rows]]
         if rows.size:
             sub_base, sub_c = _subset(base, c, rows)
-            lo = _at_temperature(env, sub_c, seg, sub_base, lower)
+            lo = _at_temperature(env, sub_c, seg, sub_base, lower, need=sub_base.get("need_lower"))
             open_[rows] |= np.any(_verdicts(env, sub_c, lo, len(rows)) != fails_hi[:, rows], axis=0)
         out["open"] = open_
         return out
@@ -701,16 +809,29 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     return _at_temperature(env, c, seg, base, rise, seg_rise, **full)
 
 @_quiet
-def rise_brackets(env, c: dict) -> tuple:
+def rise_brackets(env, c: dict, compiled: bool = False) -> tuple:
     """(lower, upper) brackets of the peak winding rise [K] of candidate rows ``c`` (NaN where thermal
-    data is missing, inf: runaway), as the verdict pass uses them: the exact rise lies between."""
+    data is missing, inf: runaway), as the verdict pass uses them: the exact rise lies between.
+    ``compiled``: from the compiled pass (:mod:`catalog.select.kernel`; a cycle only)."""
     seg = _segments(env)
+    if compiled:
+        base = _kernel_loads(env, c, seg)
+        return np.where(base["usable"], base["lower"], np.nan), base["upper"]
     base = _loads(env, c, seg)
     lower = np.full(base["n"], np.nan)
     rows = np.flatnonzero(base["usable"])
     if rows.size:
         lower[rows] = _lower(env, base, rows)
     return lower, base["upper"]
+
+
+def _kernel_available() -> bool:
+    """Whether the compiled verdict pass can run (numba imports)."""
+    try:
+        from . import kernel  # noqa: F401
+    except ImportError:
+        return False
+    return True
 
 
 def _chunk_starts(motor_ix, total: int, size: int = CHUNK) -> list:
@@ -802,7 +923,7 @@ def at_corners(env, c: dict, **kw) -> dict:
 
 @_quiet
 def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: bool = False,
-            where: bool = True, exact: str = "all") -> dict:
+            where: bool = True, exact: str = "all", compiled: bool = False) -> dict:
     """:func:`at_corners` plus the checks (no texts) of candidate rows ``c``.
 
     Adds every margin, ``fails_<check>`` per check, ``passed`` and, with
@@ -811,7 +932,7 @@ def checked(env, c: dict, energy: bool = True, seg: dict | None = None, detail: 
     """
     from .checks import CHECKS, run_checks
 
-    r = at_corners(env, c, detail=detail, energy=energy, seg=seg, where=where, exact=exact)
+    r = at_corners(env, c, detail=detail, energy=energy, seg=seg, where=where, exact=exact, compiled=compiled)
     margins, failed, _, _ = run_checks(env, c, r, with_texts=False)
     r.update(margins)
     r.update({"fails_" + k: failed[k] for k in CHECKS})
@@ -856,11 +977,14 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
     n_seg = len(env.duration)
     if is_set and env.mode == "cycle" and 9 * 8 * n_seg * len(cand.motors["id"]) <= MAPS_BYTES:
         mt = cand.motors   # the network maps of every motor, once (motor_ix indexes them)
-        with np.errstate(all="ignore"):
+        with np.errstate(all="ignore"), threadpool_limits(1, user_api="blas"):
             seg["motor_maps"] = network_capacity_maps(env.duration, *(mt[k] for k in THERMAL_NETWORK_FIELDS),
                                                       periodic=bool(env.repeat))
             seg["motor_no_load"] = _no_load_response(env, [mt[k] for k in THERMAL_NETWORK_FIELDS],
-                                                     mt["no_load_at_winding"])
+                                                     mt["no_load_at_winding"], workers=WORKERS)
+    # a large selection's verdict pass runs compiled (numba: its import and cached code cost about
+    # half a second, which only a large selection wins back)
+    compiled = env.mode == "cycle" and total >= KERNEL_MIN and _kernel_available()
     starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total, chunk_rows(n_seg))
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
@@ -876,7 +1000,8 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
         return {k: v[rows] for k, v in cand.items() if k in keys}
 
     def run(b):
-        r = checked(env, take(slice(*b)), energy=energy, seg=seg, where=wanted is None, exact=exact)
+        r = checked(env, take(slice(*b)), energy=energy, seg=seg, where=wanted is None, exact=exact,
+                    compiled=compiled)
         return b, (r if wanted is None else {k: v for k, v in r.items() if k in wanted or k == "open"})
 
     def run_exact(rows):
@@ -913,6 +1038,6 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
         # the candidates whose verdict (or ranked number) hangs on the exact winding temperature, solved
         # together: the same function as for the rows shown, so their verdicts agree
         rows = np.flatnonzero(out.pop("open")) if "open" in out else np.zeros(0, dtype=np.intp)
-        step = min(EXACT_CHUNK, chunk_rows(n_seg))
+        step = max(1, min(EXACT_CHUNK, chunk_rows(n_seg), -(-len(rows) // WORKERS)))   # every worker a share
         sweep(run_exact, [rows[i:i + step] for i in range(0, len(rows), step)])
     return out
