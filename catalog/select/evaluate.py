@@ -99,7 +99,7 @@ _RAMP_ARRAYS = 64        #: (S,) arrays per motor held at once by the no-load lo
 #: Candidates from which a selection's verdict pass runs compiled (:mod:`catalog.select.kernel`;
 #: the numpy path below it, and always for the numbers shown) [-]
 KERNEL_MIN = 200_000
-EXACT_CHUNK = 4096       #: candidates per chunk of the exact winding temperature [-]
+EXACT_CHUNK = 8192       #: candidates per chunk of the exact winding temperature [-]
 WORKERS = max(1, min(4, os.cpu_count() or 1))  #: chunks evaluated at once (threads) [-]
 FALLBACK_TEMPERATURE = 428.15  #: winding temperature assumed where thermal data is missing [K]
 
@@ -1038,6 +1038,8 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
         # the candidates whose verdict (or ranked number) hangs on the exact winding temperature, solved
         # together: the same function as for the rows shown, so their verdicts agree
         rows = np.flatnonzero(out.pop("open")) if "open" in out else np.zeros(0, dtype=np.intp)
-        step = max(1, min(EXACT_CHUNK, chunk_rows(n_seg), -(-len(rows) // WORKERS)))   # every worker a share
+        # in as few parts as memory allows: the exact solution is many small steps over (S, rows) arrays,
+        # whose cost is mostly per step (and under the interpreter lock), not per row
+        step = min(EXACT_CHUNK, chunk_rows(n_seg))
         sweep(run_exact, [rows[i:i + step] for i in range(0, len(rows), step)])
     return out

@@ -33,6 +33,9 @@ import numpy as np
 from ..physics.network import NEWTON_STEPS, NEWTON_TOLERANCE
 
 _jit = numba.njit(cache=True, nogil=True, error_model="numpy")
+#: candidates of one motor processed side by side (the per-segment steps of a block run over
+#: contiguous rows: the compiler vectorises them) [-]
+_BLOCK = 256
 _inline = numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 
 
@@ -86,85 +89,109 @@ def verdict_pass(owner, coef, basis, w_mid, half_span, dur, period, rho, emf, br
     the hot corner at each bracket (capped at ``limit``; at ``limit`` where not usable or runaway).
     """
     n_cand, n_seg = owner.shape[0], dur.shape[0]
-    ends = np.empty(n_seg + 1)
-    t = np.empty(n_seg)
-    for i in range(n_cand):
-        m = owner[i]
-        c0, c1, c2, c3 = coef[0, i], coef[1, i], coef[2, i], coef[3, i]
-        top_sq, sum_sq = 0.0, 0.0
-        xw, xh = 0.0, 0.0
+    width = _BLOCK
+    t = np.empty((n_seg, width))
+    ends = np.empty((n_seg + 1, width))
+    top, ssum, xw, xh = np.empty(width), np.empty(width), np.empty(width), np.empty(width)
+    peak, low, n0, n1, n2 = np.empty(width), np.empty(width), np.empty(width), np.empty(width), np.empty(width)
+    hi, lo, grown = np.empty(width), np.empty(width), np.empty(width)
+    rh1, em1, rh2, em2 = np.empty(width), np.empty(width), np.empty(width), np.empty(width)
+    i0 = 0
+    while i0 < n_cand:
+        # a block: candidates of one motor (its maps are scalars per segment), at most ``width``
+        m = owner[i0]
+        i1 = i0 + 1
+        while i1 < n_cand and i1 - i0 < width and owner[i1] == m:
+            i1 += 1
+        size = i1 - i0
+        for j in range(size):
+            top[j], ssum[j], xw[j], xh[j], n0[j] = 0.0, 0.0, 0.0, 0.0, np.nan
         for s in range(n_seg):
-            ts = basis[s, 0] * c0 + basis[s, 1] * c1 + basis[s, 2] * c2 + basis[s, 3] * c3
-            t[s] = ts
-            sq = ts * ts
-            if sq > top_sq or s == 0 or sq != sq:       # NaN wins, as np.maximum
-                top_sq = sq
-            sum_sq += dur[s] * sq
-            xw += qw[m, s] * sq
-            xh += qh[m, s] * sq
-        sq_top[i], sq_rms[i] = top_sq, sum_sq / period
-        rh, em, br, ai, bi = rho[i], emf[i], brush[i], a[i], b[i]
-        hi, lo = np.nan, np.nan
-        if usable[i]:
-            # the copper loss per (N·m)² through the network, R and Kt at ambient: the cycle start, then
-            # every segment end (the highest and the lowest are at one of them)
-            ends[0] = xw
-            peak, low = xw, xw
-            for s in range(n_seg):
-                sq = t[s] * t[s]
-                xw, xh = (e11[m, s] * xw + e12[m, s] * xh + hw[m, s] * sq,
-                          e21[m, s] * xw + e22[m, s] * xh + hh[m, s] * sq)
-                ends[s + 1] = xw
-                if xw > peak or xw != xw:
-                    peak = xw
-                if xw < low or xw != xw:
-                    low = xw
-            fi = f[i]
-            nl_ends = ends_w if at_w[i] else ends_h
-            nl_up = fi * (up_w[m] if at_w[i] else up_h[m])
-            nl_low = fi * (low_w[m] if at_w[i] else low_h[m])
-            sc = scale[i]
-            hi = offset_rise(peak * sc, nl_up, ai, bi)
-            # the lower bracket: every copper loss at the s of the cycle's coolest winding temperature
-            # (a single pass starts at ambient: s = 1), the no-load loss's exact rise at each end
-            grown = 1.0
-            floor = 0.0
-            if repeat:
-                floor = offset_rise(low * sc, nl_low, ai, bi)
-                grown = (1.0 + ai * floor) / (1.0 + bi * floor) ** 2
-            if math.isfinite(floor):
-                for k in range(n_seg + 1):
-                    y = ends[k] * sc * grown + fi * nl_ends[k, m]
-                    if y > lo or k == 0 or y != y:
-                        lo = y
-            else:
-                lo = np.inf
-        upper[i], lower[i] = hi, lo
-        # the needed voltage: |R/Kt·T_em + V_brush·sign(T_em) + Ke·n·ω_mid| + Ke·n·|Δω|/2 (the worse
-        # segment end) with the winding at ambient and in the hot corner at each bracket, capped at
-        # the winding's limit (at the limit where the rise is unknown or runaway); the larger of cold
-        # and hot per segment, the largest over segments (NaN never wins, as np.fmax)
-        cap = limit[i]
-        y1 = hi if usable[i] and hi < cap else cap
-        y2 = lo if usable[i] and lo < cap else cap
-        rh1, em1 = rh * (1.0 + ai * y1) / (1.0 + bi * y1), em * (1.0 + bi * y1)
-        rh2, em2 = rh * (1.0 + ai * y2) / (1.0 + bi * y2), em * (1.0 + bi * y2)
-        n0, n1, n2 = np.nan, np.nan, np.nan
+            b0, b1, b2, b3 = basis[s, 0], basis[s, 1], basis[s, 2], basis[s, 3]
+            w, h, d, qws, qhs = w_mid[s], half_span[s], dur[s], qw[m, s], qh[m, s]
+            for j in range(size):
+                i = i0 + j
+                ts = b0 * coef[0, i] + b1 * coef[1, i] + b2 * coef[2, i] + b3 * coef[3, i]
+                t[s, j] = ts
+                sq = ts * ts
+                tp = top[j]
+                top[j] = sq if s == 0 else (tp if tp != tp else (sq if not (sq <= tp) else tp))   # NaN wins
+                ssum[j] += d * sq
+                xw[j] += qws * sq
+                xh[j] += qhs * sq
+                br = brush[i]
+                extra = (br if ts > 0.0 else (-br if ts < 0.0 else 0.0)) if br > 0.0 else 0.0
+                v = abs(rho[i] * ts + extra + emf[i] * w) + emf[i] * h
+                nn = n0[j]
+                n0[j] = v if (nn != nn or v > nn) else nn                       # NaN never wins
+        # the copper loss per (N·m)² through the network, R and Kt at ambient: the cycle start, then
+        # every segment end (the highest and the lowest are at one of them)
+        for j in range(size):
+            ends[0, j], peak[j], low[j] = xw[j], xw[j], xw[j]
         for s in range(n_seg):
-            ts, w, h = t[s], w_mid[s], half_span[s]
-            extra = br * np.sign(ts) if br > 0.0 else 0.0      # the brushes drop it in the current's direction
-            v0 = abs(rh * ts + extra + em * w) + em * h
-            v1 = abs(rh1 * ts + extra + em1 * w) + em1 * h
-            v2 = abs(rh2 * ts + extra + em2 * w) + em2 * h
-            v1 = v0 if v1 != v1 or v0 > v1 else v1
-            v2 = v0 if v2 != v2 or v0 > v2 else v2
-            if n0 != n0 or v0 > n0:
-                n0 = v0
-            if n1 != n1 or v1 > n1:
-                n1 = v1
-            if n2 != n2 or v2 > n2:
-                n2 = v2
-        need_cold[i], need_upper[i], need_lower[i] = n0, n1, n2
+            a11, a12, a21, a22, gw, gh = e11[m, s], e12[m, s], e21[m, s], e22[m, s], hw[m, s], hh[m, s]
+            for j in range(size):
+                sq = t[s, j] * t[s, j]
+                nw = a11 * xw[j] + a12 * xh[j] + gw * sq
+                xh[j] = a21 * xw[j] + a22 * xh[j] + gh * sq
+                xw[j] = nw
+                ends[s + 1, j] = nw
+                pk, lw = peak[j], low[j]
+                peak[j] = pk if pk != pk else (nw if not (nw <= pk) else pk)
+                low[j] = lw if lw != lw else (nw if not (nw >= lw) else lw)
+        for j in range(size):
+            i = i0 + j
+            sq_top[i], sq_rms[i], need_cold[i] = top[j], ssum[j] / period, n0[j]
+            hi[j], lo[j], grown[j] = np.nan, -np.inf, 1.0
+            if usable[i]:
+                fi, sc, ai, bi = f[i], scale[i], a[i], b[i]
+                hi[j] = offset_rise(peak[j] * sc, fi * (up_w[m] if at_w[i] else up_h[m]), ai, bi)
+                # the lower bracket: every copper loss at the s of the cycle's coolest winding temperature
+                # (a single pass starts at ambient: s = 1), the no-load loss's exact rise at each end
+                if repeat:
+                    floor = offset_rise(low[j] * sc, fi * (low_w[m] if at_w[i] else low_h[m]), ai, bi)
+                    if math.isfinite(floor):
+                        grown[j] = (1.0 + ai * floor) / (1.0 + bi * floor) ** 2
+                    else:
+                        grown[j], lo[j] = np.nan, np.inf
+        for k in range(n_seg + 1):
+            nlw, nlh = ends_w[k, m], ends_h[k, m]
+            for j in range(size):
+                i = i0 + j
+                y = ends[k, j] * scale[i] * grown[j] + f[i] * (nlw if at_w[i] else nlh)
+                cur = lo[j]
+                lo[j] = cur if (cur != cur or cur == np.inf) else (y if (k == 0 or not (y <= cur)) else cur)
+        # the needed voltage in the hot corner at each bracket, capped at the winding's limit (at the
+        # limit where the rise is unknown or runaway): the larger of cold and hot per segment, the largest
+        # over segments (NaN never wins, as np.fmax)
+        for j in range(size):
+            i = i0 + j
+            if not usable[i]:
+                lo[j] = np.nan
+            cap = limit[i]
+            y1 = hi[j] if usable[i] and hi[j] < cap else cap
+            y2 = lo[j] if usable[i] and lo[j] < cap else cap
+            rh, em, ai, bi = rho[i], emf[i], a[i], b[i]
+            rh1[j], em1[j] = rh * (1.0 + ai * y1) / (1.0 + bi * y1), em * (1.0 + bi * y1)
+            rh2[j], em2[j] = rh * (1.0 + ai * y2) / (1.0 + bi * y2), em * (1.0 + bi * y2)
+            n1[j], n2[j] = n0[j], n0[j]
+            upper[i], lower[i] = hi[j], lo[j]
+        for s in range(n_seg):
+            w, h = w_mid[s], half_span[s]
+            for j in range(size):
+                i = i0 + j
+                ts = t[s, j]
+                br = brush[i]
+                extra = (br if ts > 0.0 else (-br if ts < 0.0 else 0.0)) if br > 0.0 else 0.0
+                v = abs(rh1[j] * ts + extra + em1[j] * w) + em1[j] * h
+                nn = n1[j]
+                n1[j] = v if (nn != nn or v > nn) else nn
+                v = abs(rh2[j] * ts + extra + em2[j] * w) + em2[j] * h
+                nn = n2[j]
+                n2[j] = v if (nn != nn or v > nn) else nn
+        for j in range(size):
+            need_upper[i0 + j], need_lower[i0 + j] = n1[j], n2[j]
+        i0 = i1
 
 
 def warm() -> None:
