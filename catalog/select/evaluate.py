@@ -765,28 +765,34 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
     if exact != "all":
         out = _at_temperature(env, c, seg, base, upper, need=base.get("need_upper"), **full)
         fails_hi = _verdicts(env, c, out, n)
-        # every verdict is monotone in the peak rise θ on [0, upper]: equal at θ = 0 and at the upper
-        # bracket, it is decided; else the lower bracket may still decide it
-        cold = _at_temperature(env, c, seg, base, np.zeros(n), cold_only=True, need=base.get("need_cold"))
+        open_ = usable & ~np.any(fails_hi, axis=0) if exact == "passing" else np.zeros(n, bool)
+        if compiled:
+            # every verdict is monotone in the peak rise θ on [0, upper]: equal at the lower bracket (known
+            # for every candidate here) and at the upper one, it is decided (at or beyond the winding's
+            # limit both are judged at the limit, where the temperature check fails at both)
+            lo = _at_temperature(env, c, seg, base, base["lower"], need=base["need_lower"])
+            open_ |= usable & np.any(_verdicts(env, c, lo, n) != fails_hi, axis=0)
+            out["open"] = open_
+            return out
+        # the same on the numpy path, where the lower bracket costs a sweep of the network per candidate:
+        # equal at θ = 0 and at the upper bracket, a verdict is decided; else the lower bracket may still
+        # decide it
+        cold = _at_temperature(env, c, seg, base, np.zeros(n), cold_only=True)
         rows = np.flatnonzero(usable & np.any(fails_hi != _verdicts(env, c, cold, n), axis=0))
-        open_ = np.zeros(n, bool)
-        if exact == "passing":
-            open_ = usable & ~np.any(fails_hi, axis=0)
         if rows.size:
             # at or beyond the winding's limit every other check is judged at the limit (capped) and the
             # temperature check fails at both brackets: decided.  A closed-form lower bound first (the
             # tangent 1 + (a − 2b)·θ of s at 0 lies below s), the lower bracket where that is not enough
             limit = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE,
-                             c["max_winding_temperature"]) - env.ambient_temperature
-            if compiled:                  # the lower bracket is known for every candidate
-                lower = base["lower"][rows]
-            else:
-                rows = rows[_quick_lower(env, base, rows) < limit[rows]]
-                lower = _lower(env, base, rows)
-            rows, lower = rows[lower < limit[rows]], lower[lower < limit[rows]]
+                             c["max_winding_temperature"])[rows] - env.ambient_temperature
+            rows = rows[_quick_lower(env, base, rows) < limit]
+            limit = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE,
+                             c["max_winding_temperature"])[rows] - env.ambient_temperature
+            lower = _lower(env, base, rows)
+            rows, lower = rows[lower < limit], lower[lower < limit]
         if rows.size:
             sub_base, sub_c = _subset(base, c, rows)
-            lo = _at_temperature(env, sub_c, seg, sub_base, lower, need=sub_base.get("need_lower"))
+            lo = _at_temperature(env, sub_c, seg, sub_base, lower)
             open_[rows] |= np.any(_verdicts(env, sub_c, lo, len(rows)) != fails_hi[:, rows], axis=0)
         out["open"] = open_
         return out
