@@ -62,7 +62,7 @@ from __future__ import annotations
 
 __all__ = ["evaluate", "at_corners", "checked", "rise_brackets", "evaluate_all", "checked_in_chunks", "chunk_rows",
            "CHUNK",
-           "CHUNK_BYTES", "EXACT_CHUNK", "KERNEL_MIN", "WORKERS", "FALLBACK_TEMPERATURE"]
+           "CHUNK_BYTES", "EXACT_CHUNK", "KERNEL_MIN", "KERNEL_CHUNK", "WORKERS", "FALLBACK_TEMPERATURE"]
 
 import math
 import os
@@ -99,6 +99,9 @@ _RAMP_ARRAYS = 64        #: (S,) arrays per motor held at once by the no-load lo
 #: Candidates from which a selection's verdict pass runs compiled (:mod:`catalog.select.kernel`;
 #: the numpy path below it, and always for the numbers shown) [-]
 KERNEL_MIN = 200_000
+#: Candidates per chunk of the compiled pass (it holds no (S, N) arrays, whatever the segments S;
+#: fewer, larger chunks spend less time in the interpreter) [-]
+KERNEL_CHUNK = 131072
 EXACT_CHUNK = 8192       #: candidates per chunk of the exact winding temperature [-]
 WORKERS = max(1, min(4, os.cpu_count() or 1))  #: chunks evaluated at once (threads) [-]
 FALLBACK_TEMPERATURE = 428.15  #: winding temperature assumed where thermal data is missing [K]
@@ -402,17 +405,19 @@ def _constants(env, c) -> dict:
             "scale": r_amb / (kt_amb * kt_amb), "missing": missing, "usable": usable}
 
 
-def _hot_constants(env, c, usable, rise) -> tuple:
+def _hot_constants(env, c, usable, rise, kt_only: bool = False) -> tuple:
     """(winding temperature of the hot corner [K], R, Kt, Ke there) at the peak rise ``rise`` [K]: the
     winding at its peak, but never above its limit (hotter, the candidate fails the temperature check,
     and every other check is judged at the hottest the winding may be); at the limit (or the fallback
-    temperature) where the rise is unknown or runaway."""
+    temperature) where the rise is unknown or runaway.  ``kt_only``: R and Ke are None (not needed)."""
     ta = env.ambient_temperature
     fallback = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE, c["max_winding_temperature"])
     tw_eval = np.where(usable & ~np.isinf(rise), np.fmin(ta + rise, fallback), fallback)
     t_ref, beta = c["resistance_reference_temperature"], c["magnet_coefficient"]
-    return (tw_eval, resistance_at_temperature(c["terminal_resistance"], tw_eval, t_ref),
-            torque_constant_at_temperature(c["torque_constant"], tw_eval, beta, t_ref),
+    kt = torque_constant_at_temperature(c["torque_constant"], tw_eval, beta, t_ref)
+    if kt_only:
+        return tw_eval, None, kt, None
+    return (tw_eval, resistance_at_temperature(c["terminal_resistance"], tw_eval, t_ref), kt,
             torque_constant_at_temperature(c["back_emf_constant"], tw_eval, beta, t_ref))
 
 
@@ -613,7 +618,7 @@ def _at_temperature(env, c, seg, base, rise, seg_rise=None, detail=False, energy
     ta = env.ambient_temperature
     ratio, missing, usable = c["ratio"], base["missing"], base["usable"]
     runaway = usable & np.isinf(rise)
-    tw_eval, r_hot, kt_hot, ke_hot = _hot_constants(env, c, usable, rise)
+    tw_eval, r_hot, kt_hot, ke_hot = _hot_constants(env, c, usable, rise, kt_only=need is not None)
     reported = np.where(missing, np.nan, np.where(runaway, np.inf, ta + rise))
     if need is not None:
         if detail or energy or where:
@@ -991,7 +996,8 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
     # a large selection's verdict pass runs compiled (numba: its import and cached code cost about
     # half a second, which only a large selection wins back)
     compiled = env.mode == "cycle" and total >= KERNEL_MIN and _kernel_available()
-    starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total, chunk_rows(n_seg))
+    size = KERNEL_CHUNK if compiled else chunk_rows(n_seg)
+    starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total, size)
     bounds = list(zip(starts, starts[1:] + [total]))
     keys = tuple(dict.fromkeys(EVAL_KEYS + check_keys(env)))
     wanted = None if keep is None else {"passed", *("fails_" + k for k in CHECKS), *keep}
