@@ -40,14 +40,21 @@ def _harder(c):
     return c
 
 
-@pytest.mark.parametrize("case", CASES)
-@pytest.mark.parametrize("hard", [False, True])
-def test_compiled_brackets_are_the_numpy_brackets(demo_catalog, envelope_file, case, hard):
-    # Reference: evaluate.rise_brackets on the numpy path (itself checked against the exact solution
-    # in test_thermal_model.py): the compiled pass forms the same brackets, to rounding.
+@pytest.fixture(params=[(case, hard) for case in CASES for hard in (False, True)],
+                ids=[f"case{i}-{'hard' if hard else 'plain'}" for i in range(len(CASES)) for hard in (False, True)])
+def case_rows(request, demo_catalog, envelope_file):
+    """(envelope, candidate rows) of a reversing cycle on the demo catalogue, with the demo's data or
+    the harder one of :func:`_harder`."""
+    case, hard = request.param
     env = load_envelope(envelope_file(REVERSING.format(**case)))
     _, c = _rows(demo_catalog, env)
-    c = _harder(c) if hard else c
+    return env, (_harder(c) if hard else c)
+
+
+def test_compiled_brackets_are_the_numpy_brackets(case_rows):
+    # Reference: evaluate.rise_brackets on the numpy path (itself checked against the exact solution
+    # in test_thermal_model.py): the compiled pass forms the same brackets, to rounding.
+    env, c = case_rows
     lower, upper = evaluate.rise_brackets(env, c)
     k_lower, k_upper = evaluate.rise_brackets(env, c, compiled=True)
     assert np.isfinite(upper).sum() > 100
@@ -55,14 +62,10 @@ def test_compiled_brackets_are_the_numpy_brackets(demo_catalog, envelope_file, c
     np.testing.assert_allclose(k_lower, lower, rtol=1e-9, atol=1e-9, equal_nan=True)
 
 
-@pytest.mark.parametrize("case", CASES)
-@pytest.mark.parametrize("hard", [False, True])
-def test_compiled_verdicts_are_the_numpy_verdicts(demo_catalog, envelope_file, case, hard):
+def test_compiled_verdicts_are_the_numpy_verdicts(case_rows):
     # The verdict pass with the compiled brackets and needed voltages: every check's verdict, the open
     # candidates and the numbers at the upper bracket as on the numpy path.
-    env = load_envelope(envelope_file(REVERSING.format(**case)))
-    _, c = _rows(demo_catalog, env)
-    c = _harder(c) if hard else c
+    env, c = case_rows
     kw = dict(exact="band", where=False, energy=False)
     ref = evaluate.checked(env, c, **kw)
     got = evaluate.checked(env, c, compiled=True, **kw)
