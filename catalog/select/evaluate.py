@@ -836,6 +836,33 @@ def rise_brackets(env, c: dict, compiled: bool = False) -> tuple:
     return lower, base["upper"]
 
 
+#: Keep freed memory for reuse once a large selection runs (:func:`_keep_freed_memory`) [-]
+KEEP_FREED_MEMORY = True
+_ALLOCATOR_SET = []
+
+
+def _keep_freed_memory() -> None:
+    """Once per process, on the first large selection (glibc only, else nothing): the C allocator keeps
+    freed blocks of up to 64 MiB in its heap for reuse (``mallopt``: mmap threshold 64 MiB, trim
+    threshold 1 GiB) instead of handing each megabyte-sized temporary of a chunk back to the operating
+    system and faulting its pages in afresh for the next one.  Measured on the 2M-candidate benchmark
+    (2-core VM): 60k–300k minor page faults per selection, 0.2–0.8 s of system time, down to about 1k
+    from the third selection on.  The cost: the process keeps up to the selection's peak memory after
+    it (a command ends anyway; a server reuses it for the next selection)."""
+    if _ALLOCATOR_SET or not KEEP_FREED_MEMORY:
+        return
+    _ALLOCATOR_SET.append(True)
+    import ctypes
+    import platform
+
+    if platform.system() != "Linux" or platform.libc_ver()[0] != "glibc":
+        return
+    mallopt = getattr(ctypes.CDLL(None), "mallopt", None)
+    if mallopt is not None:
+        mallopt(-3, 64 * 2**20)      # M_MMAP_THRESHOLD [bytes]
+        mallopt(-1, 2**30)           # M_TRIM_THRESHOLD [bytes]
+
+
 def _kernel_available() -> bool:
     """Whether the compiled verdict pass can run (numba imports)."""
     try:
@@ -996,6 +1023,8 @@ def evaluate_all(env, cand, energy: bool = True, keep=None) -> dict:
     # a large selection's verdict pass runs compiled (numba: its import and cached code cost about
     # half a second, which only a large selection wins back)
     compiled = env.mode == "cycle" and total >= KERNEL_MIN and _kernel_available()
+    if total >= KERNEL_MIN:
+        _keep_freed_memory()
     size = KERNEL_CHUNK if compiled else chunk_rows(n_seg)
     starts = _chunk_starts(np.asarray(cand.motor_ix if is_set else cand["motor_ix"]), total, size)
     bounds = list(zip(starts, starts[1:] + [total]))
