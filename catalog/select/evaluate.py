@@ -405,13 +405,19 @@ def _constants(env, c) -> dict:
             "scale": r_amb / (kt_amb * kt_amb), "missing": missing, "usable": usable}
 
 
+def _winding_limit(c) -> np.ndarray:
+    """The winding's temperature limit of each candidate [K]: the datasheet's, else
+    :data:`FALLBACK_TEMPERATURE`."""
+    return np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE, c["max_winding_temperature"])
+
+
 def _hot_constants(env, c, usable, rise, kt_only: bool = False) -> tuple:
     """(winding temperature of the hot corner [K], R, Kt, Ke there) at the peak rise ``rise`` [K]: the
     winding at its peak, but never above its limit (hotter, the candidate fails the temperature check,
     and every other check is judged at the hottest the winding may be); at the limit (or the fallback
     temperature) where the rise is unknown or runaway.  ``kt_only``: R and Ke are None (not needed)."""
     ta = env.ambient_temperature
-    fallback = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE, c["max_winding_temperature"])
+    fallback = _winding_limit(c)
     tw_eval = np.where(usable & ~np.isinf(rise), np.fmin(ta + rise, fallback), fallback)
     t_ref, beta = c["resistance_reference_temperature"], c["magnet_coefficient"]
     kt = torque_constant_at_temperature(c["torque_constant"], tw_eval, beta, t_ref)
@@ -453,8 +459,7 @@ def _kernel_loads(env, c, seg) -> dict:
     n = base["n"]
     tables, owner, nl = _motor_tables(env, c, seg)
     ratio = c["ratio"]
-    limit = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE,
-                     c["max_winding_temperature"]) - env.ambient_temperature
+    limit = _winding_limit(c) - env.ambient_temperature
     keys = ("sq_top", "sq_rms", "upper", "lower", "need_cold", "need_upper", "need_lower")
     out = {k: np.empty(n) for k in keys}
     kernel.verdict_pass(owner, base["coef"], seg["basis"], seg["w_mid"], seg["half_span"], env.duration,
@@ -788,13 +793,10 @@ def evaluate(env, c: dict, detail: bool = False, energy: bool = True, seg: dict 
             # at or beyond the winding's limit every other check is judged at the limit (capped) and the
             # temperature check fails at both brackets: decided.  A closed-form lower bound first (the
             # tangent 1 + (a − 2b)·θ of s at 0 lies below s), the lower bracket where that is not enough
-            limit = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE,
-                             c["max_winding_temperature"])[rows] - env.ambient_temperature
-            rows = rows[_quick_lower(env, base, rows) < limit]
-            limit = np.where(np.isnan(c["max_winding_temperature"]), FALLBACK_TEMPERATURE,
-                             c["max_winding_temperature"])[rows] - env.ambient_temperature
+            limit = _winding_limit(c) - env.ambient_temperature
+            rows = rows[_quick_lower(env, base, rows) < limit[rows]]
             lower = _lower(env, base, rows)
-            rows, lower = rows[lower < limit], lower[lower < limit]
+            rows, lower = rows[lower < limit[rows]], lower[lower < limit[rows]]
         if rows.size:
             sub_base, sub_c = _subset(base, c, rows)
             lo = _at_temperature(env, sub_c, seg, sub_base, lower)
